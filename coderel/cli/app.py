@@ -1,0 +1,17 @@
+"""The typer application object that every command module registers on."""
+
+from __future__ import annotations
+
+import typer
+
+app = typer.Typer(
+    name="coderel",
+    help=(
+        "Reliability of coded narrative data: codebook, coding sheets, validation, agreement "
+        "with intervals, adjudication, reconciled dataset and report. Works offline."
+    ),
+    no_args_is_help=True,
+    add_completion=False,
+    pretty_exceptions_enable=False,
+    rich_markup_mode=None,
+)

@@ -1,0 +1,174 @@
+"""What every command shares: options, consoles, JSON output, problem tables and exit codes.
+
+Data (tables, JSON) go to stdout; messages go to stderr. Colour and progress bars appear only on
+a terminal (and never when ``NO_COLOR`` is set). Errors never show local variables or input
+values: narrative reports can hold personal details.
+"""
+
+from __future__ import annotations
+
+import functools
+import json
+import math
+import os
+import sys
+import traceback
+from collections.abc import Callable
+from pathlib import Path
+from typing import Annotated, Any, TypeVar
+
+import typer
+from rich.console import Console
+from rich.table import Table
+
+from coderel.errors import CodebookError, CoderelError, DataProblems, ExitCode, InputRefused
+from coderel.problems import Problems
+
+F = TypeVar("F", bound=Callable[..., Any])
+
+# ---- shared option types -------------------------------------------------------------------
+CodebookOption = Annotated[
+    Path,
+    typer.Option("--codebook", "-c", help="Codebook file (.yaml, .yml, or Frictionless .json)."),
+]
+DataArgument = Annotated[
+    list[Path],
+    typer.Argument(help="Coders' sheets: files (.xlsx, .csv, .parquet) or folders holding them."),
+]
+JsonOption = Annotated[
+    bool, typer.Option("--json", help="Print machine-readable JSON on stdout instead of a table.")
+]
+SeedOption = Annotated[int, typer.Option("--seed", help="Seed of the bootstrap (reproducible).")]
+
+
+def _is_terminal(stream: Any) -> bool:
+    return bool(getattr(stream, "isatty", lambda: False)())
+
+
+def out_console() -> Console:
+    """Console for data on stdout; plain text when stdout is not a terminal."""
+    plain = not _is_terminal(sys.stdout) or "NO_COLOR" in os.environ
+    return Console(
+        file=sys.stdout,
+        no_color=plain,
+        highlight=False,
+        soft_wrap=plain,
+        width=200 if plain else None,
+    )
+
+
+def err_console() -> Console:
+    """Console for messages on stderr."""
+    plain = not _is_terminal(sys.stderr) or "NO_COLOR" in os.environ
+    return Console(file=sys.stderr, no_color=plain, highlight=False, soft_wrap=plain)
+
+
+def show_progress() -> bool:
+    """Progress bars only on an interactive terminal."""
+    return _is_terminal(sys.stderr) and "CI" not in os.environ
+
+
+def _jsonable(obj: Any) -> Any:
+    if isinstance(obj, float) and not math.isfinite(obj):
+        return None
+    if isinstance(obj, dict):
+        return {str(k): _jsonable(v) for k, v in obj.items()}
+    if isinstance(obj, list | tuple):
+        return [_jsonable(v) for v in obj]
+    if hasattr(obj, "item") and callable(obj.item):  # numpy scalars
+        return _jsonable(obj.item())
+    if isinstance(obj, Path):
+        return str(obj)
+    return obj
+
+
+def emit_json(obj: Any) -> None:
+    """Write ``obj`` as JSON on stdout (NaN and infinities become ``null``)."""
+    sys.stdout.write(json.dumps(_jsonable(obj), indent=2, ensure_ascii=False, allow_nan=False))
+    sys.stdout.write("\n")
+    sys.stdout.flush()
+
+
+def say(message: str) -> None:
+    """A message for the person at the terminal (stderr)."""
+    err_console().print(message)
+
+
+def problems_table(problems: Problems, *, title: str | None = None) -> Table:
+    """A rich table of problems, one row each."""
+    table = Table(title=title, show_lines=False)
+    for name in ("severity", "code", "where", "unit", "coder", "variable", "message", "hint"):
+        table.add_column(name, overflow="fold")
+    for p in problems:
+        sev = "[red]error[/red]" if p.severity == "error" else "[yellow]warning[/yellow]"
+        table.add_row(
+            sev,
+            p.code,
+            p.where(),
+            p.unit or "",
+            p.coder or "",
+            p.variable or "",
+            p.message,
+            p.hint or "",
+        )
+    return table
+
+
+def print_problems(problems: Problems, *, to_stderr: bool = True) -> None:
+    """Print problems as a table (stderr by default: they are messages, not the command's data)."""
+    if not problems:
+        return
+    console = err_console() if to_stderr else out_console()
+    console.print(problems_table(problems))
+    console.print(f"{len(problems.errors)} error(s), {len(problems.warnings)} warning(s).")
+
+
+def _safe_traceback() -> str:
+    """Frames of the current exception, with no message and no local variables."""
+    etype, _, tb = sys.exc_info()
+    frames = traceback.extract_tb(tb)
+    lines = [f"  {Path(f.filename).name}:{f.lineno} in {f.name}" for f in frames[-6:]]
+    name = etype.__name__ if etype else "Exception"
+    return "\n".join([f"internal error ({name}) at:", *lines])
+
+
+def handle_errors(func: F) -> F:
+    """Map coderel's exceptions to messages and exit codes; hide values on internal errors.
+
+    The command body returns an :class:`ExitCode` (or ``None`` for success).
+    """
+
+    @functools.wraps(func)
+    def wrapper(*args: Any, **kwargs: Any) -> Any:
+        try:
+            code = func(*args, **kwargs)
+        except (typer.Exit, typer.Abort):
+            raise
+        except (CodebookError, DataProblems) as exc:
+            print_problems(exc.problems)
+            say(f"[red]{exc}[/red]")
+            raise typer.Exit(int(exc.exit_code)) from None
+        except InputRefused as exc:
+            if exc.problems:
+                print_problems(exc.problems)
+            say(f"[red]input refused:[/red] {exc}")
+            raise typer.Exit(int(ExitCode.INPUT_REFUSED)) from None
+        except CoderelError as exc:
+            say(f"[red]error:[/red] {exc}")
+            raise typer.Exit(int(exc.exit_code)) from None
+        except KeyboardInterrupt:
+            say("interrupted; no output was changed")
+            raise typer.Exit(130) from None
+        except Exception:
+            if os.environ.get("CODEREL_DEBUG"):
+                traceback.print_exc()
+            else:
+                say(_safe_traceback())
+                say(
+                    "This is a bug in coderel. Messages are withheld because they could quote "
+                    "your data; set CODEREL_DEBUG=1 to see them."
+                )
+            raise typer.Exit(int(ExitCode.INTERNAL)) from None
+        raise typer.Exit(int(code or ExitCode.OK))
+
+    return wrapper  # type: ignore[return-value]

@@ -1,0 +1,177 @@
+"""The one internal table of codings, in long form: (unit, coder, variable) -> value.
+
+Every reader produces a :class:`Codings`; every later step (validation summary, agreement,
+adjudication, merge, report) reads only this table. Columns of :attr:`Codings.frame`:
+
+``unit`` (str)
+    Unit ID as text, spaces stripped.
+``coder`` (str)
+    Coder name (file stem, sheet name, or the ``coder`` column).
+``variable`` (str)
+    Variable name from the codebook.
+``value`` (object)
+    The normalised value, or ``None`` when the cell is blank, holds a missing code, or is invalid:
+    a category code (``int`` or ``str``, exactly as in the codebook) for single-choice variables;
+    a ``tuple`` of codes in codebook order for multi-select variables; a ``float`` for interval and
+    ratio variables.
+``missing`` (object)
+    The missing code given (``99``), else ``None``.
+``applies`` (object)
+    ``True``/``False`` from the variable's ``applies_when`` condition evaluated on the same coder's
+    value of the condition variable; ``None`` when that value is blank or missing. Always ``True``
+    for variables without a condition.
+``file``, ``sheet``, ``cell`` (str or None)
+    Where the value came from, e.g. ``coder_a.xlsx``, ``Sheet1``, ``C14``.
+
+A coder who skipped a unit has no rows for it; a unit row with a blank cell has a row whose
+``value`` is ``None``. Narrative text columns are kept apart in :attr:`Codings.texts` (unit, coder,
+column, text) and never appear in messages or logs.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from dataclasses import dataclass, field
+from typing import Any
+
+import pandas as pd
+
+from coderel.codebook import Codebook, Variable
+from coderel.problems import Problems
+
+CODING_COLUMNS: tuple[str, ...] = (
+    "unit",
+    "coder",
+    "variable",
+    "value",
+    "missing",
+    "applies",
+    "file",
+    "sheet",
+    "cell",
+)
+TEXT_COLUMNS: tuple[str, ...] = ("unit", "coder", "column", "text")
+
+
+@dataclass(frozen=True, slots=True)
+class SourceFile:
+    """An input file with its SHA-256, for provenance and reproducibility blocks."""
+
+    path: str
+    sha256: str
+    size: int
+
+
+@dataclass(frozen=True)
+class Codings:
+    """All codings of one project, in long form, with the problems found while reading them."""
+
+    codebook: Codebook
+    frame: pd.DataFrame
+    texts: pd.DataFrame = field(default_factory=lambda: pd.DataFrame(columns=list(TEXT_COLUMNS)))
+    problems: Problems = field(default_factory=Problems)
+    sources: tuple[SourceFile, ...] = ()
+
+    @classmethod
+    def from_records(
+        cls,
+        codebook: Codebook,
+        records: Sequence[dict[str, Any]] | pd.DataFrame,
+        *,
+        texts: pd.DataFrame | None = None,
+        problems: Problems | None = None,
+        sources: Sequence[SourceFile] = (),
+    ) -> Codings:
+        """Build from rows holding at least unit, coder, variable, value (already normalised).
+
+        Missing provenance columns are filled with ``None``; ``applies`` is computed from the
+        codebook's conditions when absent.
+        """
+        frame = pd.DataFrame(records).copy()
+        for col in ("unit", "coder", "variable", "value"):
+            if col not in frame.columns:
+                raise ValueError(f"codings need a {col!r} column")
+        frame["unit"] = frame["unit"].astype(str)
+        frame["coder"] = frame["coder"].astype(str)
+        frame["variable"] = frame["variable"].astype(str)
+        for col in ("missing", "file", "sheet", "cell"):
+            if col not in frame.columns:
+                frame[col] = None
+        frame = frame.astype({"value": object, "missing": object})
+        frame["value"] = [None if _is_na(v) else v for v in frame["value"]]
+        frame["missing"] = [None if _is_na(v) else v for v in frame["missing"]]
+        if "applies" not in frame.columns:
+            frame["applies"] = applicability(codebook, frame)
+        frame = frame[list(CODING_COLUMNS)].reset_index(drop=True)
+        return cls(
+            codebook=codebook,
+            frame=frame,
+            texts=texts if texts is not None else pd.DataFrame(columns=list(TEXT_COLUMNS)),
+            problems=problems if problems is not None else Problems(),
+            sources=tuple(sources),
+        )
+
+    @property
+    def coders(self) -> list[str]:
+        """Coder names in order of first appearance."""
+        return list(dict.fromkeys(self.frame["coder"]))
+
+    @property
+    def units(self) -> list[str]:
+        """Unit IDs in order of first appearance."""
+        return list(dict.fromkeys(self.frame["unit"]))
+
+    def for_variable(self, name: str) -> pd.DataFrame:
+        """Rows of one variable."""
+        return self.frame[self.frame["variable"] == name]
+
+    def wide(self, name: str) -> pd.DataFrame:
+        """One variable as a units x coders table of values (``None`` where blank or not coded)."""
+        sub = self.for_variable(name)
+        table = sub.pivot(index="unit", columns="coder", values="value")
+        table = table.reindex(index=self.units, columns=self.coders)
+        return table.astype(object).where(table.notna(), None)
+
+
+def _is_na(value: Any) -> bool:
+    if value is None:
+        return True
+    if isinstance(value, float) and value != value:  # NaN
+        return True
+    return value is pd.NA
+
+
+def condition_holds(condition_variable: Variable, value: Any, includes: Sequence[Any]) -> bool:
+    """Does a coder's value of the condition variable satisfy ``includes``?"""
+    if condition_variable.multiple:
+        return any(code in includes for code in value)
+    return value in includes
+
+
+def applicability(codebook: Codebook, frame: pd.DataFrame) -> list[object]:
+    """Evaluate every row's ``applies_when`` on the same coder's value of the condition variable.
+
+    Returns ``True``/``False`` per row, ``None`` where the condition variable is blank or missing
+    for that coder and unit, and ``True`` for variables without a condition.
+    """
+    lookup: dict[tuple[str, str, str], Any] = {
+        (u, c, v): val
+        for u, c, v, val in zip(
+            frame["unit"], frame["coder"], frame["variable"], frame["value"], strict=True
+        )
+    }
+    out: list[object] = []
+    for unit, coder, name in zip(frame["unit"], frame["coder"], frame["variable"], strict=True):
+        if name not in codebook:
+            out.append(None)
+            continue
+        cond = codebook.variable(name).applies_when
+        if cond is None:
+            out.append(True)
+            continue
+        value = lookup.get((unit, coder, cond.variable))
+        if value is None or _is_na(value):
+            out.append(None)
+            continue
+        out.append(condition_holds(codebook.variable(cond.variable), value, cond.includes))
+    return out

@@ -1,0 +1,1 @@
+"""Reading coders' sheets and codebooks, and writing every output safely."""

@@ -1,0 +1,160 @@
+"""One record for every problem found in the input, and the list that collects them.
+
+Every reader and check appends :class:`Problem` records to a :class:`Problems` list instead of
+raising, so that a user sees all of them at once, each with its place (file, sheet, cell, line),
+the unit, coder and variable concerned, a message and a hint. Problem codes are stable slugs
+(``not-in-codebook``); the catalogue lives in :data:`PROBLEM_CODES` and in ``docs/problems.md``.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable, Iterator
+from dataclasses import asdict, dataclass, fields
+from typing import Any, Literal
+
+import pandas as pd
+
+Severity = Literal["error", "warning"]
+
+#: Stable problem codes with their severity and a one-line description.
+PROBLEM_CODES: dict[str, tuple[Severity, str]] = {
+    # codebook
+    "codebook-syntax": ("error", "the codebook file is not valid YAML or JSON"),
+    "codebook-field": ("error", "a codebook field is missing, unknown or of the wrong type"),
+    "duplicate-variable": ("error", "two variables share one name"),
+    "duplicate-code": ("error", "two categories of a variable share one code"),
+    "unknown-level": (
+        "error",
+        "a level of measurement other than nominal, ordinal, interval, ratio",
+    ),
+    "missing-categories": ("error", "a nominal or ordinal variable lists no categories"),
+    "unknown-condition-variable": ("error", "applies_when names a variable the codebook lacks"),
+    "bad-condition-code": ("error", "applies_when lists a code its variable does not have"),
+    "bad-range": ("error", "a numeric range is not [low, high] with low <= high"),
+    # input files
+    "input-refused": ("error", "the file cannot or must not be read"),
+    "encoding": ("error", "a CSV file is not UTF-8"),
+    "empty-sheet": ("error", "a sheet or file holds no data rows"),
+    "duplicate-coder": ("error", "two files or sheets claim the same coder"),
+    "unknown-column": (
+        "error",
+        "a column that is neither the unit ID, a variable nor a text column",
+    ),
+    "missing-column": ("error", "a variable of the codebook has no column"),
+    "missing-unit-column": ("error", "the unit-ID column is missing"),
+    "missing-unit-id": ("error", "a row has values but no unit ID"),
+    "duplicate-unit": ("error", "a coder codes the same unit twice"),
+    "not-in-codebook": ("error", "a value is not a code of its variable"),
+    "not-a-number": ("error", "a numeric variable holds text"),
+    "out-of-range": ("error", "a number outside the variable's range"),
+    "not-integer": ("error", "a count variable holds a fraction"),
+    "multiple-not-allowed": ("error", "several codes in a single-choice variable"),
+    "should-not-apply": ("error", "a value where applies_when says the variable does not apply"),
+    "should-apply": ("error", "a blank where applies_when says the variable applies"),
+    "date-converted": ("error", "a spreadsheet turned a code into a date"),
+    "excel-error": ("error", "a cell holds a spreadsheet error value such as #N/A"),
+    "formula-no-value": ("error", "a formula cell has no stored result"),
+    "long-format": ("error", "a long table lacks the columns unit, coder, variable, value"),
+    # warnings
+    "partial-unit": ("warning", "a unit is coded by only some of the coders"),
+    "normalised-number": ("warning", "a number stored as text was read as a number"),
+    "normalised-space": ("warning", "spaces around a value were removed"),
+    "normalised-label": ("warning", "a category's label was typed instead of its code"),
+    "hidden-row": ("warning", "a hidden row was read"),
+    "hidden-column": ("warning", "a hidden column was read"),
+    "merged-cells": ("warning", "merged cells: only the top-left cell holds a value"),
+    "missing-code": ("warning", "a value was coded as missing (cannot be coded from the text)"),
+}
+
+
+@dataclass(frozen=True, slots=True)
+class Problem:
+    """One problem in the input, with its place and a hint on how to fix it."""
+
+    code: str
+    severity: Severity
+    message: str
+    hint: str | None = None
+    file: str | None = None
+    sheet: str | None = None
+    cell: str | None = None
+    line: int | None = None
+    unit: str | None = None
+    coder: str | None = None
+    variable: str | None = None
+
+    def to_dict(self) -> dict[str, Any]:
+        return asdict(self)
+
+    def where(self) -> str:
+        """A short human-readable place: ``coder_a.xlsx!Sheet1!C14`` or ``codebook.yaml:12``."""
+        parts = [p for p in (self.file, self.sheet, self.cell) if p]
+        place = "!".join(parts)
+        if self.line is not None:
+            place = f"{place}:{self.line}" if place else f"line {self.line}"
+        return place
+
+
+def make_problem(code: str, message: str, **place: Any) -> Problem:
+    """Build a problem whose severity comes from the catalogue :data:`PROBLEM_CODES`."""
+    severity = PROBLEM_CODES[code][0]
+    place = {k: (None if v is None else (v if k == "line" else str(v))) for k, v in place.items()}
+    return Problem(code=code, severity=severity, message=message, **place)
+
+
+PROBLEM_COLUMNS = [f.name for f in fields(Problem)]
+
+
+class Problems:
+    """An ordered, append-only collection of :class:`Problem` records."""
+
+    def __init__(self, items: Iterable[Problem] = ()) -> None:
+        self._items: list[Problem] = list(items)
+
+    def add(self, code: str, message: str, **place: Any) -> Problem:
+        problem = make_problem(code, message, **place)
+        self._items.append(problem)
+        return problem
+
+    def append(self, problem: Problem) -> None:
+        self._items.append(problem)
+
+    def extend(self, problems: Iterable[Problem]) -> None:
+        self._items.extend(problems)
+
+    def __iter__(self) -> Iterator[Problem]:
+        return iter(self._items)
+
+    def __len__(self) -> int:
+        return len(self._items)
+
+    def __bool__(self) -> bool:
+        return bool(self._items)
+
+    def __getitem__(self, i: int) -> Problem:
+        return self._items[i]
+
+    @property
+    def errors(self) -> list[Problem]:
+        return [p for p in self._items if p.severity == "error"]
+
+    @property
+    def warnings(self) -> list[Problem]:
+        return [p for p in self._items if p.severity == "warning"]
+
+    @property
+    def refused(self) -> list[Problem]:
+        """Problems that mean a file was refused outright (exit code 3)."""
+        return [p for p in self._items if p.code == "input-refused"]
+
+    def codes(self) -> list[str]:
+        return [p.code for p in self._items]
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"problems": [p.to_dict() for p in self._items]}
+
+    def to_frame(self) -> pd.DataFrame:
+        return pd.DataFrame([p.to_dict() for p in self._items], columns=PROBLEM_COLUMNS)
+
+    def __repr__(self) -> str:
+        return f"Problems({len(self.errors)} errors, {len(self.warnings)} warnings)"
