@@ -118,7 +118,7 @@ class Variable:
         return self.label or self.name
 
 
-@dataclass(frozen=True, slots=True)
+@dataclass(frozen=True)  # no slots: __post_init__ stores a name index beside the fields
 class Codebook:
     """The single source of truth for what is coded and how."""
 
