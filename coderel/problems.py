@@ -31,6 +31,15 @@ PROBLEM_CODES: dict[str, tuple[Severity, str]] = {
     "unknown-condition-variable": ("error", "applies_when names a variable the codebook lacks"),
     "bad-condition-code": ("error", "applies_when lists a code its variable does not have"),
     "bad-range": ("error", "a numeric range is not [low, high] with low <= high"),
+    "bad-thresholds": ("error", "thresholds are not 0 <= tentative <= reliable <= 1"),
+    "categories-on-numeric": ("error", "an interval or ratio variable lists categories"),
+    "multiple-not-nominal": ("error", "multiple: true on a variable that is not nominal"),
+    "column-clash": (
+        "error",
+        "the unit column, a text column and a variable share one column name",
+    ),
+    "ambiguous-missing-code": ("error", "a numeric variable's missing code lies inside its range"),
+    "condition-cycle": ("error", "applies_when conditions depend on each other in a loop"),
     # input files
     "input-refused": ("error", "the file cannot or must not be read"),
     "encoding": ("error", "a CSV file is not UTF-8"),
