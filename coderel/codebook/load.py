@@ -43,6 +43,7 @@ __all__ = [
     "MAX_CODEBOOK_BYTES",
     "MAX_CODE_LENGTH",
     "codebook_from_data",
+    "codebook_json_schema",
     "codebook_problems",
     "load_codebook",
     "parse_codebook_yaml",
@@ -274,7 +275,7 @@ def parse_codebook_yaml(
         problems.add("codebook-syntax", f"a value cannot be read ({type(exc).__name__})", file=file)
         return None, problems
     codebook = _Builder(problems, file).build(node, source=source)
-    return (None if problems.errors else codebook), problems
+    return (None if problems.errors else codebook), _by_line(problems)
 
 
 def codebook_from_data(
@@ -284,6 +285,11 @@ def codebook_from_data(
     problems = Problems()
     codebook = _Builder(problems, file).build(_plain_to_node(data), source=source)
     return (None if problems.errors else codebook), problems
+
+
+def _by_line(problems: Problems) -> Problems:
+    """Problems in the order of the file's lines (stable for problems on one line)."""
+    return Problems(sorted(problems, key=lambda p: p.line or 0))
 
 
 # ---- checks and construction ----------------------------------------------------------------
@@ -947,3 +953,11 @@ class _Builder:
 
 def _fields(var: Variable) -> dict[str, Any]:
     return {name: getattr(var, name) for name in Variable.__dataclass_fields__}
+
+
+def codebook_json_schema() -> dict[str, Any]:
+    """The JSON Schema (draft 2020-12) of the YAML codebook, shipped as package data."""
+    from importlib.resources import files
+
+    text = files("coderel.codebook").joinpath("codebook.schema.json").read_text("utf-8")
+    return json.loads(text)
