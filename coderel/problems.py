@@ -64,6 +64,8 @@ PROBLEM_CODES: dict[str, tuple[Severity, str]] = {
     "excel-error": ("error", "a cell holds a spreadsheet error value such as #N/A"),
     "formula-no-value": ("error", "a formula cell has no stored result"),
     "long-format": ("error", "a long table lacks the columns unit, coder, variable, value"),
+    # adjudication
+    "bad-decision": ("error", "an adjudication decision is not a valid code for its variable"),
     # warnings
     "partial-unit": ("warning", "a unit is coded by only some of the coders"),
     "normalised-number": ("warning", "a number stored as text was read as a number"),
@@ -73,6 +75,10 @@ PROBLEM_CODES: dict[str, tuple[Severity, str]] = {
     "hidden-column": ("warning", "a hidden column was read"),
     "merged-cells": ("warning", "merged cells: only the top-left cell holds a value"),
     "missing-code": ("warning", "a value was coded as missing (cannot be coded from the text)"),
+    "stale-decision": (
+        "warning",
+        "a decision for a cell the coders no longer disagree on, or a unit not in the data",
+    ),
 }
 
 
