@@ -64,6 +64,9 @@ PROBLEM_CODES: dict[str, tuple[Severity, str]] = {
     "excel-error": ("error", "a cell holds a spreadsheet error value such as #N/A"),
     "formula-no-value": ("error", "a formula cell has no stored result"),
     "long-format": ("error", "a long table lacks the columns unit, coder, variable, value"),
+    "missing-coder": ("error", "a row of a table with a coder column has no coder name"),
+    "duplicate-column": ("error", "two columns of one sheet share a header"),
+    "unknown-variable": ("error", "a long table names a variable the codebook lacks"),
     # adjudication
     "bad-decision": ("error", "an adjudication decision is not a valid code for its variable"),
     # warnings

@@ -1,0 +1,794 @@
+"""Reading coders' sheets into the long table :class:`coderel.codings.Codings`.
+
+Accepted inputs (files, or folders whose ``.xlsx``, ``.csv`` and ``.parquet`` files are read in
+name order, skipping hidden files and ``~$`` lock files):
+
+* **wide sheets**: one row per unit, one column per variable, plus the codebook's unit column and
+  its text columns, as ``.xlsx``, ``.csv`` or ``.parquet``. The coder is the file's stem; or, in a
+  workbook with several non-empty sheets, each sheet's name; or a ``coder`` column;
+* **long tables** whose header is exactly ``unit, coder, variable, value``.
+
+Every cell goes through :func:`coderel.normalise.normalise_cell`; every problem is collected with
+its file, sheet, cell, unit, coder and variable, never raised, and an invalid cell gets the value
+``None`` so that no statistic sees it. A file that must not be read (legacy or encrypted workbook,
+damaged or oversized archive) becomes an ``input-refused`` problem and the other files are still
+read. Skip logic (``applies_when``) is checked both ways once all files are read, and units coded by
+only some coders are reported as ``partial-unit`` warnings. Input files are only ever opened for
+reading.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import difflib
+from collections.abc import Iterable, Sequence
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import pandas as pd
+from openpyxl.utils import get_column_letter, range_boundaries
+
+from coderel.codebook import Code, Codebook, Variable
+from coderel.codings import TEXT_COLUMNS, Codings, SourceFile, applicability
+from coderel.errors import InputRefused, UsageError
+from coderel.io.archive import (
+    DEFAULT_LIMITS,
+    OLE2_MAGIC,
+    SUPPORTED,
+    Limits,
+    check_parquet,
+    check_text,
+    describe_ole2,
+)
+from coderel.io.atomic import sha256_file
+from coderel.io.text_tables import RawRow, RawTable, read_csv, read_parquet
+from coderel.normalise import CellError, Finding, FormulaNoValue, normalise_cell, quote
+from coderel.problems import Problems
+
+DATA_SUFFIXES: tuple[str, ...] = (".xlsx", ".csv", ".parquet")
+LONG_HEADER: tuple[str, ...] = ("unit", "coder", "variable", "value")
+CODER_COLUMN = "coder"
+
+
+def collect_files(paths: Sequence[str | Path]) -> list[Path]:
+    """Expand folders into their data files (sorted, not recursive); keep files as given.
+
+    Raises
+    ------
+    UsageError
+        When no path is given, a path does not exist, or a folder holds no data file.
+    """
+    if not paths:
+        raise UsageError("give at least one coding sheet or folder (DATA)")
+    files: list[Path] = []
+    for raw in paths:
+        path = Path(raw)
+        if path.is_dir():
+            found = sorted(
+                p
+                for p in path.iterdir()
+                if p.is_file()
+                and p.suffix.lower() in DATA_SUFFIXES
+                and not p.name.startswith(("~$", "."))
+            )
+            if not found:
+                raise UsageError(f"the folder {path.name!r} holds no .xlsx, .csv or .parquet file")
+            files.extend(found)
+        elif path.is_file():
+            files.append(path)
+        else:
+            raise UsageError(f"no such file or folder: {path.name!r}")
+    unique: dict[Path, Path] = {}
+    for f in files:
+        unique.setdefault(f.resolve(), f)
+    return list(unique.values())
+
+
+def _text_of(raw: Any) -> str | None:
+    """A unit ID, coder name or long-table name as text (``None`` when blank)."""
+    if raw is None or isinstance(raw, CellError | FormulaNoValue):
+        return None
+    if isinstance(raw, bool):
+        return str(raw).upper()
+    if isinstance(raw, float):
+        if raw != raw:
+            return None
+        if raw.is_integer():
+            return str(int(raw))
+    if isinstance(raw, dt.datetime | dt.date):
+        return raw.isoformat()
+    text = str(raw).strip()
+    return text or None
+
+
+def _closest(name: str, options: Iterable[str]) -> str | None:
+    options = list(options)
+    found = difflib.get_close_matches(name, options, n=1, cutoff=0.6)
+    if not found:
+        lowered = {o.casefold(): o for o in options}
+        found = [
+            lowered[m] for m in difflib.get_close_matches(name.casefold(), lowered, n=1, cutoff=0.6)
+        ]
+    return found[0] if found else None
+
+
+@dataclass
+class _Reader:
+    """Accumulates records, texts and problems over all input files."""
+
+    codebook: Codebook
+    records: list[dict[str, Any]] = field(default_factory=list)
+    texts: list[dict[str, Any]] = field(default_factory=list)
+    problems: Problems = field(default_factory=Problems)
+    #: coder -> (file, sheet) that first claimed it
+    owners: dict[str, tuple[str, str | None]] = field(default_factory=dict)
+    refused_coders: set[tuple[str, str, str | None]] = field(default_factory=set)
+    seen: dict[tuple[str, str, str | None], dict[Any, str]] = field(default_factory=dict)
+
+    # ---- helpers ---------------------------------------------------------------------------
+    def claim(self, coder: str, table: RawTable, cell: str | None = None) -> bool:
+        """May ``table`` hold rows of ``coder``? Report ``duplicate-coder`` once otherwise."""
+        source = (table.file, table.sheet)
+        owner = self.owners.setdefault(coder, source)
+        if owner == source:
+            return True
+        key = (coder, table.file, table.sheet)
+        if key not in self.refused_coders:
+            self.refused_coders.add(key)
+            where = owner[0] + (f"!{owner[1]}" if owner[1] else "")
+            self.problems.add(
+                "duplicate-coder",
+                f"coder {coder!r} already comes from {where}; these rows were not read",
+                hint="give each coder one file (or one sheet); rename the file or sheet of the "
+                "second coder",
+                file=table.file,
+                sheet=table.sheet,
+                cell=cell,
+                coder=coder,
+            )
+        return False
+
+    def add_findings(self, findings: Iterable[Finding], **place: Any) -> None:
+        for f in findings:
+            self.problems.add(f.code, f.message, hint=f.hint, **place)
+
+    def place(self, table: RawTable, row: RawRow | None, position: int | None) -> dict[str, Any]:
+        cell = None
+        if position is not None and row is not None:
+            cell = table.cell_ref(position, row.number)
+        elif position is not None:
+            cell = table.cell_ref(position, table.header_row)
+        line = row.line if row is not None else table.header_line
+        return {"file": table.file, "sheet": table.sheet, "cell": cell, "line": line}
+
+    def first_unit(self, key: tuple[str, str, str | None], unit_key: Any, cell: str) -> str | None:
+        """Record where a unit was first seen; return that cell when it was seen before."""
+        seen = self.seen.setdefault(key, {})
+        if unit_key in seen:
+            return seen[unit_key]
+        seen[unit_key] = cell
+        return None
+
+    def add_record(
+        self,
+        unit: str,
+        coder: str,
+        variable: Variable,
+        raw: Any,
+        *,
+        typed: bool,
+        place: dict[str, Any],
+        present: bool = True,
+    ) -> None:
+        if present:
+            result = normalise_cell(variable, raw, typed=typed)
+            self.add_findings(
+                result.findings, unit=unit, coder=coder, variable=variable.name, **place
+            )
+            value, missing, invalid = result.value, result.missing, result.invalid
+        else:
+            value, missing, invalid = None, None, False
+        self.records.append(
+            {
+                "unit": unit,
+                "coder": coder,
+                "variable": variable.name,
+                "value": value,
+                "missing": missing,
+                "file": place.get("file"),
+                "sheet": place.get("sheet"),
+                "cell": place.get("cell") if present else None,
+                "_line": place.get("line"),
+                "_invalid": invalid,
+            }
+        )
+
+    def add_text(self, unit: str, coder: str, column: str, raw: Any) -> None:
+        text = None if raw is None or isinstance(raw, CellError | FormulaNoValue) else str(raw)
+        self.texts.append({"unit": unit, "coder": coder, "column": column, "text": text})
+
+    # ---- one table ---------------------------------------------------------------------------
+    def read_table(self, table: RawTable, default_coder: str) -> None:
+        for problem in table.problems:
+            self.problems.append(problem)
+        if not table.header:
+            return
+        folded = [h.casefold() for h in table.header]
+        while folded and folded[-1] == "":
+            folded.pop()
+        if tuple(folded) == LONG_HEADER:
+            self.read_long(table)
+            return
+        names = {v.casefold() for v in self.codebook.names}
+        looks_long = {"variable", "value"} <= set(folded) and not {"variable", "value"} & names
+        if looks_long:
+            self.problems.add(
+                "long-format",
+                "this looks like a long table, but its header is not exactly "
+                f"unit, coder, variable, value (found: {', '.join(h for h in folded if h)})",
+                hint="name the four columns unit, coder, variable, value, in that order",
+                file=table.file,
+                sheet=table.sheet,
+                line=table.header_line,
+            )
+            return
+        self.read_wide(table, default_coder)
+
+    def _map_columns(
+        self, table: RawTable
+    ) -> tuple[int | None, int | None, dict[str, int], dict[str, int]]:
+        cb = self.codebook
+        by_fold_var = {v.casefold(): v for v in cb.names}
+        by_fold_text = {t.casefold(): t for t in cb.text_columns}
+        unit_pos: int | None = None
+        coder_pos: int | None = None
+        variables: dict[str, int] = {}
+        texts: dict[str, int] = {}
+        known = [cb.unit, *cb.names, *cb.text_columns]
+        for pos, name in enumerate(table.header):
+            fold = name.casefold()
+            place = self.place(table, None, pos)
+            if name == "":
+                if any(pos < len(r.cells) and r.cells[pos] is not None for r in table.rows):
+                    self.problems.add(
+                        "unknown-column",
+                        "a column holds values but has no header",
+                        hint=f"give it a header ({cb.unit}, a variable or a text column) "
+                        "or delete it",
+                        **place,
+                    )
+                continue
+            target: tuple[str, str] | None = None
+            if fold == cb.unit.casefold():
+                target = ("unit", cb.unit)
+            elif fold in by_fold_var:
+                target = ("variable", by_fold_var[fold])
+            elif fold in by_fold_text:
+                target = ("text", by_fold_text[fold])
+            elif fold == CODER_COLUMN:
+                target = ("coder", CODER_COLUMN)
+            if target is None:
+                close = _closest(name, known)
+                self.problems.add(
+                    "unknown-column",
+                    f"the column {quote(name)} is not in the codebook",
+                    hint=(f"did you mean {close!r}? " if close else "")
+                    + "rename it to a variable of the codebook, or delete it",
+                    **place,
+                )
+                continue
+            kind, key = target
+            taken = (
+                (kind == "unit" and unit_pos is not None)
+                or (kind == "coder" and coder_pos is not None)
+                or (kind == "variable" and key in variables)
+                or (kind == "text" and key in texts)
+            )
+            if taken:
+                self.problems.add(
+                    "duplicate-column",
+                    f"a second column is headed {quote(name)}; only the first is read",
+                    hint="delete or rename the second column",
+                    variable=key if kind == "variable" else None,
+                    **place,
+                )
+                continue
+            if kind == "unit":
+                unit_pos = pos
+            elif kind == "coder":
+                coder_pos = pos
+            elif kind == "variable":
+                variables[key] = pos
+            else:
+                texts[key] = pos
+        return unit_pos, coder_pos, variables, texts
+
+    def read_wide(self, table: RawTable, default_coder: str) -> None:
+        cb = self.codebook
+        unit_pos, coder_pos, variables, texts = self._map_columns(table)
+        if unit_pos is None:
+            self.problems.add(
+                "missing-unit-column",
+                f"no column is headed {cb.unit!r} (the codebook's unit ID column)",
+                hint=f"add a column {cb.unit!r} holding each unit's ID",
+                file=table.file,
+                sheet=table.sheet,
+                line=table.header_line,
+            )
+            return
+        for name in cb.names:
+            if name not in variables:
+                self.problems.add(
+                    "missing-column",
+                    f"no column for the variable {name!r}",
+                    hint=f"add a column headed {name!r} (blank cells are allowed)",
+                    file=table.file,
+                    sheet=table.sheet,
+                    line=table.header_line,
+                    variable=name,
+                )
+        column_names = {pos: name for name, pos in variables.items()}
+        for pos in sorted(table.hidden_columns):
+            if pos - 1 < len(table.header) and table.header[pos - 1]:
+                self.problems.add(
+                    "hidden-column",
+                    "this column is hidden; its values were read",
+                    hint="unhide it and check its values",
+                    variable=column_names.get(pos - 1),
+                    **self.place(table, None, pos - 1),
+                )
+        if not table.rows:
+            self.problems.add(
+                "empty-sheet",
+                "the sheet has a header but no data rows",
+                hint="check that the right file was given, or remove it",
+                file=table.file,
+                sheet=table.sheet,
+                line=table.header_line,
+            )
+            return
+        if coder_pos is None and not self.claim(default_coder, table):
+            return
+        units: dict[int, str] = {}
+        for row in table.rows:
+            unit = self._wide_row(table, row, unit_pos, coder_pos, variables, texts, default_coder)
+            if unit is not None:
+                units[row.number] = unit
+        self._merged(table, units, column_names)
+
+    def _merged(self, table: RawTable, units: dict[int, str], names: dict[int, str]) -> None:
+        """One ``merged-cells`` warning per merged range, placed at its top-left cell."""
+        for rng in table.merged:
+            min_col, min_row, _, _ = range_boundaries(rng)
+            self.problems.add(
+                "merged-cells",
+                f"cells {rng} are merged: only the first holds a value, the others read as blank",
+                hint="unmerge the cells and fill each one",
+                file=table.file,
+                sheet=table.sheet,
+                cell=f"{get_column_letter(min_col)}{min_row}",
+                unit=units.get(min_row),
+                variable=names.get(min_col - 1),
+            )
+
+    def _wide_row(
+        self,
+        table: RawTable,
+        row: RawRow,
+        unit_pos: int,
+        coder_pos: int | None,
+        variables: dict[str, int],
+        texts: dict[str, int],
+        default_coder: str,
+    ) -> str | None:
+        """Read one row of a wide sheet; return its unit ID when the row was read."""
+        cells = row.cells
+        used = [unit_pos, *variables.values(), *texts.values()]
+        if coder_pos is not None:
+            used.append(coder_pos)
+        if all(cells[p] is None for p in used):
+            return None
+        unit_place = self.place(table, row, unit_pos)
+        raw_unit = cells[unit_pos]
+        unit = _text_of(raw_unit)
+        if unit is None:
+            if isinstance(raw_unit, CellError | FormulaNoValue):
+                code = "excel-error" if isinstance(raw_unit, CellError) else "formula-no-value"
+                self.problems.add(
+                    code,
+                    "the unit ID cell holds no usable value; the row was not read",
+                    hint="type the unit ID",
+                    **unit_place,
+                )
+            else:
+                self.problems.add(
+                    "missing-unit-id",
+                    "this row has values but no unit ID; the row was not read",
+                    hint=f"fill in the {self.codebook.unit!r} cell",
+                    **unit_place,
+                )
+            return None
+        coder = default_coder
+        if coder_pos is not None:
+            coder_text = _text_of(cells[coder_pos])
+            if coder_text is None:
+                self.problems.add(
+                    "missing-coder",
+                    "this row has no coder name; the row was not read",
+                    hint="fill in the coder cell",
+                    unit=unit,
+                    **self.place(table, row, coder_pos),
+                )
+                return None
+            coder = coder_text
+            if not self.claim(coder, table, unit_place["cell"]):
+                return None
+        first = self.first_unit((coder, table.file, table.sheet), unit, unit_place["cell"])
+        if first is not None:
+            self.problems.add(
+                "duplicate-unit",
+                f"unit {unit} appears again (first in {first}); this row was not read",
+                hint="delete the repeated row, or fix its unit ID",
+                unit=unit,
+                coder=coder,
+                **unit_place,
+            )
+            return None
+        if row.number in table.hidden_rows:
+            self.problems.add(
+                "hidden-row",
+                "this row is hidden; its values were read",
+                hint="unhide the row and check it",
+                unit=unit,
+                coder=coder,
+                **unit_place,
+            )
+        for variable in self.codebook.variables:
+            pos = variables.get(variable.name)
+            if pos is None:
+                self.records.append(
+                    {
+                        "unit": unit,
+                        "coder": coder,
+                        "variable": variable.name,
+                        "value": None,
+                        "missing": None,
+                        "file": table.file,
+                        "sheet": table.sheet,
+                        "cell": None,
+                        "_line": row.line,
+                        "_invalid": True,
+                    }
+                )
+                continue
+            self.add_record(
+                unit,
+                coder,
+                variable,
+                cells[pos],
+                typed=table.typed,
+                place=self.place(table, row, pos),
+            )
+        for column, pos in texts.items():
+            self.add_text(unit, coder, column, cells[pos])
+        return unit
+
+    def read_long(self, table: RawTable) -> None:
+        cb = self.codebook
+        text_columns = {t.casefold(): t for t in cb.text_columns}
+        by_fold_var = {v.casefold(): v for v in cb.names}
+        given: dict[tuple[str, str], set[str]] = {}
+        order: list[tuple[str, str, dict[str, Any]]] = []
+        if not table.rows:
+            self.problems.add(
+                "empty-sheet",
+                "the long table has a header but no data rows",
+                hint="check that the right file was given, or remove it",
+                file=table.file,
+                sheet=table.sheet,
+                line=table.header_line,
+            )
+            return
+        for row in table.rows:
+            cells = row.cells
+            if all(c is None for c in cells[:4]):
+                continue
+            unit = _text_of(cells[0])
+            coder = _text_of(cells[1])
+            name = _text_of(cells[2])
+            if unit is None:
+                self.problems.add(
+                    "missing-unit-id",
+                    "this row has no unit ID; it was not read",
+                    hint="fill in the unit cell",
+                    coder=coder,
+                    **self.place(table, row, 0),
+                )
+                continue
+            if coder is None:
+                self.problems.add(
+                    "missing-coder",
+                    "this row has no coder name; it was not read",
+                    hint="fill in the coder cell",
+                    unit=unit,
+                    **self.place(table, row, 1),
+                )
+                continue
+            if not self.claim(coder, table, table.cell_ref(1, row.number)):
+                continue
+            var_place = self.place(table, row, 2)
+            variable_name = by_fold_var.get(name.casefold()) if name else None
+            text_name = text_columns.get(name.casefold()) if name else None
+            if variable_name is None and text_name is None:
+                close = _closest(name or "", [*cb.names, *cb.text_columns])
+                self.problems.add(
+                    "unknown-variable",
+                    f"{quote(name) if name else 'a blank name'} is not a variable of the codebook",
+                    hint=(f"did you mean {close!r}? " if close else "")
+                    + "use the variable names of the codebook",
+                    unit=unit,
+                    coder=coder,
+                    **var_place,
+                )
+                continue
+            key_name = variable_name or text_name or ""
+            value_place = self.place(table, row, 3)
+            first = self.first_unit(
+                (coder, table.file, table.sheet), (unit, key_name), value_place["cell"]
+            )
+            if first is not None:
+                self.problems.add(
+                    "duplicate-unit",
+                    f"unit {unit}, variable {key_name} appears again (first in {first}); "
+                    "this row was not read",
+                    hint="delete the repeated row",
+                    unit=unit,
+                    coder=coder,
+                    variable=variable_name,
+                    **value_place,
+                )
+                continue
+            if text_name is not None and variable_name is None:
+                self.add_text(unit, coder, text_name, cells[3])
+                continue
+            pair = (unit, coder)
+            if pair not in given:
+                given[pair] = set()
+                order.append((unit, coder, {"file": table.file, "sheet": table.sheet}))
+            given[pair].add(key_name)
+            self.add_record(
+                unit,
+                coder,
+                cb.variable(key_name),
+                cells[3],
+                typed=table.typed,
+                place=value_place,
+            )
+        for unit, coder, place in order:
+            for variable in cb.variables:
+                if variable.name not in given[(unit, coder)]:
+                    self.add_record(
+                        unit,
+                        coder,
+                        variable,
+                        None,
+                        typed=table.typed,
+                        place={**place, "cell": None, "line": None},
+                        present=False,
+                    )
+
+    # ---- after all files -------------------------------------------------------------------
+    def check_skip_logic(self, frame: pd.DataFrame) -> pd.DataFrame:
+        """Apply ``should-not-apply`` until stable, then report ``should-apply``."""
+        cb = self.codebook
+        for _ in range(len(cb.variables) + 1):
+            applies = applicability(cb, frame)
+            frame["applies"] = applies
+            bad = [
+                i
+                for i, (a, v, m) in enumerate(
+                    zip(applies, frame["value"], frame["missing"], strict=True)
+                )
+                if a is False and (v is not None or m is not None)
+            ]
+            if not bad:
+                break
+            for i in bad:
+                row = frame.iloc[i]
+                variable = cb.variable(row["variable"])
+                cond = variable.applies_when
+                if cond is None:  # applies is False only under a condition
+                    continue
+                given = row["value"] if row["value"] is not None else row["missing"]
+                includes = ", ".join(cb.variable(cond.variable).display(c) for c in cond.includes)
+                self.problems.add(
+                    "should-not-apply",
+                    f"{variable.name} is coded ({_short(given)}) but does not apply here: it "
+                    f"applies only when {cond.variable} is {includes}",
+                    hint=f"leave {variable.name} blank, or check the code of {cond.variable}",
+                    file=row["file"],
+                    sheet=row["sheet"],
+                    cell=row["cell"],
+                    line=row["_line"],
+                    unit=row["unit"],
+                    coder=row["coder"],
+                    variable=variable.name,
+                )
+                frame.at[frame.index[i], "value"] = None
+                frame.at[frame.index[i], "missing"] = None
+                frame.at[frame.index[i], "_invalid"] = True
+        for i, (a, v, m, inv) in enumerate(
+            zip(frame["applies"], frame["value"], frame["missing"], frame["_invalid"], strict=True)
+        ):
+            if a is True and v is None and m is None and not inv:
+                row = frame.iloc[i]
+                variable = cb.variable(row["variable"])
+                cond = variable.applies_when
+                if cond is None:
+                    continue
+                missing = (
+                    f", or the missing code {variable.display(variable.missing_codes[0])}"
+                    if variable.missing_codes
+                    else ""
+                )
+                self.problems.add(
+                    "should-apply",
+                    f"{variable.name} is blank, but it applies here ({cond.variable} is one of "
+                    f"{', '.join(str(c) for c in cond.includes)})",
+                    hint=f"code {variable.name}{missing}",
+                    file=row["file"],
+                    sheet=row["sheet"],
+                    cell=row["cell"],
+                    line=row["_line"],
+                    unit=row["unit"],
+                    coder=row["coder"],
+                    variable=variable.name,
+                )
+        return frame
+
+    def check_partial_units(self, frame: pd.DataFrame) -> None:
+        coders = list(dict.fromkeys(frame["coder"]))
+        if len(coders) < 2:
+            return
+        by_unit: dict[str, set[str]] = {}
+        for unit, coder in zip(frame["unit"], frame["coder"], strict=True):
+            by_unit.setdefault(unit, set()).add(coder)
+        for unit, present in by_unit.items():
+            absent = [c for c in coders if c not in present]
+            if absent:
+                self.problems.add(
+                    "partial-unit",
+                    f"unit {unit} is coded by {', '.join(c for c in coders if c in present)} "
+                    f"but not by {', '.join(absent)}",
+                    hint="code the unit by every coder, or accept that agreement for it uses "
+                    "fewer coders",
+                    unit=unit,
+                )
+
+
+def _short(value: Any) -> str:
+    if isinstance(value, tuple):
+        return ";".join(str(v) for v in value)
+    return str(value)
+
+
+def _read_file(reader: _Reader, path: Path, limits: Limits) -> bool:
+    """Read one file into ``reader``; return False when it was refused."""
+    from coderel.io.xlsx import read_workbook
+
+    suffix = path.suffix.lower()
+    try:
+        if suffix == ".xlsx":
+            workbook = read_workbook(path, limits)
+            if not workbook.tables:
+                reader.problems.add(
+                    "empty-sheet",
+                    f"{path.name} holds no data in any visible sheet",
+                    hint="check that the right file was given, or remove it",
+                    file=path.name,
+                )
+            several = len(workbook.tables) > 1
+            for table in workbook.tables:
+                reader.read_table(table, table.sheet if several and table.sheet else path.stem)
+        elif suffix == ".csv":
+            check_text(path, limits)
+            reader.read_table(read_csv(path), path.stem)
+        elif suffix == ".parquet":
+            check_parquet(path, limits)
+            try:
+                table = read_parquet(path)
+            except Exception as exc:  # pyarrow raises many types on damaged files
+                raise InputRefused(
+                    f"{path.name} cannot be read as Parquet ({type(exc).__name__})"
+                ) from None
+            reader.read_table(table, path.stem)
+        else:
+            with open(path, "rb") as fh:
+                head = fh.read(limits.max_file_bytes)
+            if head[:8] == OLE2_MAGIC:
+                raise InputRefused(describe_ole2(head, path))
+            raise InputRefused(
+                f"{path.name}: the format {suffix or '(none)'} is not read; {SUPPORTED}"
+            )
+    except InputRefused as exc:
+        reader.problems.add(
+            "input-refused",
+            str(exc),
+            hint=f"{SUPPORTED}; no other file was skipped because of this one",
+            file=path.name,
+        )
+        return False
+    except OSError as exc:
+        reader.problems.add(
+            "input-refused",
+            f"{path.name} cannot be opened ({type(exc).__name__})",
+            hint="check that the file exists and you may read it",
+            file=path.name,
+        )
+        return False
+    return True
+
+
+def read_codings(
+    codebook: Codebook, paths: Sequence[str | Path], *, limits: Limits = DEFAULT_LIMITS
+) -> Codings:
+    """Read coders' sheets (files or folders) into one long table, collecting every problem.
+
+    Parameters
+    ----------
+    codebook
+        The codebook that defines variables, codes, the unit column and text columns.
+    paths
+        Files (``.xlsx``, ``.csv``, ``.parquet``) or folders holding them.
+    limits
+        Safety limits applied before a file is parsed.
+
+    Returns
+    -------
+    Codings
+        The long table (one row per unit, coder and variable for every row a coder filled in),
+        the narrative texts apart, all problems, and the SHA-256 of every file read.
+
+    Raises
+    ------
+    UsageError
+        When no path is given, a path does not exist, or a folder holds no data file.
+    """
+    files = collect_files(paths)
+    reader = _Reader(codebook)
+    sources: list[SourceFile] = []
+    for path in files:
+        if _read_file(reader, path, limits):
+            sources.append(
+                SourceFile(path=str(path), sha256=sha256_file(path), size=path.stat().st_size)
+            )
+    columns = ["unit", "coder", "variable", "value", "missing", "file", "sheet", "cell"]
+    frame = pd.DataFrame(reader.records, columns=[*columns, "_line", "_invalid"])
+    frame = frame.astype(object)
+    frame = frame.where(frame.notna(), None) if len(frame) else frame
+    if len(frame):
+        frame = reader.check_skip_logic(frame)
+        reader.check_partial_units(frame)
+    else:
+        frame["applies"] = []
+    texts = pd.DataFrame(reader.texts, columns=list(TEXT_COLUMNS)).astype(object)
+    return Codings.from_records(
+        codebook,
+        frame.drop(columns=["_line", "_invalid"]),
+        texts=texts,
+        problems=reader.problems,
+        sources=sources,
+    )
+
+
+def missing_count(codings: Codings) -> dict[str, int]:
+    """How many cells hold a missing code, per variable (only variables with any)."""
+    counts: dict[str, int] = {}
+    for name, missing in zip(codings.frame["variable"], codings.frame["missing"], strict=True):
+        if missing is not None:
+            counts[name] = counts.get(name, 0) + 1
+    return counts
+
+
+__all__ = ["DATA_SUFFIXES", "LONG_HEADER", "Code", "collect_files", "missing_count", "read_codings"]

@@ -1,0 +1,177 @@
+"""Reading CSV and Parquet files into :class:`RawTable`, the neutral grid every reader produces.
+
+A :class:`RawTable` is one sheet or file as it stands: the header row, then the data rows, each
+cell exactly as stored (text for CSV; typed values for workbooks and Parquet), with the row and
+column numbers needed to name a cell like ``C14``. Interpreting the grid (wide or long form,
+codes, units) is the job of :mod:`coderel.io.read`.
+
+CSV files are read as text with the standard :mod:`csv` module: ``"NA"`` is a value, not a
+missing marker. They must be UTF-8 (a byte-order mark is allowed); any other encoding is reported
+as an ``encoding`` problem naming the first line that is not UTF-8, and never guessed.
+"""
+
+from __future__ import annotations
+
+import csv
+import datetime as dt
+import io
+import math
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+from openpyxl.utils import get_column_letter
+
+from coderel.problems import Problem, make_problem
+
+
+@dataclass(frozen=True, slots=True)
+class RawRow:
+    """One data row: its row number (header is row ``header_row``), CSV line, and cells."""
+
+    number: int
+    cells: tuple[Any, ...]
+    line: int | None = None
+
+
+@dataclass(frozen=True)
+class RawTable:
+    """One sheet or file as a grid of raw cells, before any interpretation."""
+
+    file: str
+    sheet: str | None
+    header: tuple[str, ...]
+    rows: tuple[RawRow, ...]
+    #: 1-based spreadsheet column number of each header position.
+    columns: tuple[int, ...]
+    header_row: int = 1
+    header_line: int | None = None
+    #: True for workbooks and Parquet (cells keep their types), False for CSV (all text).
+    typed: bool = True
+    hidden_rows: frozenset[int] = frozenset()
+    hidden_columns: frozenset[int] = frozenset()
+    merged: tuple[str, ...] = ()
+    problems: tuple[Problem, ...] = field(default=())
+
+    def cell_ref(self, position: int, row_number: int) -> str:
+        """``C14``-style name of the cell at header position ``position`` in row ``row_number``."""
+        return f"{get_column_letter(self.columns[position])}{row_number}"
+
+
+def _header_text(value: Any) -> str:
+    if value is None:
+        return ""
+    if isinstance(value, float) and value.is_integer():
+        return str(int(value))
+    return str(value).strip()
+
+
+def read_csv(path: Path) -> RawTable:
+    """Read a CSV file as text cells; problems (``encoding``, ``empty-sheet``) in the table.
+
+    The delimiter is a comma, or a semicolon when the header holds semicolons and no comma (as
+    spreadsheet programs in many locales write).
+    """
+    data = path.read_bytes()
+    try:
+        text = data.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        line = data[: exc.start].count(b"\n") + 1
+        problem = make_problem(
+            "encoding",
+            f"{path.name} is not UTF-8 (first non-UTF-8 byte on line {line})",
+            hint="save the file again as 'CSV UTF-8' in your spreadsheet program; coderel does "
+            "not guess encodings",
+            file=path.name,
+            line=line,
+        )
+        return RawTable(path.name, None, (), (), (), typed=False, problems=(problem,))
+    first_line = text.split("\n", 1)[0]
+    delimiter = ";" if ";" in first_line and "," not in first_line else ","
+    reader = csv.reader(io.StringIO(text, newline=""), delimiter=delimiter)
+    header: tuple[str, ...] | None = None
+    header_line: int | None = None
+    rows: list[RawRow] = []
+    record = 0
+    header_row = 1
+    previous_end = 0
+    for cells in reader:
+        record += 1
+        start_line = previous_end + 1
+        previous_end = reader.line_num
+        if not any(c.strip() for c in cells):
+            continue
+        if header is None:
+            header = tuple(_header_text(c) for c in cells)
+            header_line = start_line
+            header_row = record
+            continue
+        rows.append(RawRow(number=record, cells=tuple(cells), line=start_line))
+    if header is None:
+        return _empty(path.name, None, typed=False)
+    width = max([len(header), *(len(r.cells) for r in rows)])
+    header = header + ("",) * (width - len(header))
+    return RawTable(
+        path.name,
+        None,
+        header,
+        tuple(rows),
+        tuple(range(1, width + 1)),
+        header_row=header_row,
+        header_line=header_line,
+        typed=False,
+    )
+
+
+def _empty(file: str, sheet: str | None, *, typed: bool) -> RawTable:
+    problem = make_problem(
+        "empty-sheet",
+        f"{file}{'!' + sheet if sheet else ''} holds no data",
+        hint="check that the right file was given, or remove it",
+        file=file,
+        sheet=sheet,
+    )
+    return RawTable(file, sheet, (), (), (), typed=typed, problems=(problem,))
+
+
+def _python_value(value: Any) -> Any:
+    """A Parquet cell as a plain Python value (``None`` for missing)."""
+    if value is None:
+        return None
+    if hasattr(value, "to_pydatetime"):
+        return value.to_pydatetime()
+    if hasattr(value, "item") and not isinstance(value, str | bytes):
+        value = value.item()
+    if isinstance(value, float) and math.isnan(value):
+        return None
+    if isinstance(value, dt.datetime | dt.date | str | int | float | bool):
+        return value
+    try:
+        import pandas as pd
+
+        if value is pd.NA or value is pd.NaT:
+            return None
+    except ImportError:  # pragma: no cover - pandas is a dependency
+        pass
+    return value
+
+
+def read_parquet(path: Path) -> RawTable:
+    """Read a Parquet file; float columns holding only whole numbers become integers."""
+    import pandas as pd
+
+    frame = pd.read_parquet(path)
+    header = tuple(_header_text(c) for c in frame.columns)
+    columns: list[list[Any]] = []
+    for name in frame.columns:
+        values = [_python_value(v) for v in frame[name].tolist()]
+        present = [v for v in values if v is not None]
+        if present and all(isinstance(v, float) and v.is_integer() for v in present):
+            values = [None if v is None else int(v) for v in values]
+        columns.append(values)
+    rows = tuple(
+        RawRow(number=i + 2, cells=tuple(col[i] for col in columns)) for i in range(len(frame))
+    )
+    if not header:
+        return _empty(path.name, None, typed=True)
+    return RawTable(path.name, None, header, rows, tuple(range(1, len(header) + 1)), typed=True)
