@@ -1,0 +1,205 @@
+"""Charts of the report as SVG text, drawn with matplotlib (no pyplot state, no display).
+
+Each chart is returned as an ``<svg>`` element ready to be placed inline in HTML or written as a
+file. Text stays text (``svg.fonttype = 'none'``), the file fetches nothing, and every drawn
+variable carries an ``id`` (matplotlib's ``gid``) so tests can find it.
+"""
+
+from __future__ import annotations
+
+import io
+import re
+from collections.abc import Sequence
+
+import numpy as np
+from matplotlib import rc_context
+from matplotlib.colors import LinearSegmentedColormap
+from matplotlib.figure import Figure
+
+from coderel.report.model import STATUSES, Adjudication, CategoryPanel, VariableRow
+
+#: A calm palette of our own.
+INK = "#26313b"
+MUTED = "#6b7682"
+GRID = "#e3e0d8"
+VERDICT_COLOURS: dict[str, str] = {
+    "reliable": "#2e6f62",
+    "tentative": "#b5832a",
+    "unreliable": "#a4473b",
+    "undefined": "#8b9098",
+}
+STATUS_COLOURS: dict[str, str] = {
+    "agreed": "#2e6f62",
+    "majority": "#6f9f8f",
+    "adjudicated": "#4d6f9a",
+    "single": "#a9b8c9",
+    "unresolved": "#a4473b",
+    "not_applicable": "#d8d3c7",
+}
+HEAT = LinearSegmentedColormap.from_list("coderel_heat", ["#f7f5ef", "#9cc3bb", "#1f5a52"])
+_RC = {
+    "svg.fonttype": "none",
+    "font.family": "sans-serif",
+    "font.sans-serif": ["DejaVu Sans"],
+    "font.size": 9,
+    "axes.edgecolor": MUTED,
+    "axes.labelcolor": INK,
+    "xtick.color": INK,
+    "ytick.color": INK,
+    "text.color": INK,
+}
+
+
+def _text(value: str, limit: int = 42) -> str:
+    """User text for matplotlib: no mathtext (``$`` escaped), shortened to ``limit``."""
+    value = str(value)
+    if len(value) > limit:
+        value = value[: limit - 1] + "…"
+    return value.replace("$", r"\$")
+
+
+def _slug(text: str) -> str:
+    return "".join(ch if ch.isalnum() or ch in "-_" else "-" for ch in str(text)) or "x"
+
+
+def _to_svg(fig: Figure, chart_id: str) -> str:
+    buf = io.StringIO()
+    with rc_context({**_RC, "svg.hashsalt": chart_id}):
+        fig.savefig(buf, format="svg", metadata={"Date": None}, bbox_inches="tight")
+    svg = buf.getvalue()
+    svg = svg[svg.index("<svg") :]
+    svg = re.sub(r"<metadata>.*?</metadata>", "", svg, flags=re.S)
+    head_end = svg.index(">")
+    head = svg[:head_end]
+    head = re.sub(r'\s(width|height)="[^"]*"', "", head)
+    head += f' id="{chart_id}" role="img" class="chart-svg"'
+    return head + svg[head_end:].strip() + "\n"
+
+
+def _figure(width: float, height: float) -> Figure:
+    with rc_context(_RC):
+        return Figure(figsize=(width, height), dpi=72, layout="constrained")
+
+
+def interval_chart(
+    rows: Sequence[VariableRow], *, reliable: float = 0.800, tentative: float = 0.667
+) -> str:
+    """Krippendorff's alpha per variable with its bootstrap interval and the two conventions.
+
+    The threshold lines (``reliable``, ``tentative``) are labelled as conventions of the field
+    (Krippendorff, 2004, p. 241).
+    """
+    n = max(len(rows), 1)
+    with rc_context(_RC):
+        fig = _figure(7.5, 0.9 + 0.34 * n)
+        ax = fig.add_subplot()
+        lows = [0.0]
+        for i, row in enumerate(rows):
+            y = n - 1 - i
+            a = row.alpha
+            colour = VERDICT_COLOURS.get(row.verdict, MUTED)
+            if a is None or a.estimate is None:
+                t = ax.text(0.0, y, "  undefined", va="center", color=MUTED, fontsize=8)
+                t.set_gid(f"alpha-{row.row_id}")
+                continue
+            lows.append(a.estimate)
+            if a.ci_low is not None and a.ci_high is not None:
+                lows.append(a.ci_low)
+                (line,) = ax.plot(
+                    [a.ci_low, a.ci_high], [y, y], color=colour, linewidth=2.2, alpha=0.55
+                )
+                line.set_gid(f"ci-{row.row_id}")
+            (dot,) = ax.plot([a.estimate], [y], "o", color=colour, markersize=6)
+            dot.set_gid(f"alpha-{row.row_id}")
+        xmin = max(-1.0, min(-0.05, float(np.floor(min(lows) * 10) / 10)))
+        ax.set_xlim(xmin, 1.02)
+        ax.set_ylim(-0.7, n - 0.3 + 0.6)
+        for value, style, name in (
+            (tentative, (0, (4, 3)), f"{tentative:.3f}".lstrip("0") + " tentative"),
+            (reliable, "-", f"{reliable:.3f}".lstrip("0") + " reliable"),
+        ):
+            ax.axvline(value, color=MUTED, linestyle=style, linewidth=1)
+            ax.text(
+                value,
+                n - 0.3 + 0.5,
+                name,
+                ha="center",
+                va="top",
+                fontsize=7.5,
+                color=MUTED,
+                bbox={"facecolor": "white", "edgecolor": "none", "pad": 1},
+            )
+        ax.axvline(0, color=GRID, linewidth=1)
+        labels = [
+            _text(r.variable if r.kind == "variable" else f"{r.variable} ({r.kind})") for r in rows
+        ]
+        ax.set_yticks(range(n - 1, n - 1 - len(rows), -1), labels)
+        ax.set_xlabel(
+            "Krippendorff's alpha with bootstrap interval; lines at conventions of the field "
+            "(Krippendorff, 2004)"
+        )
+        ax.grid(axis="x", color=GRID, linewidth=0.6)
+        ax.set_axisbelow(True)
+        for side in ("top", "right"):
+            ax.spines[side].set_visible(False)
+        return _to_svg(fig, "chart-intervals")
+
+
+def confusion_chart(panel: CategoryPanel) -> str:
+    """Heat map of one variable's coder-by-coder table (counts in the cells)."""
+    matrix = np.asarray(panel.matrix, dtype=float)
+    k = len(panel.codes)
+    size = min(6.0, 1.6 + 0.45 * k)
+    with rc_context(_RC):
+        fig = _figure(size + 0.8, size)
+        ax = fig.add_subplot()
+        ax.imshow(matrix, cmap=HEAT, vmin=0, vmax=max(1.0, float(matrix.max())))
+        top = matrix.max() if matrix.size else 0
+        for i in range(k):
+            for j in range(k):
+                value = int(matrix[i, j])
+                colour = "white" if top and value > 0.6 * top else INK
+                ax.text(j, i, str(value), ha="center", va="center", color=colour, fontsize=8)
+        labels = [
+            _text(f"{c} {lab}" if lab != c else c, 18)
+            for c, lab in zip(panel.codes, panel.labels, strict=True)
+        ]
+        ax.set_xticks(range(k), labels, rotation=40, ha="right")
+        ax.set_yticks(range(k), labels)
+        ax.set_xlabel(_text(panel.column_title, 40))
+        ax.set_ylabel(_text(panel.row_title, 40))
+        ax.tick_params(length=0)
+        for spine in ax.spines.values():
+            spine.set_visible(False)
+        return _to_svg(fig, f"chart-{panel.panel_id}")
+
+
+def adjudication_chart(adjudication: Adjudication) -> str:
+    """Stacked bars: the status of every final cell, by variable."""
+    rows = adjudication.by_variable
+    n = max(len(rows), 1)
+    with rc_context(_RC):
+        fig = _figure(7.5, 1.2 + 0.3 * n)
+        ax = fig.add_subplot()
+        left = np.zeros(len(rows))
+        ys = np.arange(len(rows))[::-1]
+        for s_index, status in enumerate(STATUSES):
+            widths = np.array([counts[s_index] for _, counts in rows], dtype=float)
+            if not widths.any():
+                continue
+            bars = ax.barh(
+                ys,
+                widths,
+                left=left,
+                color=STATUS_COLOURS[status],
+                label=status.replace("_", " "),
+                height=0.6,
+            )
+            bars.set_gid(f"status-{status}")
+            left += widths
+        ax.set_yticks(ys, [_text(name) for name, _ in rows])
+        ax.set_xlabel("cells of the final dataset (units)")
+        fig.legend(loc="outside lower center", ncol=6, frameon=False, fontsize=7.5)
+        for side in ("top", "right"):
+            ax.spines[side].set_visible(False)
+        return _to_svg(fig, "chart-adjudication")

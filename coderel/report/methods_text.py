@@ -1,0 +1,249 @@
+"""The ready-to-paste methods paragraph, its references and the cautions that go with it.
+
+Numbers follow journal style (APA 7th ed., section 6.36): coefficients that cannot exceed 1 lose
+the leading zero (``α = .84, 95% CI [.79, .88]``), negative values take a minus sign.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from dataclasses import dataclass
+from typing import TYPE_CHECKING
+
+if TYPE_CHECKING:
+    from coderel.report.model import Reproducibility, Summary, VariableRow
+
+MINUS = "\u2212"
+
+#: Short reference list; a coefficient's key names the references its sentence cites.
+REFERENCES: dict[str, str] = {
+    "krippendorff2004": (
+        "Krippendorff, K. (2004). Content analysis: An introduction to its methodology "
+        "(2nd ed.). Sage."
+    ),
+    "krippendorff2011": (
+        "Krippendorff, K. (2011). Computing Krippendorff's alpha-reliability. Departmental "
+        "Papers (ASC), 43. Annenberg School for Communication, University of Pennsylvania."
+    ),
+    "hayes2007": (
+        "Hayes, A. F., & Krippendorff, K. (2007). Answering the call for a standard reliability "
+        "measure for coding data. Communication Methods and Measures, 1(1), 77-89."
+    ),
+    "efron1987": (
+        "Efron, B. (1987). Better bootstrap confidence intervals. Journal of the American "
+        "Statistical Association, 82(397), 171-185."
+    ),
+    "cohen1960": (
+        "Cohen, J. (1960). A coefficient of agreement for nominal scales. Educational and "
+        "Psychological Measurement, 20(1), 37-46."
+    ),
+    "cohen1968": (
+        "Cohen, J. (1968). Weighted kappa: Nominal scale agreement with provision for scaled "
+        "disagreement or partial credit. Psychological Bulletin, 70(4), 213-220."
+    ),
+    "fleiss1971": (
+        "Fleiss, J. L. (1971). Measuring nominal scale agreement among many raters. "
+        "Psychological Bulletin, 76(5), 378-382."
+    ),
+    "light1971": (
+        "Light, R. J. (1971). Measures of response agreement for qualitative data: Some "
+        "generalizations and alternatives. Psychological Bulletin, 76(5), 365-377."
+    ),
+    "scott1955": (
+        "Scott, W. A. (1955). Reliability of content analysis: The case of nominal scale "
+        "coding. Public Opinion Quarterly, 19(3), 321-325."
+    ),
+    "brennan1981": (
+        "Brennan, R. L., & Prediger, D. J. (1981). Coefficient kappa: Some uses, misuses, and "
+        "alternatives. Educational and Psychological Measurement, 41(3), 687-699."
+    ),
+    "gwet2008": (
+        "Gwet, K. L. (2008). Computing inter-rater reliability and its variance in the presence "
+        "of high agreement. British Journal of Mathematical and Statistical Psychology, 61(1), "
+        "29-48."
+    ),
+    "byrt1993": (
+        "Byrt, T., Bishop, J., & Carlin, J. B. (1993). Bias, prevalence and kappa. Journal of "
+        "Clinical Epidemiology, 46(5), 423-429."
+    ),
+}
+
+#: Coefficient key -> (name in the paragraph, citation in the text, reference keys).
+_CITED: dict[str, tuple[str, str, tuple[str, ...]]] = {
+    "percent_agreement": ("percent agreement", "", ()),
+    "cohen_kappa": ("Cohen's kappa", "Cohen, 1960", ("cohen1960",)),
+    "weighted_kappa_linear": (
+        "weighted kappa with linear weights",
+        "Cohen, 1968",
+        ("cohen1968",),
+    ),
+    "weighted_kappa_quadratic": (
+        "weighted kappa with quadratic weights",
+        "Cohen, 1968",
+        ("cohen1968",),
+    ),
+    "light_kappa": ("Light's kappa", "Light, 1971", ("light1971",)),
+    "fleiss_kappa": ("Fleiss' kappa", "Fleiss, 1971", ("fleiss1971",)),
+    "scott_pi": ("Scott's pi", "Scott, 1955", ("scott1955",)),
+    "brennan_prediger": (
+        "the Brennan-Prediger coefficient",
+        "Brennan & Prediger, 1981",
+        ("brennan1981",),
+    ),
+    "gwet_ac1": ("Gwet's AC1", "Gwet, 2008", ("gwet2008",)),
+    "pabak": ("prevalence- and bias-adjusted kappa (PABAK)", "Byrt et al., 1993", ("byrt1993",)),
+}
+
+_NUMBER_WORDS = ("zero", "one", "two", "three", "four", "five", "six", "seven", "eight", "nine")
+
+
+@dataclass(frozen=True, slots=True)
+class MethodsText:
+    """The methods paragraph, its reference list and the cautions shown beside it."""
+
+    paragraph: str
+    references: tuple[str, ...]
+    cautions: tuple[str, ...]
+
+
+def fmt_coef(value: float | None, digits: int = 2) -> str:
+    """A coefficient bounded by 1 in journal style: ``.84``, ``−.12``, ``1.00``; ``–`` if None.
+
+    >>> fmt_coef(0.8412), fmt_coef(-0.1234), fmt_coef(1.0), fmt_coef(0.8, 3)
+    ('.84', '−.12', '1.00', '.800')
+    """
+    if value is None:
+        return "–"
+    text = f"{abs(value):.{digits}f}"
+    if text.startswith("0."):
+        text = text[1:]
+    if value < 0 and text.strip("0.") != "":
+        text = MINUS + text
+    return text
+
+
+def fmt_interval(low: float | None, high: float | None, digits: int = 2) -> str:
+    """``[.79, .88]``, or an empty string when the interval is unknown."""
+    if low is None or high is None:
+        return ""
+    return f"[{fmt_coef(low, digits)}, {fmt_coef(high, digits)}]"
+
+
+def number_word(n: int, *, capital: bool = False) -> str:
+    """Journal style: words below ten, numerals from ten."""
+    word = _NUMBER_WORDS[n] if 0 <= n < len(_NUMBER_WORDS) else f"{n:,}"
+    return word[:1].upper() + word[1:] if capital else word
+
+
+def alpha_phrase(estimate: float | None, low: float | None, high: float | None, level: int) -> str:
+    """``α = .84, 95% CI [.79, .88]``."""
+    text = f"α = {fmt_coef(estimate)}"
+    interval = fmt_interval(low, high)
+    if interval:
+        text += f", {level}% CI {interval}"
+    return text
+
+
+def _join(items: Sequence[str]) -> str:
+    items = list(items)
+    if len(items) <= 1:
+        return "".join(items)
+    if len(items) == 2:
+        return f"{items[0]} and {items[1]}"
+    return ", ".join(items[:-1]) + f", and {items[-1]}"
+
+
+def methods_text(
+    *, summary: Summary, table: Sequence[VariableRow], repro: Reproducibility
+) -> MethodsText:
+    """Write the methods paragraph from the report's summary, table and reproducibility block."""
+    level = round(repro.ci_level * 100)
+    rows = [r for r in table if r.kind == "variable"]
+    refs = ["krippendorff2004", "krippendorff2011"]
+    n_coders = len(summary.coders)
+    levels = sorted({r.level for r in rows}, key=("nominal", "ordinal", "interval", "ratio").index)
+    s = []
+    s.append(
+        f"{number_word(n_coders, capital=True)} coders independently coded "
+        f"{summary.units:,} units on {number_word(len(rows))} "
+        f"variable{'s' if len(rows) != 1 else ''} defined in a codebook "
+        f"({repro.codebook_title}, version {repro.codebook_version})."
+    )
+    s.append(
+        "Intercoder reliability was assessed per variable with Krippendorff's alpha "
+        "(Krippendorff, 2004, 2011), using the difference function of each variable's level of "
+        f"measurement ({_join(levels)})."
+    )
+    present = [
+        key
+        for key in _CITED
+        if any((c := r.coefficient(key)) is not None and c.estimate is not None for r in rows)
+    ]
+    if present:
+        names = []
+        for key in present:
+            name, cite, keys = _CITED[key]
+            names.append(f"{name} ({cite})" if cite else name)
+            refs.extend(k for k in keys if k not in refs)
+        s.append(f"For comparison we also report {_join(names)}.")
+    if repro.replicates:
+        refs.append("hayes2007")
+        if repro.interval.lower() == "bca":
+            kind = "bias-corrected and accelerated (BCa) intervals (Efron, 1987)"
+            refs.append("efron1987")
+        else:
+            kind = f"{repro.interval or 'percentile'} intervals"
+        seed = f", random seed {repro.seed}" if repro.seed is not None else ""
+        s.append(
+            f"{level}% confidence intervals were obtained by bootstrapping units "
+            f"(Hayes & Krippendorff, 2007; {repro.replicates:,} replicates{seed}) as {kind}."
+        )
+    defined = [(r, r.alpha) for r in rows if r.alpha is not None and r.alpha.estimate is not None]
+    if defined:
+        values = [a.estimate for _, a in defined]
+        lo, hi = min(values), max(values)
+        if len(defined) > 1:
+            s.append(f"Alpha ranged from {fmt_coef(lo)} to {fmt_coef(hi)} across variables.")
+        reliable = sum(1 for r in rows if r.verdict == "reliable")
+        tentative = sum(1 for r in rows if r.verdict == "tentative")
+        below = sum(1 for r in rows if r.verdict == "unreliable")
+        th_r = fmt_coef(rows[0].reliable, 3) if rows else ".800"
+        th_t = fmt_coef(rows[0].tentative, 3) if rows else ".667"
+        s.append(
+            f"{number_word(reliable, capital=True)} of {number_word(len(rows))} variables reached "
+            f"α ≥ {th_r}, {number_word(tentative)} reached only α ≥ {th_t} (acceptable for "
+            f"tentative conclusions) and {number_word(below)} fell below {th_t}; these "
+            "thresholds are conventions of the field (Krippendorff, 2004), not statistical tests."
+        )
+        parts = [
+            f"{r.variable}, {alpha_phrase(a.estimate, a.ci_low, a.ci_high, level)}"
+            for r, a in defined
+        ]
+        s.append("Per variable: " + "; ".join(parts) + ".")
+    undefined = [r for r in rows if r.alpha is None or r.alpha.estimate is None]
+    if undefined:
+        parts = []
+        for r in undefined:
+            reason = r.alpha.reason if r.alpha is not None and r.alpha.reason else "no variation"
+            parts.append(f"{r.variable} ({reason})")
+        s.append("Alpha was undefined for " + _join(parts) + ".")
+    s.append(
+        "Agreement between coders shows that the codebook was applied consistently; it does not "
+        "show that the codes are valid measures of what they are meant to capture."
+    )
+    cautions = (
+        "Reliability is not validity: coders can agree on a wrong reading of the text. Check "
+        "validity separately (for example against an expert standard or other data).",
+        "The thresholds .800 and .667 are conventions of the field (Krippendorff, 2004), not "
+        "tests; report the interval, not only whether a threshold was passed.",
+        "When you describe or quote the narrative reports, follow your ethics board's approval "
+        "and your data-protection rules. This report contains no narrative text.",
+    )
+    return MethodsText(
+        paragraph=" ".join(s),
+        references=tuple(REFERENCES[k] for k in sorted(set(refs), key=REFERENCES_ORDER.index)),
+        cautions=cautions,
+    )
+
+
+REFERENCES_ORDER: list[str] = sorted(REFERENCES, key=lambda k: REFERENCES[k])

@@ -1,0 +1,643 @@
+"""The report's content, assembled once from the results and rendered by three renderers.
+
+:func:`build_report` reads an agreement result (``coderel.agree``), the codings it came from and,
+when a decisions file was given, the merge result (``coderel.merge``). It computes nothing that the
+engine already computes: coefficients, intervals, verdicts and notes are copied; the coder panel's
+agreement with the final values uses :func:`coderel.stats.kappa.cohen_kappa_table` (Cohen, 1960).
+HTML, Markdown and xlsx renderers read only :class:`ReportContent`.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import math
+from collections.abc import Mapping, Sequence
+from dataclasses import asdict, dataclass, field
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from coderel._version import __version__
+from coderel.codebook.model import Codebook
+from coderel.codings import Codings
+from coderel.report.methods_text import MethodsText, methods_text
+
+#: Coefficient keys of the engine in the order the report shows them, with display names.
+COEFFICIENTS: dict[str, str] = {
+    "krippendorff_alpha": "Krippendorff's α",
+    "percent_agreement": "Percent agreement",
+    "cohen_kappa": "Cohen's κ",
+    "weighted_kappa_linear": "Weighted κ (linear)",
+    "weighted_kappa_quadratic": "Weighted κ (quadratic)",
+    "light_kappa": "Light's κ",
+    "fleiss_kappa": "Fleiss' κ",
+    "scott_pi": "Scott's π",
+    "brennan_prediger": "Brennan-Prediger κ",
+    "gwet_ac1": "Gwet's AC1",
+    "pabak": "PABAK",
+}
+VERDICTS: tuple[str, ...] = ("reliable", "tentative", "unreliable", "undefined")
+STATUSES: tuple[str, ...] = (
+    "agreed",
+    "majority",
+    "adjudicated",
+    "single",
+    "unresolved",
+    "not_applicable",
+)
+#: Statuses whose final value counts as settled for the coders' agreement with the final value.
+SETTLED: tuple[str, ...] = ("agreed", "majority", "adjudicated", "single")
+
+
+def _num(value: Any) -> float | None:
+    if value is None:
+        return None
+    try:
+        out = float(value)
+    except (TypeError, ValueError):
+        return None
+    return out if math.isfinite(out) else None
+
+
+@dataclass(frozen=True, slots=True)
+class Coefficient:
+    """One coefficient of one variable: estimate, interval, or the reason it is undefined."""
+
+    key: str
+    name: str
+    estimate: float | None
+    ci_low: float | None
+    ci_high: float | None
+    reason: str | None = None
+
+
+@dataclass(frozen=True, slots=True)
+class VariableRow:
+    """One row of the agreement table (a variable, or a variable's applicability)."""
+
+    variable: str
+    label: str
+    level: str
+    kind: str
+    units: int
+    coders: int
+    coefficients: tuple[Coefficient, ...]
+    verdict: str
+    notes: tuple[str, ...]
+    reliable: float
+    tentative: float
+
+    @property
+    def row_id(self) -> str:
+        suffix = "" if self.kind == "variable" else f"--{self.kind}"
+        return f"var-{_slug(self.variable)}{suffix}"
+
+    def coefficient(self, key: str) -> Coefficient | None:
+        for c in self.coefficients:
+            if c.key == key:
+                return c
+        return None
+
+    @property
+    def alpha(self) -> Coefficient | None:
+        return self.coefficient("krippendorff_alpha")
+
+
+@dataclass(frozen=True, slots=True)
+class CategoryPanel:
+    """Confusion matrix and per-category agreement of one categorical variable."""
+
+    variable: str
+    label: str
+    codes: tuple[str, ...]
+    labels: tuple[str, ...]
+    matrix: tuple[tuple[int, ...], ...]
+    matrix_caption: str
+    row_title: str
+    column_title: str
+    category_columns: tuple[str, ...]
+    category_rows: tuple[tuple[Any, ...], ...]
+
+    @property
+    def panel_id(self) -> str:
+        return f"cat-{_slug(self.variable)}"
+
+
+@dataclass(frozen=True, slots=True)
+class CoderFinal:
+    """One coder's agreement with the final (settled) values, over variables."""
+
+    coder: str
+    units: int
+    percent_agreement: float | None
+    mean_kappa: float | None
+    variables: int
+    per_variable: tuple[tuple[str, int, float | None, float | None], ...]
+
+
+@dataclass(frozen=True, slots=True)
+class CoderPanel:
+    """Pairwise agreement between coders and, with decisions, each coder against the final value."""
+
+    coders: tuple[str, ...]
+    pair_percent: tuple[tuple[float | None, ...], ...]
+    pair_kappa: tuple[tuple[float | None, ...], ...]
+    pair_units: tuple[tuple[int, ...], ...]
+    final: tuple[CoderFinal, ...] = ()
+
+
+@dataclass(frozen=True, slots=True)
+class Adjudication:
+    """Statuses of the final values, in total and by variable (from the merge)."""
+
+    rule: str
+    totals: tuple[tuple[str, int], ...]
+    by_variable: tuple[tuple[str, tuple[int, ...]], ...]
+    statuses: tuple[str, ...] = STATUSES
+
+    @property
+    def resolved(self) -> int:
+        return sum(n for s, n in self.totals if s in SETTLED)
+
+    @property
+    def unresolved(self) -> int:
+        return sum(n for s, n in self.totals if s == "unresolved")
+
+
+@dataclass(frozen=True, slots=True)
+class Summary:
+    """Headline figures of the project."""
+
+    title: str
+    units: int
+    coders: tuple[str, ...]
+    variables: int
+    verdicts: tuple[tuple[str, int], ...]
+    cells_total: int
+    cells_filled: int
+    cells_not_applicable: int
+    units_all_coders: int
+
+    @property
+    def completeness(self) -> float | None:
+        return self.cells_filled / self.cells_total if self.cells_total else None
+
+
+@dataclass(frozen=True, slots=True)
+class SourceRow:
+    name: str
+    sha256: str
+    size: int
+
+
+@dataclass(frozen=True, slots=True)
+class Reproducibility:
+    """What is needed to reproduce the numbers."""
+
+    coderel_version: str
+    codebook_title: str
+    codebook_version: str
+    sources: tuple[SourceRow, ...]
+    seed: int | None
+    replicates: int
+    interval: str
+    ci_level: float
+    generated_utc: str
+    command: str
+    decisions_file: SourceRow | None = None
+
+
+@dataclass(frozen=True)
+class ReportContent:
+    """Everything the report shows; the three renderers read only this."""
+
+    summary: Summary
+    table: tuple[VariableRow, ...]
+    categories: tuple[CategoryPanel, ...]
+    coders: CoderPanel
+    adjudication: Adjudication | None
+    methods: MethodsText
+    reproducibility: Reproducibility
+    extra: Mapping[str, Any] = field(default_factory=dict)
+
+    def to_dict(self) -> dict[str, Any]:
+        """JSON-ready content (summary, table, categories, coders, adjudication, methods, ...)."""
+        out = {
+            "summary": {**asdict(self.summary), "completeness": self.summary.completeness},
+            "table": [
+                {**asdict(r), "id": r.row_id, "coefficients": [asdict(c) for c in r.coefficients]}
+                for r in self.table
+            ],
+            "categories": [asdict(p) for p in self.categories],
+            "coders": asdict(self.coders),
+            "adjudication": None,
+            "methods": asdict(self.methods),
+            "reproducibility": asdict(self.reproducibility),
+        }
+        if self.adjudication is not None:
+            out["adjudication"] = {
+                **asdict(self.adjudication),
+                "resolved": self.adjudication.resolved,
+                "unresolved": self.adjudication.unresolved,
+            }
+        return out
+
+    def to_frame(self) -> pd.DataFrame:
+        """The agreement table, one row per variable and coefficient."""
+        rows = [
+            {
+                "variable": r.variable,
+                "kind": r.kind,
+                "level": r.level,
+                "coefficient": c.key,
+                "estimate": c.estimate,
+                "ci_low": c.ci_low,
+                "ci_high": c.ci_high,
+                "reason": c.reason,
+                "verdict": r.verdict,
+            }
+            for r in self.table
+            for c in r.coefficients
+        ]
+        return pd.DataFrame(rows)
+
+
+def _slug(text: str) -> str:
+    out = "".join(ch if ch.isalnum() or ch in "-_" else "-" for ch in str(text))
+    return out or "x"
+
+
+# ---- assembly ------------------------------------------------------------------------------
+
+
+def _coefficients(va: Any) -> tuple[Coefficient, ...]:
+    coefs: Mapping[str, Any] = getattr(va, "coefficients", {}) or {}
+    out = []
+    keys = [k for k in COEFFICIENTS if k in coefs] + [k for k in coefs if k not in COEFFICIENTS]
+    for key in keys:
+        est = coefs[key]
+        if est is None:
+            continue
+        ci = getattr(est, "ci", None) or (None, None)
+        out.append(
+            Coefficient(
+                key=key,
+                name=COEFFICIENTS.get(key, key),
+                estimate=_num(getattr(est, "estimate", None)),
+                ci_low=_num(ci[0]),
+                ci_high=_num(ci[1]),
+                reason=getattr(est, "reason", None),
+            )
+        )
+    return tuple(out)
+
+
+def _table(result: Any, codebook: Codebook) -> tuple[VariableRow, ...]:
+    rows = []
+    for va in result.variables:
+        name = str(va.variable)
+        th = codebook.thresholds_for(name) if name in codebook else codebook.thresholds
+        rows.append(
+            VariableRow(
+                variable=name,
+                label=str(getattr(va, "label", None) or name),
+                level=str(va.level),
+                kind=str(getattr(va, "kind", "variable")),
+                units=int(getattr(va, "units", 0) or 0),
+                coders=int(getattr(va, "coders", 0) or 0),
+                coefficients=_coefficients(va),
+                verdict=str(getattr(va, "verdict", "undefined")),
+                notes=tuple(str(n) for n in (getattr(va, "notes", ()) or ())),
+                reliable=float(th.reliable),
+                tentative=float(th.tentative),
+            )
+        )
+    return tuple(rows)
+
+
+def _code_label(codebook: Codebook, variable: str, code: Any) -> str:
+    if variable in codebook:
+        label = codebook.variable(variable).label_of(code)
+        if label is not None:
+            return str(label)
+    return str(code)
+
+
+def _category_panels(result: Any, codebook: Codebook) -> tuple[CategoryPanel, ...]:
+    panels = []
+    for va in result.variables:
+        if getattr(va, "kind", "variable") != "variable" or va.level not in ("nominal", "ordinal"):
+            continue
+        confusion: Mapping[tuple[str, str], Any] = getattr(va, "confusion", {}) or {}
+        cats = tuple(getattr(va, "categories", ()) or ())
+        if not confusion or not cats:
+            continue
+        pairs = list(confusion)
+        total = np.zeros((len(cats), len(cats)), dtype=np.int64)
+        for pair in pairs:
+            total += np.asarray(confusion[pair], dtype=np.int64)
+        if len(pairs) == 1:
+            a, b = pairs[0]
+            caption = f"Units coded by {a} (rows) and {b} (columns)."
+            row_title, col_title = str(a), str(b)
+        else:
+            caption = (
+                f"Summed over all {len(pairs)} pairs of coders: each unit counts once per pair; "
+                "rows are the first coder of each pair, columns the second."
+            )
+            row_title, col_title = "first coder of a pair", "second coder of a pair"
+        per_cat: Mapping[Any, Mapping[str, Any]] = getattr(va, "category_agreement", {}) or {}
+        columns: list[str] = []
+        for stats in per_cat.values():
+            for key in stats:
+                if key not in columns:
+                    columns.append(str(key))
+        cat_rows = []
+        for code in cats:
+            stats = per_cat.get(code, {})
+            values = tuple(_plain(stats.get(c)) for c in columns)
+            cat_rows.append((str(code), _code_label(codebook, va.variable, code), *values))
+        panels.append(
+            CategoryPanel(
+                variable=str(va.variable),
+                label=str(getattr(va, "label", None) or va.variable),
+                codes=tuple(str(c) for c in cats),
+                labels=tuple(_code_label(codebook, va.variable, c) for c in cats),
+                matrix=tuple(tuple(int(x) for x in row) for row in total),
+                matrix_caption=caption,
+                row_title=row_title,
+                column_title=col_title,
+                category_columns=("code", "label", *columns),
+                category_rows=tuple(cat_rows),
+            )
+        )
+    return tuple(panels)
+
+
+def _plain(value: Any) -> Any:
+    if isinstance(value, np.generic):
+        value = value.item()
+    if isinstance(value, float) and not math.isfinite(value):
+        return None
+    if isinstance(value, list | tuple):
+        return ", ".join(str(v) for v in value)
+    return value
+
+
+def _coder_pairs(result: Any, coders: Sequence[str]) -> CoderPanel:
+    """Pooled pairwise agreement over variables (weighted by units) and mean Cohen's kappa."""
+    index = {c: i for i, c in enumerate(coders)}
+    k = len(coders)
+    agree = np.zeros((k, k))
+    units = np.zeros((k, k), dtype=np.int64)
+    kappa_sum = np.zeros((k, k))
+    kappa_n = np.zeros((k, k), dtype=np.int64)
+    for va in result.variables:
+        if getattr(va, "kind", "variable") != "variable":
+            continue
+        for pa in getattr(va, "pairs", ()) or ():
+            if pa.coder_a not in index or pa.coder_b not in index:
+                continue
+            i, j = index[pa.coder_a], index[pa.coder_b]
+            n = int(pa.units or 0)
+            p = _num(_estimate_of(pa.percent_agreement))
+            if n and p is not None:
+                for a, b in ((i, j), (j, i)):
+                    agree[a, b] += p * n
+                    units[a, b] += n
+            kap = _num(_estimate_of(pa.cohen_kappa))
+            if kap is not None:
+                for a, b in ((i, j), (j, i)):
+                    kappa_sum[a, b] += kap
+                    kappa_n[a, b] += 1
+    percent = tuple(
+        tuple(
+            None if i == j or units[i, j] == 0 else float(agree[i, j] / units[i, j])
+            for j in range(k)
+        )
+        for i in range(k)
+    )
+    kappa = tuple(
+        tuple(
+            None if i == j or kappa_n[i, j] == 0 else float(kappa_sum[i, j] / kappa_n[i, j])
+            for j in range(k)
+        )
+        for i in range(k)
+    )
+    return CoderPanel(
+        coders=tuple(coders),
+        pair_percent=percent,
+        pair_kappa=kappa,
+        pair_units=tuple(tuple(int(x) for x in row) for row in units),
+    )
+
+
+def _estimate_of(value: Any) -> Any:
+    """Pair statistics may be plain numbers or :class:`Estimate` objects."""
+    return getattr(value, "estimate", value)
+
+
+def _coder_final(codings: Codings, merged: Any, coders: Sequence[str]) -> tuple[CoderFinal, ...]:
+    """Each coder against the final value, per single-choice categorical variable.
+
+    Percent agreement pools all settled cells; Cohen's kappa (Cohen, 1960) is computed per
+    variable on the coder-by-final table over the codebook's categories, then averaged.
+    """
+    from coderel.stats.kappa import cohen_kappa_table
+
+    frame: pd.DataFrame = merged.frame
+    unit_col = "unit" if "unit" in frame.columns else frame.columns[0]
+    final = frame.set_index(frame[unit_col].astype(str))
+    out = []
+    for coder in coders:
+        agree_n = 0
+        total_n = 0
+        kappas: list[float] = []
+        per_var = []
+        for var in codings.codebook.variables:
+            if var.name not in final.columns or f"{var.name}_status" not in final.columns:
+                continue
+            wide = codings.wide(var.name)
+            if coder not in wide.columns:
+                continue
+            status = final[f"{var.name}_status"]
+            values = final[var.name]
+            pairs = []
+            for unit, mine in wide[coder].items():
+                if mine is None or unit not in final.index or status.get(unit) not in SETTLED:
+                    continue
+                theirs = values.get(unit)
+                if theirs is None or (isinstance(theirs, float) and math.isnan(theirs)):
+                    continue
+                pairs.append((mine, theirs))
+            if not pairs:
+                continue
+            same = sum(1 for a, b in pairs if _same(a, b))
+            agree_n += same
+            total_n += len(pairs)
+            kap = None
+            if var.is_categorical and not var.multiple and var.codes:
+                pos = {c: i for i, c in enumerate(var.codes)}
+                table = np.zeros((len(pos), len(pos)), dtype=np.int64)
+                for a, b in pairs:
+                    if a in pos and b in pos:
+                        table[pos[a], pos[b]] += 1
+                kap = _num(_estimate_of(cohen_kappa_table(table)))
+                if kap is not None:
+                    kappas.append(kap)
+            per_var.append((var.name, len(pairs), same / len(pairs), kap))
+        out.append(
+            CoderFinal(
+                coder=coder,
+                units=total_n,
+                percent_agreement=agree_n / total_n if total_n else None,
+                mean_kappa=float(np.mean(kappas)) if kappas else None,
+                variables=len(kappas),
+                per_variable=tuple(per_var),
+            )
+        )
+    return tuple(out)
+
+
+def _same(a: Any, b: Any) -> bool:
+    if isinstance(a, float | int) and isinstance(b, float | int):
+        return math.isclose(float(a), float(b))
+    if isinstance(a, tuple | list) or isinstance(b, tuple | list):
+        return (
+            tuple(a) == tuple(b)
+            if isinstance(a, tuple | list) and isinstance(b, tuple | list)
+            else False
+        )
+    return a == b or str(a) == str(b)
+
+
+def _adjudication(merged: Any, codebook: Codebook) -> Adjudication:
+    frame: pd.DataFrame = merged.frame
+    totals = dict.fromkeys(STATUSES, 0)
+    by_var = []
+    for var in codebook.variables:
+        col = f"{var.name}_status"
+        if col not in frame.columns:
+            continue
+        counts = frame[col].value_counts()
+        row = tuple(int(counts.get(s, 0)) for s in STATUSES)
+        for s, n in zip(STATUSES, row, strict=True):
+            totals[s] += n
+        by_var.append((var.name, row))
+    return Adjudication(
+        rule=str(getattr(merged, "rule", "") or ""),
+        totals=tuple(totals.items()),
+        by_variable=tuple(by_var),
+    )
+
+
+def _summary(codings: Codings, result: Any, table: Sequence[VariableRow]) -> Summary:
+    frame = codings.frame
+    codebook = codings.codebook
+    coders = tuple(codings.coders)
+    units = codings.units
+    names = [v.name for v in codebook.variables]
+    cells_total = len(units) * len(coders) * len(names)
+    in_cb = frame[frame["variable"].isin(names)]
+    filled = int(sum(v is not None for v in in_cb["value"]))
+    not_applicable = int(
+        sum(
+            (val is None) and (app is False)
+            for val, app in zip(in_cb["value"], in_cb["applies"], strict=True)
+        )
+    )
+    per_unit = frame.groupby("unit")["coder"].nunique()
+    all_coders = int((per_unit == len(coders)).sum())
+    main = [r for r in table if r.kind == "variable"]
+    verdicts = tuple((v, sum(1 for r in main if r.verdict == v)) for v in VERDICTS)
+    return Summary(
+        title=str(getattr(result, "codebook_title", None) or codebook.title),
+        units=len(units),
+        coders=coders,
+        variables=len(main),
+        verdicts=verdicts,
+        cells_total=cells_total,
+        cells_filled=filled,
+        cells_not_applicable=not_applicable,
+        units_all_coders=all_coders,
+    )
+
+
+def _source_row(src: Any) -> SourceRow:
+    from pathlib import Path
+
+    return SourceRow(name=Path(str(src.path)).name, sha256=str(src.sha256), size=int(src.size or 0))
+
+
+def build_report(
+    codings: Codings,
+    result: Any,
+    merged: Any | None = None,
+    *,
+    command: str = "",
+    decisions_source: Any | None = None,
+    generated: dt.datetime | None = None,
+) -> ReportContent:
+    """Assemble the report's content from an agreement result (and a merge result).
+
+    Parameters
+    ----------
+    codings
+        The codings the agreement was computed on (for completeness and the coder panel).
+    result
+        The :class:`coderel.agree.AgreementResult` of these codings.
+    merged
+        The :class:`coderel.merge.MergeResult` when a decisions file was given; adds the
+        adjudication progress and each coder's agreement with the final value.
+    command
+        The command line, for the reproducibility block.
+    decisions_source
+        The decisions file as a :class:`coderel.codings.SourceFile` (name and SHA-256).
+    generated
+        Time stamp of the report (UTC); now by default.
+
+    Returns
+    -------
+    ReportContent
+        Frozen content that :func:`coderel.report.write_report` renders as HTML, Markdown or xlsx.
+    """
+    codebook = codings.codebook
+    table = _table(result, codebook)
+    coder_names = tuple(str(c) for c in (codings.coders or []))
+    coders = _coder_pairs(result, coder_names)
+    adjudication = None
+    if merged is not None:
+        adjudication = _adjudication(merged, codebook)
+        coders = CoderPanel(
+            coders=coders.coders,
+            pair_percent=coders.pair_percent,
+            pair_kappa=coders.pair_kappa,
+            pair_units=coders.pair_units,
+            final=_coder_final(codings, merged, coder_names),
+        )
+    summary = _summary(codings, result, table)
+    when = (generated or dt.datetime.now(dt.UTC)).astimezone(dt.UTC)
+    repro = Reproducibility(
+        coderel_version=__version__,
+        codebook_title=str(getattr(result, "codebook_title", None) or codebook.title),
+        codebook_version=str(getattr(result, "codebook_version", None) or codebook.version),
+        sources=tuple(_source_row(s) for s in codings.sources),
+        seed=getattr(result, "seed", None),
+        replicates=int(getattr(result, "replicates", 0) or 0),
+        interval=str(getattr(result, "method", "") or ""),
+        ci_level=float(getattr(result, "ci_level", 0.95) or 0.95),
+        generated_utc=when.strftime("%Y-%m-%d %H:%M:%S UTC"),
+        command=command,
+        decisions_file=_source_row(decisions_source) if decisions_source is not None else None,
+    )
+    methods = methods_text(summary=summary, table=table, repro=repro)
+    return ReportContent(
+        summary=summary,
+        table=table,
+        categories=_category_panels(result, codebook),
+        coders=coders,
+        adjudication=adjudication,
+        methods=methods,
+        reproducibility=repro,
+    )
