@@ -1,0 +1,302 @@
+"""Per-variable plans: per-unit contributions (U x M) and the formulas that turn their sums into
+coefficients.
+
+A plan's ``contributions`` row u holds unit u's share of every sum a coefficient needs (value
+counts, coincidences, coder-pair indicators, per-unit disagreement). Any vector of unit weights
+w gives the sums ``w @ contributions``; ones give the point estimate, a bootstrap row of
+multinomial counts gives a replicate, a leave-one-out vector gives a jackknife value. Each
+formula maps a matrix of sums (R x M) to R coefficient values, so a coefficient is never
+re-computed in a Python loop over replicates.
+
+Multi-coder definitions (more than two coders) follow Gwet (2014, *Handbook of Inter-Rater
+Reliability*, 4th ed., ch. 2-3): observed agreement p_a averages, over units with two or more
+values, sum_k r_ik (r_ik - 1) / (r_i (r_i - 1)); category proportions pi_k average r_ik / r_i over
+units with at least one value. Scott's pi becomes Fleiss' kappa generalised to missing values;
+Brennan-Prediger, AC1/AC2 and PABAK use the same p_a. Light's kappa is the mean of Cohen's kappa
+over coder pairs (Light 1971). Fleiss' kappa proper uses the units coded by every coder.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from dataclasses import dataclass, field
+from typing import Literal
+
+import numpy as np
+
+from coderel.stats import alpha as A
+from coderel.stats import chance as CH
+from coderel.stats import kappa as KA
+from coderel.stats.counts import (
+    coder_pairs,
+    coincidences_upper,
+    one_hot,
+    unit_agreeing_pairs,
+    unit_disagreement,
+    value_counts,
+)
+
+Formula = Callable[[np.ndarray], np.ndarray]
+ScaleKind = Literal["categorical", "numeric", "set"]
+
+
+@dataclass(frozen=True)
+class Scale:
+    """The value domain of a variable, as the statistics need it.
+
+    ``categorical``: ``size`` codebook categories in codebook order, ``ordinal`` when ordered;
+    ``numeric``: ``values`` the distinct observed numbers (level interval or ratio);
+    ``set``: ``sets`` the distinct observed code sets of a multi-select variable (Jaccard distance).
+    """
+
+    kind: ScaleKind
+    level: str
+    size: int
+    values: np.ndarray | None = None
+    sets: tuple[frozenset, ...] = ()
+
+    @property
+    def ordinal(self) -> bool:
+        return self.kind == "categorical" and self.level == "ordinal"
+
+
+@dataclass(frozen=True)
+class Plan:
+    """Per-unit contributions and the coefficient formulas over their weighted sums."""
+
+    contributions: np.ndarray
+    formulas: dict[str, Formula] = field(default_factory=dict)
+
+    def point(self, name: str) -> float:
+        """A coefficient on the full sample (all unit weights 1); ``nan`` when undefined."""
+        total = self.contributions.sum(axis=0)[None, :]
+        return float(self.formulas[name](total)[0])
+
+
+class _Builder:
+    def __init__(self, n_units: int) -> None:
+        self.n_units = n_units
+        self.blocks: list[np.ndarray] = []
+        self.width = 0
+
+    def add(self, block: np.ndarray):
+        arr = np.asarray(block, dtype=float)
+        if arr.ndim == 1:
+            self.blocks.append(arr[:, None])
+            self.width += 1
+            return self.width - 1
+        self.blocks.append(arr)
+        start = self.width
+        self.width += arr.shape[1]
+        return slice(start, self.width)
+
+    def contributions(self) -> np.ndarray:
+        if not self.blocks:
+            return np.zeros((self.n_units, 0))
+        return np.hstack(self.blocks)
+
+
+def _div(num: np.ndarray, den: np.ndarray) -> np.ndarray:
+    num = np.asarray(num, dtype=float)
+    den = np.asarray(den, dtype=float)
+    out = np.full(np.broadcast(num, den).shape, np.nan)
+    np.divide(num, den, out=out, where=den > 0)
+    return out
+
+
+def _nanmean_rows(stack: np.ndarray) -> np.ndarray:
+    """Mean over axis 0 ignoring nan, nan where every entry is nan (no warnings)."""
+    ok = np.isfinite(stack)
+    count = ok.sum(axis=0)
+    total = np.where(ok, stack, 0.0).sum(axis=0)
+    return _div(total, count)
+
+
+def _domain_distance(scale: Scale):
+    if scale.kind == "numeric":
+        values = np.asarray(scale.values, dtype=float)
+        if scale.level == "ratio":
+            return A.ratio_distance(values)
+        return A.interval_distance(values - _centre(values))
+    if scale.kind == "set":
+        delta = A.jaccard_delta(list(scale.sets))
+        return lambda a, b: delta[a, b]
+    return lambda a, b: (a != b).astype(float)
+
+
+def _centre(values: np.ndarray) -> float:
+    return float(np.mean(values)) if len(values) else 0.0
+
+
+def add_percent(b: _Builder, x: np.ndarray) -> Formula:
+    """Pairwise percent agreement: equal ordered pairs / all ordered pairs of pairable values."""
+    equal, pairs = unit_agreeing_pairs(x)
+    s_eq, s_all = b.add(equal), b.add(pairs)
+    return lambda s: _div(s[:, s_eq], s[:, s_all])
+
+
+def add_alpha(b: _Builder, x: np.ndarray, scale: Scale) -> Formula:
+    """Krippendorff's alpha at the scale's level (coincidence sums per unit)."""
+    counts = value_counts(x, scale.size)
+    pairable = counts.sum(axis=1) >= 2
+    cp = counts * pairable[:, None]
+    if scale.ordinal:
+        iu = np.triu_indices(scale.size, 1)
+        s_n, s_o = b.add(cp), b.add(coincidences_upper(cp, iu))
+        return lambda s: A.alpha_ordinal(s[:, s_n], s[:, s_o], iu)
+    d = unit_disagreement(x, _domain_distance(scale))
+    if scale.kind == "numeric" and scale.level == "interval":
+        values = np.asarray(scale.values, dtype=float)
+        v = values - _centre(values)
+        s1 = cp @ v
+        s2 = cp @ v**2
+        s_m, s_1, s_2, s_d = b.add(cp.sum(axis=1)), b.add(s1), b.add(s2), b.add(d)
+        return lambda s: A.alpha_interval_moments(s[:, s_m], s[:, s_1], s[:, s_2], s[:, s_d])
+    s_n, s_d = b.add(cp), b.add(d)
+    if scale.kind == "categorical":
+        return lambda s: A.alpha_nominal(s[:, s_n], s[:, s_d])
+    if scale.kind == "numeric":
+        delta = A.ratio_delta(np.asarray(scale.values, dtype=float))
+    else:
+        delta = A.jaccard_delta(list(scale.sets))
+    return lambda s: A.alpha_with_metric(s[:, s_n], s[:, s_d], delta)
+
+
+@dataclass(frozen=True)
+class _PairSlices:
+    both: int
+    agree: int
+    rows: slice
+    cols: slice
+    weighted: dict[str, int]
+
+
+def _add_pair(
+    b: _Builder, a: np.ndarray, c: np.ndarray, k: int, weights: dict[str, np.ndarray]
+) -> _PairSlices:
+    both = (a >= 0) & (c >= 0)
+    ai, ci = np.maximum(a, 0), np.maximum(c, 0)
+    return _PairSlices(
+        both=b.add(both.astype(float)),
+        agree=b.add((both & (a == c)).astype(float)),
+        rows=b.add(one_hot(a, k, both)),
+        cols=b.add(one_hot(c, k, both)),
+        weighted={n: b.add(np.where(both, w[ai, ci], 0.0)) for n, w in weights.items()},
+    )
+
+
+def _pair_parts(s: np.ndarray, p: _PairSlices):
+    n = s[:, p.both]
+    return _div(s[:, p.agree], n), _div(s[:, p.rows], n[:, None]), _div(s[:, p.cols], n[:, None])
+
+
+def _cohen(p: _PairSlices) -> Formula:
+    def f(s: np.ndarray) -> np.ndarray:
+        p_o, r, c = _pair_parts(s, p)
+        return KA.cohen_from_margins(p_o, r, c)
+
+    return f
+
+
+def categorical_plan(x: np.ndarray, scale: Scale) -> Plan:
+    """All coefficients of a single-choice categorical variable (nominal or ordinal)."""
+    b = _Builder(x.shape[0])
+    k, n_coders = scale.size, x.shape[1]
+    f: dict[str, Formula] = {
+        "percent_agreement": add_percent(b, x),
+        "krippendorff_alpha": add_alpha(b, x, scale),
+    }
+    w_gwet = KA.agreement_weights(k, "gwet-ordinal")
+    weights: dict[str, np.ndarray] = {}
+    if scale.ordinal:
+        weights = {
+            "linear": KA.agreement_weights(k, "linear"),
+            "quadratic": KA.agreement_weights(k, "quadratic"),
+            "gwet": w_gwet,
+        }
+    pairs = coder_pairs(n_coders)
+    counts = value_counts(x, k)
+    m = counts.sum(axis=1)
+
+    # Fleiss (1971) on units coded by every coder.
+    complete = (m == n_coders) & (n_coders >= 2)
+    s_fc = b.add(complete.astype(float))
+    s_fn = b.add(counts * complete[:, None])
+    s_fq = b.add((counts**2).sum(axis=1) * complete)
+    f["fleiss_kappa"] = lambda s: KA.fleiss_from_sums(s[:, s_fc], s[:, s_fn], s[:, s_fq], n_coders)
+
+    if n_coders == 2:
+        p = _add_pair(b, x[:, 0], x[:, 1], k, weights)
+        f["cohen_kappa"] = f["light_kappa"] = _cohen(p)
+
+        def parts(s: np.ndarray, p: _PairSlices = p):
+            p_o, r, c = _pair_parts(s, p)
+            return p_o, r, c, (r + c) / 2.0
+
+        f["scott_pi"] = lambda s: CH.scott_pi(parts(s)[0], parts(s)[3])
+        f["brennan_prediger"] = lambda s: CH.brennan_prediger(parts(s)[0], k)
+        f["gwet_ac1"] = lambda s: CH.gwet_ac(parts(s)[0], parts(s)[3])
+        if k == 2:
+            f["pabak"] = lambda s: CH.pabak(parts(s)[0])
+        if scale.ordinal:
+            for name in ("linear", "quadratic"):
+                w, col = weights[name], p.weighted[name]
+                f[f"weighted_kappa_{name}"] = lambda s, w=w, col=col: KA.weighted_from_margins(
+                    _div(s[:, col], s[:, p.both]), parts(s)[1], parts(s)[2], w
+                )
+            g = p.weighted["gwet"]
+            f["gwet_ac2"] = lambda s: CH.gwet_ac(_div(s[:, g], s[:, p.both]), parts(s)[3], w_gwet)
+        return Plan(b.contributions(), f)
+
+    if n_coders > 2:
+        slices = [_add_pair(b, x[:, i], x[:, j], k, {}) for i, j in pairs]
+        cohens = [_cohen(p) for p in slices]
+        f["light_kappa"] = lambda s: _nanmean_rows(np.stack([g(s) for g in cohens]))
+    pairable = m >= 2
+    denom = np.where(pairable, m * (m - 1.0), 1.0)
+    pa = np.where(pairable, (counts * (counts - 1.0)).sum(axis=1) / denom, 0.0)
+    star = counts @ w_gwet.T
+    pa_w = np.where(pairable, (counts * (star - 1.0)).sum(axis=1) / denom, 0.0)
+    coded = m >= 1
+    pi_u = np.where(coded[:, None], counts / np.where(coded, m, 1.0)[:, None], 0.0)
+    s_pu, s_pa, s_pw = b.add(pairable.astype(float)), b.add(pa), b.add(pa_w)
+    s_cu, s_pi = b.add(coded.astype(float)), b.add(pi_u)
+
+    def p_a(s: np.ndarray) -> np.ndarray:
+        return _div(s[:, s_pa], s[:, s_pu])
+
+    def pi(s: np.ndarray) -> np.ndarray:
+        return _div(s[:, s_pi], s[:, s_cu][:, None])
+
+    f["scott_pi"] = lambda s: CH.scott_pi(p_a(s), pi(s))
+    f["brennan_prediger"] = lambda s: CH.brennan_prediger(p_a(s), k)
+    f["gwet_ac1"] = lambda s: CH.gwet_ac(p_a(s), pi(s))
+    if k == 2:
+        f["pabak"] = lambda s: CH.pabak(p_a(s))
+    if scale.ordinal:
+        f["gwet_ac2"] = lambda s: CH.gwet_ac(_div(s[:, s_pw], s[:, s_pu]), pi(s), w_gwet)
+    return Plan(b.contributions(), f)
+
+
+def value_plan(x: np.ndarray, scale: Scale) -> Plan:
+    """Percent agreement and alpha of a numeric or multi-select variable."""
+    b = _Builder(x.shape[0])
+    f = {"percent_agreement": add_percent(b, x), "krippendorff_alpha": add_alpha(b, x, scale)}
+    return Plan(b.contributions(), f)
+
+
+def build_plan(x: np.ndarray, scale: Scale) -> Plan:
+    """The plan of every coefficient that applies to a variable of this scale."""
+    if scale.kind == "categorical":
+        return categorical_plan(x, scale)
+    return value_plan(x, scale)
+
+
+def alpha_point(x: np.ndarray, scale: Scale) -> float:
+    """Krippendorff's alpha on the full sample (``nan`` when undefined).
+
+    ``x`` is units x coders of value indices into the scale's domain, ``-1`` for no value.
+    """
+    b = _Builder(x.shape[0])
+    formula = add_alpha(b, x, scale)
+    return float(formula(b.contributions().sum(axis=0)[None, :])[0])
