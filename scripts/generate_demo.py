@@ -690,7 +690,7 @@ def write_expected(out: Path, expected: list[dict[str, str]]) -> None:
     )
     writer.writeheader()
     writer.writerows(expected)
-    write_text(out / "messy" / "expected_problems.csv", buffer.getvalue())
+    write_text(out / "messy_expected_problems.csv", buffer.getvalue())
 
 
 def generate(out: Path, seed: int = SEED) -> dict[str, object]:

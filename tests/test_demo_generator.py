@@ -270,7 +270,7 @@ REQUIRED_CODES = {
 
 @pytest.fixture(scope="module")
 def expected():
-    with open(DEMO / "messy" / "expected_problems.csv", encoding="utf-8", newline="") as fh:
+    with open(DEMO / "messy_expected_problems.csv", encoding="utf-8", newline="") as fh:
         return list(csv.DictReader(fh))
 
 

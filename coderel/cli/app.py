@@ -15,3 +15,20 @@ app = typer.Typer(
     pretty_exceptions_enable=False,
     rich_markup_mode=None,
 )
+
+
+def _version(value: bool) -> None:
+    if value:
+        from coderel._version import __version__
+
+        typer.echo(f"coderel {__version__}")
+        raise typer.Exit()
+
+
+@app.callback()
+def _root(
+    version: bool = typer.Option(
+        False, "--version", callback=_version, is_eager=True, help="Print the version and exit."
+    ),
+) -> None:
+    """Reliability of coded narrative data; every command offers --json; all offline."""

@@ -1,0 +1,60 @@
+"""``coderel validate``: check coders' sheets against the codebook."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Annotated
+
+import typer
+
+from coderel.cli.app import app
+from coderel.cli.common import (
+    CodebookOption,
+    DataArgument,
+    JsonOption,
+    emit_json,
+    handle_errors,
+    out_console,
+    problems_table,
+    say,
+)
+from coderel.codebook.load import load_codebook
+from coderel.errors import ExitCode
+from coderel.io.atomic import refuse_overwriting_inputs
+from coderel.io.read import collect_files
+from coderel.io.tables import table_format, write_table
+from coderel.validate import validate
+
+
+@app.command("validate")
+@handle_errors
+def validate_command(
+    data: DataArgument,
+    codebook: CodebookOption,
+    json_out: JsonOption = False,
+    out: Annotated[
+        Path | None, typer.Option("--out", help="Also write the problem list (.csv or .xlsx).")
+    ] = None,
+) -> ExitCode:
+    """Check every coder's sheet against the codebook and list every problem with its cell."""
+    if out is not None:
+        table_format(out)
+        refuse_overwriting_inputs([out], [*collect_files(data), codebook])
+    result = validate(load_codebook(codebook), data)
+    if out is not None:
+        write_table(result.to_frame(), out, sheet="problems")
+    if json_out:
+        emit_json(result.to_dict())
+    else:
+        if result.problems:
+            out_console().print(problems_table(result.problems))
+        s = result.summary()
+        say(
+            f"{len(s['files'])} file(s), {len(s['coders'])} coder(s), {s['units']} unit(s): "
+            f"{s['errors']} error(s), {s['warnings']} warning(s)."
+        )
+        if out is not None:
+            say(f"problem list written to {out}")
+    if result.refused:
+        return ExitCode.INPUT_REFUSED
+    return ExitCode.OK if result.ok else ExitCode.DATA_PROBLEMS
