@@ -21,8 +21,12 @@ rc=$?
 set -e
 if [ "$rc" -ne 1 ]; then echo "expected exit code 1 for the messy sheet, got $rc" >&2; exit 1; fi
 
+step "3. Agreement per variable with 2,000-replicate bootstrap intervals"
+"$CODEREL" agree --codebook "$CB" "$SHEETS" --out "$OUT/agreement.csv"
+
 cat >&2 <<MSG
 
 Demo finished. Outputs in $OUT/:
   messy-problems.csv   every problem of the messy sheet, with file, sheet and cell
+  agreement.csv        coefficients with intervals, one row per variable and coefficient
 MSG
