@@ -144,11 +144,16 @@ class AgreementResult:
         return pd.DataFrame(rows)
 
 
-def _matrix(codings: Codings, var: Variable, coders: list[str]) -> tuple[np.ndarray, Scale]:
+def _matrix(
+    codings: Codings, var: Variable, coders: list[str], u_index: dict[str, int]
+) -> tuple[np.ndarray, Scale]:
+    """Units x coders value indices over ALL project units (-1: no value), and the scale."""
     sub = codings.for_variable(var.name)
-    sub = sub[sub["applies"].map(lambda a: a is not False) & sub["value"].notna()]
-    units = list(dict.fromkeys(sub["unit"]))
-    u_index = {u: i for i, u in enumerate(units)}
+    keep = [
+        a is not False and v is not None and v == v
+        for a, v in zip(sub["applies"], sub["value"], strict=True)
+    ]
+    sub = sub[keep]
     c_index = {c: j for j, c in enumerate(coders)}
     values = list(sub["value"])
     if var.is_categorical and not var.multiple:
@@ -164,9 +169,10 @@ def _matrix(codings: Codings, var: Variable, coders: list[str]) -> tuple[np.ndar
         domain = {v: i for i, v in enumerate(distinct.tolist())}
         values = [float(v) for v in values]
         scale = Scale("numeric", var.level, len(distinct), values=distinct)
-    x = np.full((len(units), len(coders)), -1, dtype=int)
-    for unit, coder, value in zip(sub["unit"], sub["coder"], values, strict=True):
-        x[u_index[unit], c_index[coder]] = domain[value]
+    x = np.full((len(u_index), len(coders)), -1, dtype=int)
+    rows = sub["unit"].map(u_index).to_numpy(dtype=int)
+    cols = sub["coder"].map(c_index).to_numpy(dtype=int)
+    x[rows, cols] = np.fromiter((domain[v] for v in values), dtype=int, count=len(values))
     return x, scale
 
 
@@ -202,17 +208,15 @@ def agreement(
     """
     cb = codings.codebook
     coders = codings.coders
-    mats = [(_matrix(codings, var, coders), var) for var in cb.variables]
+    u_index = {u: i for i, u in enumerate(codings.units)}
+    mats = [(_matrix(codings, var, coders, u_index), var) for var in cb.variables]
     plans = [build_plan(x, scale) for (x, scale), _ in mats]
-    max_units = max((x.shape[0] for (x, _), _ in mats), default=0)
-    weights_all = unit_weights(max_units, replicates, seed)
+    # ONE seeded matrix of unit weights over the project's units, reused for every variable and
+    # coefficient: a unit without values for a variable contributes nothing to its sums.
+    weights = unit_weights(len(u_index), replicates, seed)
+    evaluated_all = evaluate_plans(plans, weights)
     out: list[VariableAgreement] = []
-    for ((x, _scale), var), plan in zip(mats, plans, strict=True):
-        n_u = x.shape[0]
-        # the one seeded weight matrix serves every variable with all units pairable; a variable
-        # with fewer units (skip logic, blanks) gets a matrix of its own from the same seed
-        w = weights_all if n_u == max_units else unit_weights(n_u, replicates, seed)
-        (evaluated,) = evaluate_plans([plan], w)
+    for ((x, _scale), var), evaluated in zip(mats, evaluated_all, strict=True):
         per_unit = (x >= 0).sum(axis=1)
         pairable_units = int((per_unit >= 2).sum())
         pairable_values = int(per_unit[per_unit >= 2].sum())
