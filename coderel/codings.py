@@ -114,12 +114,12 @@ class Codings:
     @property
     def coders(self) -> list[str]:
         """Coder names in order of first appearance."""
-        return list(dict.fromkeys(self.frame["coder"]))
+        return [str(c) for c in pd.unique(self.frame["coder"])]
 
     @property
     def units(self) -> list[str]:
         """Unit IDs in order of first appearance."""
-        return list(dict.fromkeys(self.frame["unit"]))
+        return [str(u) for u in pd.unique(self.frame["unit"])]
 
     def for_variable(self, name: str) -> pd.DataFrame:
         """Rows of one variable."""
