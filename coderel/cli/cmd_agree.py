@@ -14,6 +14,7 @@ from coderel.cli.common import (
     CodebookOption,
     DataArgument,
     JsonOption,
+    check_table_output,
     emit_json,
     handle_errors,
     out_console,
@@ -21,9 +22,8 @@ from coderel.cli.common import (
 )
 from coderel.codebook.load import load_codebook
 from coderel.errors import ExitCode
-from coderel.io.atomic import refuse_overwriting_inputs
-from coderel.io.read import collect_files, read_codings
-from coderel.io.tables import table_format, write_table
+from coderel.io.read import read_codings
+from coderel.io.tables import write_table
 
 SHOWN = ("krippendorff_alpha", "percent_agreement", "fleiss_kappa", "cohen_kappa", "gwet_ac1")
 
@@ -53,9 +53,7 @@ def agree_command(
     """Every agreement coefficient per variable, with seeded bootstrap intervals."""
     if interval_method not in ("bca", "percentile"):
         raise typer.BadParameter("--interval must be bca or percentile")
-    if out is not None:
-        table_format(out)
-        refuse_overwriting_inputs([out], [*collect_files(data), codebook])
+    check_table_output(out, data, codebook)
     codings = read_codings(load_codebook(codebook), data)
     errors = len(codings.problems.errors)
     if errors:

@@ -12,6 +12,7 @@ from coderel.cli.common import (
     CodebookOption,
     DataArgument,
     JsonOption,
+    check_table_output,
     emit_json,
     handle_errors,
     out_console,
@@ -20,9 +21,7 @@ from coderel.cli.common import (
 )
 from coderel.codebook.load import load_codebook
 from coderel.errors import ExitCode
-from coderel.io.atomic import refuse_overwriting_inputs
-from coderel.io.read import collect_files
-from coderel.io.tables import table_format, write_table
+from coderel.io.tables import write_table
 from coderel.validate import validate
 
 
@@ -37,9 +36,7 @@ def validate_command(
     ] = None,
 ) -> ExitCode:
     """Check every coder's sheet against the codebook and list every problem with its cell."""
-    if out is not None:
-        table_format(out)
-        refuse_overwriting_inputs([out], [*collect_files(data), codebook])
+    check_table_output(out, data, codebook)
     result = validate(load_codebook(codebook), data)
     if out is not None:
         write_table(result.to_frame(), out, sheet="problems")

@@ -172,3 +172,15 @@ def handle_errors(func: F) -> F:
         raise typer.Exit(int(code or ExitCode.OK))
 
     return wrapper  # type: ignore[return-value]
+
+
+def check_table_output(out: Path | None, data: list[Path], codebook: Path) -> None:
+    """Before any work: an ``--out`` table needs a known extension and must not be an input."""
+    if out is None:
+        return
+    from coderel.io.atomic import refuse_overwriting_inputs
+    from coderel.io.read import collect_files
+    from coderel.io.tables import table_format
+
+    table_format(out)
+    refuse_overwriting_inputs([out], [*collect_files(data), codebook])

@@ -607,13 +607,7 @@ class _Reader:
                     f"{variable.name} is coded ({_short(given)}) but does not apply here: it "
                     f"applies only when {cond.variable} is {includes}",
                     hint=f"leave {variable.name} blank, or check the code of {cond.variable}",
-                    file=row["file"],
-                    sheet=row["sheet"],
-                    cell=row["cell"],
-                    line=row["_line"],
-                    unit=row["unit"],
-                    coder=row["coder"],
-                    variable=variable.name,
+                    **_row_place(row),
                 )
                 frame.at[frame.index[i], "value"] = None
                 frame.at[frame.index[i], "missing"] = None
@@ -637,13 +631,7 @@ class _Reader:
                     f"{variable.name} is blank, but it applies here ({cond.variable} is one of "
                     f"{', '.join(str(c) for c in cond.includes)})",
                     hint=f"code {variable.name}{missing}",
-                    file=row["file"],
-                    sheet=row["sheet"],
-                    cell=row["cell"],
-                    line=row["_line"],
-                    unit=row["unit"],
-                    coder=row["coder"],
-                    variable=variable.name,
+                    **_row_place(row),
                 )
         return frame
 
@@ -665,6 +653,19 @@ class _Reader:
                     "fewer coders",
                     unit=unit,
                 )
+
+
+def _row_place(row: pd.Series) -> dict[str, Any]:
+    """The place of a long-table row, as problem keyword arguments."""
+    return {
+        "file": row["file"],
+        "sheet": row["sheet"],
+        "cell": row["cell"],
+        "line": row["_line"],
+        "unit": row["unit"],
+        "coder": row["coder"],
+        "variable": row["variable"],
+    }
 
 
 def _short(value: Any) -> str:
