@@ -6,15 +6,17 @@ from pathlib import Path
 from typing import Annotated
 
 import typer
+from rich.markup import escape
 from rich.table import Table
 
-from coderel.agree import agreement
+from coderel.agree import AgreementResult, Estimate, agreement
 from coderel.cli.app import app
 from coderel.cli.common import (
     CodebookOption,
     DataArgument,
     JsonOption,
     check_table_output,
+    delayed_progress,
     emit_json,
     handle_errors,
     out_console,
@@ -23,20 +25,54 @@ from coderel.cli.common import (
 from coderel.codebook.load import load_codebook
 from coderel.errors import ExitCode
 from coderel.io.read import read_codings
-from coderel.io.tables import write_table
+from coderel.io.tables import table_format, write_table
 
 SHOWN = ("krippendorff_alpha", "percent_agreement", "fleiss_kappa", "cohen_kappa", "gwet_ac1")
 
 
-def _fmt(est) -> str:
+def _fmt(est: Estimate | None) -> str:
     if est is None:
         return "-"
     if est.estimate is None:
-        return "undefined"
+        return f"undefined ({est.reason})" if est.reason else "undefined"
     text = f"{est.estimate:.3f}"
     if est.ci:
         text += f" [{est.ci[0]:.3f}, {est.ci[1]:.3f}]"
     return text
+
+
+def _num(value: float | None) -> str:
+    return "-" if value is None else f"{value:.3f}"
+
+
+def _pairs_tables(result: AgreementResult) -> list[Table]:
+    """One coder-by-coder matrix per variable: alpha above the diagonal, percent below."""
+    coders = list(result.coders)
+    tables = []
+    for v in result.variables:
+        if not v.pairs:
+            continue
+        cell = {(p.coder_a, p.coder_b): p for p in v.pairs}
+        table = Table(
+            title=f"{escape(v.variable)}: pairwise alpha (upper right) and percent agreement (lower left)"
+        )
+        table.add_column("coder")
+        for c in coders:
+            table.add_column(c, justify="right")
+        for i, a in enumerate(coders):
+            row = [a]
+            for j, b in enumerate(coders):
+                if i == j:
+                    row.append("")
+                    continue
+                p = cell.get((a, b)) or cell.get((b, a))
+                if p is None:
+                    row.append("-")
+                else:
+                    row.append(_num(p.krippendorff_alpha if j > i else p.percent_agreement))
+            table.add_row(*row)
+        tables.append(table)
+    return tables
 
 
 @app.command("agree")
@@ -44,9 +80,14 @@ def _fmt(est) -> str:
 def agree_command(
     data: DataArgument,
     codebook: CodebookOption,
-    replicates: Annotated[int, typer.Option("--replicates", min=0)] = 2000,
-    seed: Annotated[int, typer.Option("--seed")] = 20261202,
+    replicates: Annotated[
+        int, typer.Option("--replicates", min=0, help="Bootstrap replicates (0: no intervals).")
+    ] = 2000,
+    seed: Annotated[int, typer.Option("--seed", help="Seed of the bootstrap.")] = 20261202,
     interval_method: Annotated[str, typer.Option("--interval", help="bca or percentile")] = "bca",
+    pairs: Annotated[
+        bool, typer.Option("--pairs", help="Add the coder-by-coder agreement per variable.")
+    ] = False,
     json_out: JsonOption = False,
     out: Annotated[Path | None, typer.Option("--out", help="Write the table (.csv/.xlsx).")] = None,
 ) -> ExitCode:
@@ -58,19 +99,31 @@ def agree_command(
     errors = len(codings.problems.errors)
     if errors:
         say(f"{errors} cell(s) with errors were left out; run 'coderel validate' to see them")
-    result = agreement(codings, replicates=replicates, seed=seed, interval_method=interval_method)
+    with delayed_progress("bootstrap") as progress:
+        result = agreement(
+            codings,
+            replicates=replicates,
+            seed=seed,
+            interval_method=interval_method,
+            progress=progress,
+        )
     if out is not None:
-        write_table(result.to_frame(), out, sheet="agreement")
+        extra = {"pairs": result.pairs_frame()} if pairs else None
+        write_table(result.to_frame(), out, sheet="agreement", extra_sheets=extra)
+        if pairs and table_format(out) != "xlsx":
+            pairs_path = out.with_name(f"{out.stem}-pairs{out.suffix}")
+            write_table(result.pairs_frame(), pairs_path, sheet="pairs")
+            say(f"pairs written to {pairs_path}")
         say(f"table written to {out}")
     if json_out:
-        emit_json(result.to_dict())
+        emit_json(result.to_dict(pairs=pairs))
         return ExitCode.OK
     table = Table(title=f"Agreement ({replicates} bootstrap replicates, seed {seed})")
     for col in ("variable", "level", "units", "pairable", *SHOWN, "verdict"):
         table.add_column(col)
     for v in result.variables:
         table.add_row(
-            v.variable,
+            escape(v.variable),
             v.level,
             str(v.units),
             str(v.pairable_values),
@@ -81,6 +134,12 @@ def agree_command(
     console.print(table)
     for v in result.variables:
         for note in v.notes:
-            console.print(f"{v.variable}: {note}")
-    say("Verdicts compare alpha with the codebook's thresholds (convention: Krippendorff 2004).")
+            console.print(escape(f"{v.variable}: {note}"))
+    if pairs:
+        for t in _pairs_tables(result):
+            console.print(t)
+    say(
+        "Verdicts compare alpha with the codebook's thresholds (conventions: Krippendorff 2004). "
+        "Reliability is not validity: agreeing coders can still share a wrong reading."
+    )
     return ExitCode.OK

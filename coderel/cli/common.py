@@ -12,13 +12,16 @@ import json
 import math
 import os
 import sys
+import time
 import traceback
-from collections.abc import Callable
+from collections.abc import Callable, Iterator
+from contextlib import contextmanager
 from pathlib import Path
 from typing import Annotated, Any, TypeVar
 
 import typer
 from rich.console import Console
+from rich.progress import BarColumn, Progress, TaskProgressColumn, TextColumn, TimeElapsedColumn
 from rich.table import Table
 
 from coderel.errors import CodebookError, CoderelError, DataProblems, ExitCode, InputRefused
@@ -184,3 +187,39 @@ def check_table_output(out: Path | None, data: list[Path], codebook: Path) -> No
 
     table_format(out)
     refuse_overwriting_inputs([out], [*collect_files(data), codebook])
+
+
+@contextmanager
+def delayed_progress(
+    description: str, *, after: float = 1.0
+) -> Iterator[Callable[[int, int], None]]:
+    """A ``progress(done, total)`` callback that shows a rich progress bar on stderr once the
+    work has taken longer than ``after`` seconds, and only on an interactive terminal."""
+    start = time.monotonic()
+    state: dict[str, Any] = {}
+    enabled = show_progress()
+
+    def update(done: int, total: int) -> None:
+        if not enabled:
+            return
+        if "bar" not in state:
+            if time.monotonic() - start < after:
+                return
+            bar = Progress(
+                TextColumn("{task.description}"),
+                BarColumn(),
+                TaskProgressColumn(),
+                TimeElapsedColumn(),
+                console=err_console(),
+                transient=True,
+            )
+            bar.start()
+            state["bar"] = bar
+            state["task"] = bar.add_task(description, total=total)
+        state["bar"].update(state["task"], completed=done, total=total)
+
+    try:
+        yield update
+    finally:
+        if "bar" in state:
+            state["bar"].stop()
