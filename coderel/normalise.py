@@ -12,7 +12,9 @@ maps it onto the codebook:
   a plain ``"2"`` in a CSV file is ordinary (CSV has only text) and raises nothing;
 * spaces around a value -> removed, warning ``normalised-space``;
 * a category label typed instead of its code (any letter case) -> the code, ``normalised-label``;
-* ``code = label`` as inserted by a template dropdown -> the code, silently, when both match;
+* ``code = label`` as inserted by a template dropdown -> the code, silently, when both match
+  (also ``'-1 = label``: a dropdown entry whose code starts like a formula is written with a
+  leading quote, see :mod:`coderel.io.safe_text`);
 * a missing code (e.g. ``99``) -> value ``None`` and ``missing = 99``, without a problem: it is a
   legitimate answer and is counted in the validation summary instead;
 * anything else -> value ``None`` and an error (``not-in-codebook`` with a "did you mean" hint,
@@ -33,6 +35,7 @@ from dataclasses import dataclass
 from typing import Any
 
 from coderel.codebook import MULTI_SEPARATOR, Code, Variable
+from coderel.io.safe_text import DANGEROUS_PREFIXES
 
 EXCEL_ERRORS: frozenset[str] = frozenset(
     {"#N/A", "#REF!", "#VALUE!", "#DIV/0!", "#NAME?", "#NULL!", "#NUM!", "#GETTING_DATA"}
@@ -198,7 +201,10 @@ class _Matcher:
                 return code, findings
         left, sep, right = token.partition("=")
         if sep:
-            code, _ = self.match(left.strip(), typed=False)
+            left = left.strip()
+            if left.startswith("'") and left[1:].startswith(DANGEROUS_PREFIXES):
+                left = left[1:]  # our own dropdown entry, neutralised when written (-1 = ...)
+            code, _ = self.match(left, typed=False)
             label = self.variable.label_of(code) if code is not None else None
             if label is not None and label.strip().casefold() == right.strip().casefold():
                 return code, []

@@ -102,14 +102,19 @@ def fill_sheet(ws: Any, frame: pd.DataFrame, *, freeze: str = "A2", width: int =
                 cell.alignment = Alignment(wrap_text=True, vertical="top")
 
 
-def save_workbook(wb: Workbook, path: str | os.PathLike[str]) -> None:
-    """Save a workbook atomically with fixed time stamps, so equal content gives equal bytes."""
+def workbook_bytes(wb: Workbook) -> bytes:
+    """A workbook's xlsx bytes with fixed time stamps, so equal content gives equal bytes."""
     wb.properties.created = FIXED_TIME
     wb.properties.modified = FIXED_TIME
     wb.properties.creator = "coderel"
     buffer = io.BytesIO()
     wb.save(buffer)
-    data = normalise_xlsx(buffer.getvalue())
+    return normalise_xlsx(buffer.getvalue())
+
+
+def save_workbook(wb: Workbook, path: str | os.PathLike[str]) -> None:
+    """Save a workbook atomically with fixed time stamps, so equal content gives equal bytes."""
+    data = workbook_bytes(wb)
     with atomic_path(path) as tmp:
         tmp.write_bytes(data)
 
