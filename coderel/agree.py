@@ -246,66 +246,82 @@ class _Target:
     var: Variable
 
 
-def _present(sub: pd.DataFrame) -> list[bool]:
-    return [
-        a is not False and v is not None and v == v
-        for a, v in zip(sub["applies"], sub["value"], strict=True)
-    ]
+@dataclass(frozen=True)
+class _Index:
+    """Row positions of the long table, factorised once: unit and coder index of every row, the
+    rows of each variable, which rows hold a value that counts, and each row's applicability."""
+
+    unit: np.ndarray
+    coder: np.ndarray
+    rows_of: dict[str, np.ndarray]
+    counts: np.ndarray
+    known: np.ndarray
+    applies: np.ndarray
+    values: np.ndarray
 
 
-def _matrix(
-    codings: Codings, var: Variable, coders: list[str], u_index: dict[str, int]
-) -> tuple[np.ndarray, Scale]:
+def _index(codings: Codings, coders: list[str], units: list[str]) -> _Index:
+    frame = codings.frame
+    unit = pd.Categorical(frame["unit"], categories=units).codes.astype(np.int64)
+    coder = pd.Categorical(frame["coder"], categories=coders).codes.astype(np.int64)
+    var_codes, var_names = pd.factorize(frame["variable"])
+    order = np.argsort(var_codes, kind="stable")
+    bounds = np.searchsorted(var_codes[order], np.arange(len(var_names) + 1))
+    rows_of = {str(name): order[bounds[i] : bounds[i + 1]] for i, name in enumerate(var_names)}
+    applies = frame["applies"].to_numpy(dtype=object)
+    is_true = np.fromiter((a is True for a in applies), dtype=bool, count=len(applies))
+    is_false = np.fromiter((a is False for a in applies), dtype=bool, count=len(applies))
+    values = frame["value"].to_numpy(dtype=object)
+    has_value = ~pd.isna(frame["value"]).to_numpy()
+    return _Index(unit, coder, rows_of, has_value & ~is_false, is_true | is_false, is_true, values)
+
+
+def _matrix(ix: _Index, var: Variable, n_units: int, n_coders: int) -> tuple[np.ndarray, Scale]:
     """Units x coders value indices over ALL project units (-1: no value), and the scale."""
-    sub = codings.for_variable(var.name)
-    sub = sub[_present(sub)]
-    c_index = {c: j for j, c in enumerate(coders)}
-    values = list(sub["value"])
+    rows = ix.rows_of.get(var.name, np.empty(0, dtype=np.int64))
+    rows = rows[ix.counts[rows]]
+    values = list(ix.values[rows])
     if var.is_categorical and not var.multiple:
         domain = {code: i for i, code in enumerate(var.codes)}
         scale = Scale("categorical", var.level, len(domain))
     elif var.multiple:
-        sets = tuple(dict.fromkeys(frozenset(v) for v in values))
-        domain = {s: i for i, s in enumerate(sets)}
         values = [frozenset(v) for v in values]
+        sets = tuple(dict.fromkeys(values))
+        domain = {s: i for i, s in enumerate(sets)}
         scale = Scale("set", "nominal", len(sets), sets=sets)
     else:
-        distinct = np.array(sorted({float(v) for v in values}), dtype=float)
-        domain = {v: i for i, v in enumerate(distinct.tolist())}
         values = [float(v) for v in values]
+        distinct = np.array(sorted(set(values)), dtype=float)
+        domain = {v: i for i, v in enumerate(distinct.tolist())}
         scale = Scale("numeric", var.level, len(distinct), values=distinct)
-    x = np.full((len(u_index), len(coders)), -1, dtype=int)
-    rows = sub["unit"].map(u_index).to_numpy(dtype=int)
-    cols = sub["coder"].map(c_index).to_numpy(dtype=int)
-    x[rows, cols] = np.fromiter((domain[v] for v in values), dtype=int, count=len(values))
+    x = np.full((n_units, n_coders), -1, dtype=int)
+    x[ix.unit[rows], ix.coder[rows]] = np.fromiter(
+        (domain[v] for v in values), dtype=int, count=len(values)
+    )
     return x, scale
 
 
-def _applicability_matrix(
-    codings: Codings, var: Variable, coders: list[str], u_index: dict[str, int]
-) -> np.ndarray:
+def _applicability_matrix(ix: _Index, var: Variable, n_units: int, n_coders: int) -> np.ndarray:
     """Units x coders: 1 applies, 0 does not apply, -1 unknown (condition not coded)."""
-    sub = codings.for_variable(var.name)
-    known = [a is True or a is False for a in sub["applies"]]
-    sub = sub[known]
-    c_index = {c: j for j, c in enumerate(coders)}
-    x = np.full((len(u_index), len(coders)), -1, dtype=int)
-    rows = sub["unit"].map(u_index).to_numpy(dtype=int)
-    cols = sub["coder"].map(c_index).to_numpy(dtype=int)
-    x[rows, cols] = np.fromiter((1 if a else 0 for a in sub["applies"]), dtype=int, count=len(sub))
+    rows = ix.rows_of.get(var.name, np.empty(0, dtype=np.int64))
+    rows = rows[ix.known[rows]]
+    x = np.full((n_units, n_coders), -1, dtype=int)
+    x[ix.unit[rows], ix.coder[rows]] = ix.applies[rows].astype(int)
     return x
 
 
-def _targets(codings: Codings, coders: list[str], u_index: dict[str, int]) -> list[_Target]:
+def _targets(codings: Codings, coders: list[str], units: list[str]) -> list[_Target]:
     cb = codings.codebook
+    ix = _index(codings, coders, units)
+    n_units, n_coders = len(units), len(coders)
     out: list[_Target] = []
     for var in cb.variables:
-        x, scale = _matrix(codings, var, coders, u_index)
+        x, scale = _matrix(ix, var, n_units, n_coders)
         cats = tuple(var.codes) if var.is_categorical and not var.multiple else ()
         th = cb.thresholds_for(var.name)
         out.append(_Target(var.name, var.title, var.level, "variable", x, scale, cats, th, var))
         if var.applies_when is not None:
-            xa = _applicability_matrix(codings, var, coders, u_index)
+            xa = _applicability_matrix(ix, var, n_units, n_coders)
             out.append(
                 _Target(
                     var.name + APPLIES_SUFFIX,
@@ -598,8 +614,8 @@ def agreement(
     """
     cb = codings.codebook
     coders = codings.coders
-    u_index = {u: i for i, u in enumerate(codings.units)}
-    targets = _targets(codings, coders, u_index)
+    units = codings.units
+    targets = _targets(codings, coders, units)
     plans = [build_plan(t.x, t.scale) for t in targets]
     total = 2 * len(plans)
 
@@ -609,7 +625,7 @@ def agreement(
 
     # ONE seeded matrix of unit weights over the project's units, reused for every variable and
     # coefficient: a unit without values for a variable contributes nothing to its sums.
-    weights = unit_weights(len(u_index), replicates, seed)
+    weights = unit_weights(len(units), replicates, seed)
     evaluated_all = evaluate_plans(plans, weights, progress=step)
     rows = []
     for t, evaluated in zip(targets, evaluated_all, strict=True):

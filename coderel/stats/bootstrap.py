@@ -25,12 +25,18 @@ Progress = Callable[[int, int], None]
 
 
 def unit_weights(n_units: int, replicates: int, seed: int) -> np.ndarray:
-    """R x U float matrix: multinomial counts of resampled units (each row sums to U)."""
+    """R x U float matrix: how often each unit is drawn in each replicate (rows sum to U).
+
+    Each replicate draws U units uniformly with replacement (the unit-level bootstrap, Efron &
+    Tibshirani 1993, ch. 6); the counts are multinomial(U, 1/U), obtained by counting the draws.
+    """
     rng = np.random.Generator(np.random.PCG64(seed))
     if n_units == 0 or replicates <= 0:
         return np.zeros((max(replicates, 0), n_units))
-    draws = rng.multinomial(n_units, np.full(n_units, 1.0 / n_units), size=replicates)
-    return draws.astype(float)
+    draws = rng.integers(0, n_units, size=(replicates, n_units))
+    draws += (np.arange(replicates) * n_units)[:, None]
+    counts = np.bincount(draws.ravel(), minlength=replicates * n_units)
+    return counts.reshape(replicates, n_units).astype(float)
 
 
 @dataclass(frozen=True)
