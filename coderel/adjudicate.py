@@ -66,29 +66,55 @@ KEY_SEPARATOR = "|"
 
 
 # ---- tokens and ordering -------------------------------------------------------------------
+def _absent(value: Any) -> bool:
+    """``None``, NaN or ``pd.NA``: a column of the long table may turn ``None`` into NaN."""
+    if value is None or value is pd.NA:
+        return True
+    return isinstance(value, float) and math.isnan(value)
+
+
 def token_of(value: Any, missing: Any, applies: Any) -> Token:
     """Reduce one coder's entry in a cell to a comparable token (see the module docstring)."""
-    if applies is False:
+    if applies is False or (not _absent(applies) and applies is not True and not applies):
         return NA_TOKEN
-    if missing is not None:
+    if not _absent(missing):
         return ("missing", missing)
-    if value is not None:
+    if not _absent(value):
         if isinstance(value, list):
             value = tuple(value)
         return ("value", value)
     return BLANK_TOKEN
 
 
+def _as_code(var: Variable, code: Any, known_codes: Sequence[Any]) -> Any:
+    """A code as the codebook writes it (``999.0`` read from a float column -> ``999``)."""
+    for known in known_codes:
+        if known == code and type(known) is not type(code):
+            return known
+    return code
+
+
 def cell_tokens(codings: Codings) -> dict[tuple[str, str], dict[str, Token]]:
     """Every cell's tokens per coder, for coders who have a row for that unit and variable."""
     f = codings.frame
+    cb = codings.codebook
     cells: dict[tuple[str, str], dict[str, Token]] = {}
     for unit, coder, var, value, missing, applies in zip(
         f["unit"], f["coder"], f["variable"], f["value"], f["missing"], f["applies"], strict=True
     ):
-        if var not in codings.codebook:
+        if var not in cb:
             continue
-        cells.setdefault((unit, var), {})[coder] = token_of(value, missing, applies)
+        token = token_of(value, missing, applies)
+        if token[0] == "missing":
+            token = (
+                "missing",
+                _as_code(cb.variable(var), token[1], cb.variable(var).missing_codes),
+            )
+        elif token[0] == "value" and isinstance(token[1], float):
+            variable = cb.variable(var)
+            if variable.is_categorical:
+                token = ("value", _as_code(variable, token[1], variable.codes))
+        cells.setdefault((unit, var), {})[coder] = token
     return cells
 
 
@@ -152,6 +178,9 @@ class Decision:
     adjudicator: str | None = None
     note: str | None = None
     cell: str | None = None
+    #: the coders' values as shown on the list when the decision was made (coder -> text);
+    #: ``None`` when unknown. A merge uses the decision only while they still hold.
+    values: Mapping[str, str] | None = None
 
     def to_dict(self) -> dict[str, Any]:
         value = list(self.value) if isinstance(self.value, tuple) else self.value
@@ -488,9 +517,14 @@ def build_adjudication(
 
 
 def check_decisions(adjudication: Adjudication, file: str | None = None) -> Problems:
-    """``bad-decision`` problems for decisions on the main list that are not valid."""
+    """``bad-decision`` problems for decisions on the main list that are not valid.
+
+    Cell references follow the layout :func:`write_adjudication` gives the list (header in row 1);
+    ``file`` names the list, and a ``.csv`` file has no sheet.
+    """
     problems = Problems()
     cb = adjudication.codebook
+    sheet = None if file is not None and file.lower().endswith(".csv") else MAIN_SHEET
     headers = main_columns(adjudication.coders, adjudication.text_columns)
     col = _letter(headers.index("decision") + 1)
     for i, row in enumerate(adjudication.rows, start=2):
@@ -501,7 +535,7 @@ def check_decisions(adjudication: Adjudication, file: str | None = None) -> Prob
                 "bad-decision",
                 "a decision for a variable the codebook lacks",
                 file=file,
-                sheet=MAIN_SHEET,
+                sheet=sheet,
                 cell=f"{col}{i}",
                 unit=row.unit,
                 variable=row.variable,
@@ -513,7 +547,7 @@ def check_decisions(adjudication: Adjudication, file: str | None = None) -> Prob
                 "bad-decision",
                 f"the decision is not valid for {row.variable!r}: {reason}",
                 file=file,
-                sheet=MAIN_SHEET,
+                sheet=sheet,
                 cell=f"{col}{i}",
                 unit=row.unit,
                 variable=row.variable,
@@ -691,16 +725,31 @@ def _read_tables(path: Path) -> dict[str, tuple[list[str], list[list[Any]], list
     return out
 
 
+def _coder_columns(header: list[str], known_text: set[str]) -> list[tuple[int, str]]:
+    """(column index, coder name) of every coder column of a list's header."""
+    return [
+        (i, h[: -len(" (coder)")] if h.endswith(" (coder)") else h)
+        for i, h in enumerate(header)
+        if h and h not in FIXED_COLUMNS and h not in known_text
+    ]
+
+
+def _known_text(tables: Mapping[str, Any], codebook: Codebook) -> set[str]:
+    """Text columns of a list: the codebook's, and those named on its ``about`` sheet."""
+    known = set(codebook.text_columns)
+    if ABOUT_SHEET in tables:
+        for row in tables[ABOUT_SHEET][1]:
+            if len(row) >= 2 and row[0] == "text column" and row[1]:
+                known.add(str(row[1]))
+    return known
+
+
 def _rows_from(
     header: list[str], body: list[list[Any]], known_text: set[str]
 ) -> list[AdjudicationRow]:
     if "unit" not in header or "variable" not in header:
         return []
-    coder_cols = [
-        (i, h[: -len(" (coder)")] if h.endswith(" (coder)") else h)
-        for i, h in enumerate(header)
-        if h and h not in FIXED_COLUMNS and h not in known_text
-    ]
+    coder_cols = _coder_columns(header, known_text)
 
     def get(row: list[Any], name: str) -> str | None:
         if name not in header:
@@ -733,11 +782,7 @@ def read_adjudication(path: str | os.PathLike[str], codebook: Codebook) -> Adjud
     """Read an earlier adjudication list (xlsx or csv) with its decisions, as an object."""
     path = Path(path)
     tables = _read_tables(path)
-    known_text = set(codebook.text_columns)
-    if ABOUT_SHEET in tables:
-        for row in tables[ABOUT_SHEET][1]:
-            if len(row) >= 2 and row[0] == "text column" and row[1]:
-                known_text.add(str(row[1]))
+    known_text = _known_text(tables, codebook)
     header, body, _ = tables[MAIN_SHEET]
     rows = _rows_from(header, body, known_text)
     retired: list[AdjudicationRow] = []
@@ -775,6 +820,7 @@ def read_decisions(path: str | os.PathLike[str], codebook: Codebook) -> Decision
         source = SourceFile(str(path), sha256_file(path), path.stat().st_size)
         return Decisions({}, problems, source)
     icol = {name: header.index(name) for name in header if name}
+    coder_cols = _coder_columns(header, _known_text(tables, codebook))
     dcol = _letter(icol["decision"] + 1)
     sheet = MAIN_SHEET if path.suffix.lower() == ".xlsx" else None
 
@@ -826,6 +872,7 @@ def read_decisions(path: str | os.PathLike[str], codebook: Codebook) -> Decision
             adjudicator=_clean(get(row, "adjudicator")),
             note=_clean(get(row, "note")),
             cell=place["cell"],
+            values={c: (_clean(row[i]) or "") for i, c in coder_cols if i < len(row)},
         )
     source = SourceFile(str(path), sha256_file(path), path.stat().st_size)
     return Decisions(decisions, problems, source)
