@@ -1,0 +1,97 @@
+"""``coderel adjudicate``: the list of disagreements to decide, kept across regenerations."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Annotated
+
+import typer
+from rich.table import Table
+
+from coderel.adjudicate import build_adjudication, check_decisions, write_adjudication
+from coderel.cli.app import app
+from coderel.cli.common import (
+    CodebookOption,
+    DataArgument,
+    JsonOption,
+    emit_json,
+    handle_errors,
+    out_console,
+    print_problems,
+    say,
+)
+from coderel.codebook.load import load_codebook
+from coderel.errors import ExitCode, UsageError
+from coderel.io.atomic import refuse_overwriting_inputs
+from coderel.io.read import collect_files, read_codings
+from coderel.problems import Problems
+
+LIST_SUFFIXES = (".xlsx", ".csv")
+
+
+@app.command("adjudicate")
+@handle_errors
+def adjudicate_command(
+    data: DataArgument,
+    codebook: CodebookOption,
+    out: Annotated[
+        Path,
+        typer.Option(
+            "--out",
+            "-o",
+            help="The adjudication list (.xlsx or .csv). When it exists, its decisions are kept.",
+        ),
+    ],
+    json_out: JsonOption = False,
+) -> ExitCode:
+    """Write one row per cell where coders disagree; keep decisions already made in OUT."""
+    if out.suffix.lower() not in LIST_SUFFIXES:
+        raise UsageError(f"cannot write {out.name!r}: the adjudication list is .xlsx or .csv")
+    refuse_overwriting_inputs([out], [*collect_files(data), codebook])
+    codings = read_codings(load_codebook(codebook), data)
+    if codings.problems.refused:
+        print_problems(Problems(codings.problems.refused))
+        say("nothing written: a sheet was refused, so its coder's disagreements would be missing")
+        return ExitCode.INPUT_REFUSED
+    errors = len(codings.problems.errors)
+    if errors:
+        say(
+            f"{errors} cell(s) with errors count as blank here; run 'coderel validate' to see "
+            "them and fix the sheets, then run adjudicate again (decisions are kept)"
+        )
+    previous = out if out.exists() else None
+    adjudication = build_adjudication(codings, previous)
+    write_adjudication(adjudication, out)
+    problems = Problems(p for p in adjudication.problems if p.code != "bad-decision")
+    problems.extend(check_decisions(adjudication, file=out.name))
+    summary = adjudication.summary()
+    decided = int(summary["decided"].sum())
+    if json_out:
+        emit_json(
+            {
+                "output": str(out),
+                "updated": previous is not None,
+                **adjudication.to_dict(),
+                **problems.to_dict(),
+            }
+        )
+    else:
+        table = Table(title=f"Adjudication list {out.name}")
+        for col in summary.columns:
+            table.add_column(str(col))
+        for row in summary.itertuples(index=False):
+            table.add_row(*(str(v) for v in row))
+        out_console().print(table)
+    print_problems(problems)
+    verb = "updated" if previous is not None else "written"
+    say(
+        f"{out} {verb}: {len(adjudication.rows)} disagreement(s) to decide "
+        f"({adjudication.added} new, {adjudication.kept} kept from the earlier list), "
+        f"{decided} decided, {len(adjudication.rows) - decided} open; "
+        f"{adjudication.moved} moved to 'no longer needed' "
+        f"({len(adjudication.retired)} there in all)."
+    )
+    if problems.errors:
+        say("[red]some decisions are not valid codes; fix the cells listed above[/red]")
+        return ExitCode.DATA_PROBLEMS
+    return ExitCode.OK

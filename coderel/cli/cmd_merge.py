@@ -1,0 +1,148 @@
+"""``coderel merge``: the reconciled dataset, with a status per cell and an audit log."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Annotated
+
+import typer
+from rich.table import Table
+
+from coderel.adjudicate import read_decisions
+from coderel.audit import append_audit, audit_path
+from coderel.cli.app import app
+from coderel.cli.common import (
+    CodebookOption,
+    DataArgument,
+    JsonOption,
+    emit_json,
+    err_console,
+    handle_errors,
+    out_console,
+    print_problems,
+    say,
+)
+from coderel.codebook.load import load_codebook
+from coderel.errors import ExitCode, UsageError
+from coderel.io.atomic import refuse_overwriting_inputs
+from coderel.io.read import collect_files, read_codings
+from coderel.io.tables import table_format
+from coderel.merge import RULES, STATUSES, merge, write_merged
+from coderel.problems import Problems
+
+#: At most this many unresolved cells are listed on the terminal (--json lists every one).
+SHOWN_UNRESOLVED = 40
+
+
+@app.command("merge")
+@handle_errors
+def merge_command(
+    data: DataArgument,
+    codebook: CodebookOption,
+    out: Annotated[Path, typer.Option("--out", "-o", help="The dataset: .csv, .xlsx or .parquet.")],
+    decisions: Annotated[
+        Path | None,
+        typer.Option("--decisions", help="An adjudication list with decisions (.xlsx or .csv)."),
+    ] = None,
+    rule: Annotated[
+        str, typer.Option("--rule", help="unanimous (default) or majority.")
+    ] = "unanimous",
+    strict: Annotated[
+        bool,
+        typer.Option("--strict", help="Any unresolved cell is an error: exit 1, nothing written."),
+    ] = False,
+    spread: Annotated[
+        bool, typer.Option("--spread", help="Add a 0/1 column per category of multi-select.")
+    ] = False,
+    json_out: JsonOption = False,
+) -> ExitCode:
+    """One row per unit, a final value and a status per variable; an audit line per merge."""
+    if rule not in RULES:
+        raise UsageError(f"--rule must be one of {', '.join(RULES)}, not {rule!r}")
+    table_format(out)
+    inputs = [*collect_files(data), codebook]
+    if decisions is not None:
+        if not decisions.is_file():
+            raise UsageError(f"no such decisions file: {decisions.name!r}")
+        inputs.append(decisions)
+    refuse_overwriting_inputs([out, audit_path(out)], inputs)
+    cb = load_codebook(codebook)
+    codings = read_codings(cb, data)
+    if codings.problems.refused:
+        print_problems(Problems(codings.problems.refused))
+        say("nothing written: a sheet was refused, so its coder's values would be missing")
+        return ExitCode.INPUT_REFUSED
+    errors = len(codings.problems.errors)
+    if errors:
+        say(
+            f"{errors} cell(s) with errors count as blank; run 'coderel validate' to see them "
+            "(a blank against a value is a disagreement to adjudicate)"
+        )
+    loaded = read_decisions(decisions, cb) if decisions is not None else None
+    result = merge(codings, loaded, rule=rule)  # type: ignore[arg-type]
+    bad = Problems(result.problems.errors)
+    written = False
+    reason = None
+    if bad:
+        reason = "decisions that are not valid codes (listed above)"
+    elif strict and result.unresolved:
+        reason = f"--strict and {len(result.unresolved)} unresolved cell(s)"
+    log = None
+    if reason is None:
+        write_merged(result, out, cb, spread=spread)
+        log = append_audit(result, out, codebook_path=codebook, spread=spread)
+        written = True
+    if json_out:
+        emit_json(
+            {
+                "output": str(out) if written else None,
+                "audit_log": str(log) if log is not None else None,
+                "written": written,
+                "not_written_because": reason,
+                **result.to_dict(),
+            }
+        )
+    else:
+        _print_statuses(result)
+    print_problems(result.problems)
+    _print_unresolved(result.unresolved)
+    totals = result.totals()
+    counts = ", ".join(f"{totals[s]} {s}" for s in STATUSES if totals[s])
+    say(
+        f"{result.units} unit(s) x {len(cb.variables)} variable(s) = {result.cells} cell(s): "
+        f"{counts} (rule: {rule})."
+    )
+    if not written:
+        say(f"[red]nothing written: {reason}[/red]")
+        return ExitCode.DATA_PROBLEMS
+    say(f"dataset written to {out}; audit line appended to {log}")
+    if result.unresolved:
+        say(
+            "unresolved cells are empty in the dataset; decide them with 'coderel adjudicate' "
+            "and merge again with --decisions"
+        )
+    return ExitCode.OK
+
+
+def _print_statuses(result) -> None:
+    table = Table(title=f"Status of every cell (rule: {result.rule})")
+    table.add_column("variable")
+    for s in STATUSES:
+        table.add_column(s, justify="right")
+    for name, counts in result.status_counts.items():
+        table.add_row(name, *(str(counts[s]) for s in STATUSES))
+    out_console().print(table)
+
+
+def _print_unresolved(unresolved: tuple[tuple[str, str], ...]) -> None:
+    if not unresolved:
+        return
+    table = Table(title=f"{len(unresolved)} unresolved cell(s)")
+    table.add_column("unit")
+    table.add_column("variable")
+    for unit, variable in unresolved[:SHOWN_UNRESOLVED]:
+        table.add_row(unit, variable)
+    console = err_console()
+    console.print(table)
+    if len(unresolved) > SHOWN_UNRESOLVED:
+        console.print(f"... and {len(unresolved) - SHOWN_UNRESOLVED} more (--json lists all)")
