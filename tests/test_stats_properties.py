@@ -407,3 +407,97 @@ def test_undefined_cases_give_none_with_a_reason(k, coders, units, level, case):
         elif est is not None:
             assert np.isfinite(est.estimate), name
     assert v.verdict == "undefined"
+
+
+# --------------------------------------------------------------------------------------------
+# more than two coders, with missing values
+# --------------------------------------------------------------------------------------------
+
+
+@FAST
+@given(many_coders(min_coders=3))
+def test_light_kappa_is_mean_of_pairwise_sklearn_kappas(data):
+    # Light (1971): the mean of Cohen's kappa over all coder pairs, each pair on its common units.
+    k, x = data
+    got = build_plan(x, Scale("categorical", "nominal", k)).point("light_kappa")
+    kappas = []
+    for i in range(x.shape[1]):
+        for j in range(i + 1, x.shape[1]):
+            both = (x[:, i] >= 0) & (x[:, j] >= 0)
+            a, b = x[both, i], x[both, j]
+            if both.any() and len(set(a) | set(b)) > 1:
+                kappas.append(cohen_kappa_score(a, b, labels=list(range(k))))
+    if not kappas:
+        assert not _finite(got)
+        return
+    assert got == pytest.approx(float(np.mean(kappas)), abs=TOL)
+
+
+@FAST
+@given(many_coders(min_coders=3), st.sampled_from(["nominal", "ordinal"]))
+def test_multi_coder_family_matches_gwet_formulas_unit_by_unit(data, level):
+    # Gwet (2014), Handbook of Inter-Rater Reliability, 4th ed., ch. 2-3 (memory), with r_ik the
+    # coders giving category k to unit i and r_i their sum:
+    # p_a = mean over units with r_i >= 2 of sum_k r_ik (r*_ik - 1) / (r_i (r_i - 1)),
+    #   r*_ik = sum_l w_kl r_il (identity weights: r*_ik = r_ik);
+    # pi_k = mean over units with r_i >= 1 of r_ik / r_i. Written here as plain loops.
+    k, x = data
+    plan = build_plan(x, Scale("categorical", level, k))
+    w_ord = agreement_weights(k, "gwet-ordinal")
+
+    def p_a(weights: np.ndarray) -> float:
+        terms = []
+        for row in x:
+            r = np.array([(row == c).sum() for c in range(k)], dtype=float)
+            if r.sum() >= 2:
+                star = weights @ r
+                terms.append(float((r * (star - 1)).sum() / (r.sum() * (r.sum() - 1))))
+        return float(np.mean(terms)) if terms else float("nan")
+
+    shares = [
+        np.array([(row == c).sum() for c in range(k)]) / (row >= 0).sum()
+        for row in x
+        if (row >= 0).any()
+    ]
+    pi = np.mean(shares, axis=0)
+
+    def cc(p_obs: float, p_e: float) -> float:
+        ok = np.isfinite(p_obs) and abs(1 - p_e) > 1e-12
+        return (p_obs - p_e) / (1 - p_e) if ok else float("nan")
+
+    pa = p_a(np.eye(k))
+    spread = float((pi * (1 - pi)).sum())
+    expect = {
+        "scott_pi": cc(pa, float((pi**2).sum())),
+        "brennan_prediger": cc(pa, 1.0 / k),
+        "gwet_ac1": cc(pa, spread / (k - 1)),
+    }
+    if level == "ordinal":
+        expect["gwet_ac2"] = cc(p_a(w_ord), w_ord.sum() / (k * (k - 1)) * spread)
+    for name, value in expect.items():
+        got = plan.point(name)
+        if np.isfinite(value):
+            assert got == pytest.approx(value, abs=TOL), name
+        else:
+            assert not np.isfinite(got), name
+
+
+@FAST
+@given(many_coders(min_coders=3))
+def test_percent_agreement_pools_agreeing_pairs(data):
+    # Pairwise percent agreement: agreeing ordered pairs of values within units over all ordered
+    # pairs (units with m values give m (m - 1) pairs), counted here by brute force.
+    k, x = data
+    agree = pairs = 0
+    for row in x:
+        vals = row[row >= 0]
+        for i in range(len(vals)):
+            for j in range(len(vals)):
+                if i != j:
+                    pairs += 1
+                    agree += vals[i] == vals[j]
+    got = build_plan(x, Scale("categorical", "nominal", k)).point("percent_agreement")
+    if pairs == 0:
+        assert not _finite(got)
+    else:
+        assert got == pytest.approx(agree / pairs, abs=TOL)
