@@ -160,6 +160,20 @@ def test_fleiss_1971_kappa_through_engine():
     assert scott == pytest.approx(fleiss, abs=1e-12)
 
 
+def test_fleiss_1971_standard_error_z_and_category_kappas_through_engine():
+    data = np.array(DIAGNOSES).T.tolist()
+    v = agreement(_codings(data, {"diagnosis": "nominal"}, 5), replicates=100, seed=2).variable(
+        "diagnosis"
+    )
+    fleiss = v.coefficients["fleiss_kappa"]
+    assert v.fleiss_units == 30
+    # R irr kappam.fleiss: z 17.65183 with the Fleiss, Nee & Landis (1979) null variance.
+    assert fleiss.z == pytest.approx(17.65183, abs=5e-5)
+    assert fleiss.se == pytest.approx(0.4302445 / 17.65183, rel=1e-6)
+    per_category = [v.category_agreement[code]["fleiss_kappa"] for code in range(1, 6)]
+    assert np.round(per_category, 3).tolist() == [0.245, 0.245, 0.520, 0.471, 0.566]  # (memory)
+
+
 def test_fleiss_1971_per_category_kappas():
     got = fleiss_category_kappas(_diagnosis_counts())
     published = [0.245, 0.245, 0.520, 0.471, 0.566]  # Fleiss (1971), per diagnosis (memory)
@@ -257,6 +271,16 @@ def test_sas_table_through_engine_with_first_category_unused():
     assert round(v.coefficients["weighted_kappa_linear"].estimate, 4) == 0.4701  # SAS printout
     quad = cohens_kappa(np.array(SAS_TABLE), wt="quadratic").kappa
     assert v.coefficients["weighted_kappa_quadratic"].estimate == pytest.approx(quad, abs=1e-12)
+
+
+def test_sas_table_standard_errors_through_engine():
+    a, b = _pairs_from_table(SAS_TABLE)
+    codings = _codings([list(a + 1), list(b + 1)], {"rating": "ordinal"}, 3)
+    c = agreement(codings, replicates=100, seed=3).variable("rating").coefficients
+    assert round(c["cohen_kappa"].se, 4) == 0.1380  # SAS printout, ASE (FCE 1969)
+    assert round(c["weighted_kappa_linear"].se, 4) == 0.1457  # SAS printout, ASE
+    ref = cohens_kappa(np.array(SAS_TABLE), wt="quadratic")
+    assert c["weighted_kappa_quadratic"].se == pytest.approx(ref.std_kappa, abs=1e-12)
 
 
 def test_textbook_table_through_engine():
