@@ -501,3 +501,89 @@ def test_percent_agreement_pools_agreeing_pairs(data):
         assert not _finite(got)
     else:
         assert got == pytest.approx(agree / pairs, abs=TOL)
+
+
+# --------------------------------------------------------------------------------------------
+# multi-select variables through the engine: Jaccard-distance alpha and binary alpha per category
+# --------------------------------------------------------------------------------------------
+
+
+@st.composite
+def code_sets(draw):
+    """Coders x units of code sets over codes 1..4 (None = no value), some sets empty."""
+    n = draw(st.integers(3, 15))
+    c = draw(st.integers(2, 4))
+    seed = draw(st.integers(0, 2**32 - 1))
+    rng = np.random.default_rng(seed)
+    truth = rng.random((n, 4)) < 0.4
+    flips = rng.random((c, n, 4)) < draw(st.sampled_from([0.0, 0.1, 0.3]))
+    chosen = truth[None] ^ flips
+    gone = rng.random((c, n)) < 0.15
+    return [
+        [None if gone[i, u] else tuple(int(k + 1) for k in np.flatnonzero(chosen[i, u]))
+         for u in range(n)]
+        for i in range(c)
+    ]  # fmt: skip
+
+
+def _multi_codings(data) -> Codings:
+    var = Variable(
+        "factors",
+        "nominal",
+        multiple=True,
+        categories=tuple(Category(i, f"f{i}") for i in range(1, 5)),
+    )
+    cb = Codebook(title="multi-select", variables=(var,))
+    records = [
+        {"unit": f"u{u}", "coder": f"c{i}", "variable": "factors", "value": row[u]}
+        for i, row in enumerate(data)
+        for u in range(len(row))
+    ]
+    return Codings.from_records(cb, records)
+
+
+def _jaccard(a: frozenset, b: frozenset) -> float:
+    union = a | b
+    return 1.0 - len(a & b) / len(union) if union else 0.0
+
+
+@SLOW
+@given(code_sets())
+def test_multi_select_alpha_matches_krippendorff_with_jaccard_metric(data):
+    v = agreement(_multi_codings(data), replicates=0, seed=1).variable("factors")
+    got = v.coefficients["krippendorff_alpha"].estimate
+    sets = sorted({frozenset(s) for row in data for s in row if s is not None}, key=sorted)
+    index = {s: i for i, s in enumerate(sets)}
+    rel = np.array(
+        [[np.nan if s is None else index[frozenset(s)] for s in row] for row in data], dtype=float
+    )
+    table = np.array([[_jaccard(a, b) for b in sets] for a in sets])
+
+    def metric(v1, v2, i1, i2, n_v, dtype=np.float64):  # krippendorff's callable-metric protocol
+        return table[i1, i2].astype(dtype)
+
+    pairable = (~np.isnan(rel)).sum(axis=0) >= 2
+    if len(sets) < 2 or len(set(rel[:, pairable][~np.isnan(rel[:, pairable])])) < 2:
+        assert got is None
+        return
+    ref = krippendorff.alpha(
+        reliability_data=rel, level_of_measurement=metric, value_domain=list(range(len(sets)))
+    )
+    assert got == pytest.approx(ref, abs=TOL)
+
+
+@SLOW
+@given(code_sets())
+def test_multi_select_binary_alpha_per_category_matches_krippendorff(data):
+    v = agreement(_multi_codings(data), replicates=0, seed=1).variable("factors")
+    for code in range(1, 5):
+        rel = np.array([[np.nan if s is None else float(code in s) for s in row] for row in data])
+        got = v.category_agreement[code]["binary_alpha"]
+        pairable = (~np.isnan(rel)).sum(axis=0) >= 2
+        if len(set(rel[:, pairable][~np.isnan(rel[:, pairable])])) < 2:
+            assert got is None, code
+            continue
+        ref = krippendorff.alpha(
+            reliability_data=rel, level_of_measurement="nominal", value_domain=[0.0, 1.0]
+        )
+        assert got == pytest.approx(ref, abs=TOL), code
