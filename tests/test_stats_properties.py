@@ -27,7 +27,7 @@ from sklearn.metrics import cohen_kappa_score
 from statsmodels.stats.inter_rater import cohens_kappa, fleiss_kappa
 
 from coderel.agree import agreement
-from coderel.codebook import Category, Codebook, Variable
+from coderel.codebook import Category, Codebook, Condition, Variable
 from coderel.codings import Codings
 from coderel.stats.counts import confusion_table, value_counts
 from coderel.stats.kappa import agreement_weights, cohen_kappa_table
@@ -587,3 +587,53 @@ def test_multi_select_binary_alpha_per_category_matches_krippendorff(data):
             reliability_data=rel, level_of_measurement="nominal", value_domain=[0.0, 1.0]
         )
         assert got == pytest.approx(ref, abs=TOL), code
+
+
+# --------------------------------------------------------------------------------------------
+# skip logic: the variable on the units where it applies, and agreement on applicability itself
+# --------------------------------------------------------------------------------------------
+
+
+@SLOW
+@given(st.integers(4, 25), st.integers(2, 4), st.integers(0, 2**32 - 1))
+def test_applies_when_rows_match_krippendorff(n, c, seed):
+    rng = np.random.default_rng(seed)
+    contact = Variable("contact", "nominal", categories=(Category(1, "yes"), Category(2, "no")))
+    injury = Variable(
+        "injury",
+        "ordinal",
+        categories=(Category(1, "none"), Category(2, "minor"), Category(3, "serious")),
+        applies_when=Condition("contact", (1,)),
+    )
+    cb = Codebook(title="skip logic", variables=(contact, injury))
+    truth = rng.integers(1, 3, n)
+    said = np.where(rng.random((c, n)) < 0.8, truth, 3 - truth).astype(float)
+    said[rng.random((c, n)) < 0.1] = np.nan  # condition not coded: applicability unknown
+    hurt = rng.integers(1, 4, (c, n)).astype(float)
+    records = []
+    for i in range(c):
+        for u in range(n):
+            cv = None if np.isnan(said[i, u]) else int(said[i, u])
+            iv = int(hurt[i, u]) if cv == 1 else None
+            records.append({"unit": f"u{u}", "coder": f"c{i}", "variable": "contact", "value": cv})
+            records.append({"unit": f"u{u}", "coder": f"c{i}", "variable": "injury", "value": iv})
+    result = agreement(Codings.from_records(cb, records), replicates=0, seed=1)
+
+    def ref(rel: np.ndarray, level: str, domain: list[float]) -> float | None:
+        pairable = (~np.isnan(rel)).sum(axis=0) >= 2
+        if len(set(rel[:, pairable][~np.isnan(rel[:, pairable])])) < 2:
+            return None
+        return krippendorff.alpha(rel, level_of_measurement=level, value_domain=domain)
+
+    applies = np.where(np.isnan(said), np.nan, (said == 1).astype(float))
+    expect = ref(applies, "nominal", [0.0, 1.0])
+    got = result.variable("injury [applies]").coefficients["krippendorff_alpha"].estimate
+    assert (got is None) == (expect is None)
+    if expect is not None:
+        assert got == pytest.approx(expect, abs=TOL)
+    # The variable itself: each coder's values only where that coder's own contact is "yes".
+    expect = ref(np.where(said == 1, hurt, np.nan), "ordinal", [1.0, 2.0, 3.0])
+    got = result.variable("injury").coefficients["krippendorff_alpha"].estimate
+    assert (got is None) == (expect is None)
+    if expect is not None:
+        assert got == pytest.approx(expect, abs=TOL)
