@@ -467,7 +467,7 @@ class _Reader:
                 coder,
                 variable,
                 cells[pos],
-                typed=table.typed,
+                typed=table.is_typed(pos),
                 place=self.place(table, row, pos),
             )
         for column, pos in texts.items():
@@ -562,7 +562,7 @@ class _Reader:
                 coder,
                 cb.variable(key_name),
                 cells[3],
-                typed=table.typed,
+                typed=table.is_typed(3),
                 place=value_place,
             )
         for unit, coder, place in order:
@@ -626,10 +626,11 @@ class _Reader:
                     if variable.missing_codes
                     else ""
                 )
+                includes = ", ".join(cb.variable(cond.variable).display(c) for c in cond.includes)
                 self.problems.add(
                     "should-apply",
                     f"{variable.name} is blank, but it applies here ({cond.variable} is one of "
-                    f"{', '.join(str(c) for c in cond.includes)})",
+                    f"{includes})",
                     hint=f"code {variable.name}{missing}",
                     **_row_place(row),
                 )

@@ -52,6 +52,13 @@ class RawTable:
     hidden_columns: frozenset[int] = frozenset()
     merged: tuple[str, ...] = ()
     problems: tuple[Problem, ...] = field(default=())
+    #: Header positions of columns that hold text by the file's own type (a Parquet string
+    #: column): their cells are read like CSV cells, so ``"40"`` there is no "number as text".
+    text_positions: frozenset[int] = frozenset()
+
+    def is_typed(self, position: int) -> bool:
+        """Do the cells at ``position`` keep their own types (see :attr:`typed`)?"""
+        return self.typed and position not in self.text_positions
 
     def cell_ref(self, position: int, row_number: int) -> str:
         """``C14``-style name of the cell at header position ``position`` in row ``row_number``."""
@@ -157,21 +164,36 @@ def _python_value(value: Any) -> Any:
 
 
 def read_parquet(path: Path) -> RawTable:
-    """Read a Parquet file; float columns holding only whole numbers become integers."""
+    """Read a Parquet file; float columns holding only whole numbers become integers.
+
+    A column stored as text is read like CSV text (its numbers are not "stored as text" by
+    mistake: a long table's ``value`` column must be text to hold codes of every variable).
+    """
     import pandas as pd
 
     frame = pd.read_parquet(path)
     header = tuple(_header_text(c) for c in frame.columns)
     columns: list[list[Any]] = []
-    for name in frame.columns:
+    text_positions: set[int] = set()
+    for position, name in enumerate(frame.columns):
         values = [_python_value(v) for v in frame[name].tolist()]
         present = [v for v in values if v is not None]
         if present and all(isinstance(v, float) and v.is_integer() for v in present):
             values = [None if v is None else int(v) for v in values]
+        if present and all(isinstance(v, str) for v in present):
+            text_positions.add(position)
         columns.append(values)
     rows = tuple(
         RawRow(number=i + 2, cells=tuple(col[i] for col in columns)) for i in range(len(frame))
     )
     if not header:
         return _empty(path.name, None, typed=True)
-    return RawTable(path.name, None, header, rows, tuple(range(1, len(header) + 1)), typed=True)
+    return RawTable(
+        path.name,
+        None,
+        header,
+        rows,
+        tuple(range(1, len(header) + 1)),
+        typed=True,
+        text_positions=frozenset(text_positions),
+    )

@@ -43,6 +43,18 @@ class Workbook:
     empty: tuple[str, ...] = ()
 
 
+def _defused(exc: BaseException) -> bool:
+    """Did defusedxml stop this error (somewhere in its chain of causes)?"""
+    seen: BaseException | None = exc
+    for _ in range(10):
+        if seen is None:
+            return False
+        if type(seen).__module__.startswith("defusedxml"):
+            return True
+        seen = seen.__cause__ or seen.__context__
+    return False
+
+
 def _load(path: Path, *, data_only: bool) -> Any:
     with warnings.catch_warnings():
         # openpyxl warns about features it drops (data validation extensions, styles); they do
@@ -131,6 +143,11 @@ def read_workbook(path: Path, limits: Limits = DEFAULT_LIMITS) -> Workbook:
     except InputRefused:
         raise
     except Exception as exc:  # openpyxl raises many types on damaged parts
+        if _defused(exc):
+            raise InputRefused(
+                f"{path.name} holds XML with entity or DTD declarations, which a spreadsheet "
+                "program does not write (a possible attack); refused"
+            ) from None
         raise InputRefused(
             f"{path.name} cannot be read as a workbook ({type(exc).__name__}); open and re-save "
             "it in your spreadsheet program"
