@@ -9,14 +9,23 @@ from __future__ import annotations
 
 import io
 import re
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
+from html import escape
 
 import numpy as np
 from matplotlib import rc_context
 from matplotlib.colors import LinearSegmentedColormap
 from matplotlib.figure import Figure
 
-from coderel.report.model import STATUSES, Adjudication, CategoryPanel, VariableRow
+from coderel.report.methods_text import alpha_phrase, fmt_coef
+from coderel.report.model import (
+    STATUSES,
+    Adjudication,
+    CategoryPanel,
+    ReportContent,
+    VariableRow,
+    _slug,
+)
 
 #: A calm palette of our own.
 INK = "#26313b"
@@ -58,22 +67,35 @@ def _text(value: str, limit: int = 42) -> str:
     return value.replace("$", r"\$")
 
 
-def _slug(text: str) -> str:
-    return "".join(ch if ch.isalnum() or ch in "-_" else "-" for ch in str(text)) or "x"
+#: matplotlib's own group ids (``figure_1``, ``xtick_3``, ``line2d_7``): they would repeat across
+#: charts placed in one HTML page, so they are dropped; only our ids and the defs' hashed ids stay.
+_AUTO_ID = re.compile(r'\sid="[A-Za-z][\w.]*_\d+"')
 
 
-def _to_svg(fig: Figure, chart_id: str) -> str:
+def _to_svg(fig: Figure, chart_id: str, titles: Mapping[str, str] | None = None) -> str:
+    """The figure as one ``<svg>`` element (no XML prolog, no metadata, no date).
+
+    ``titles`` maps an element id to a tooltip, added as the group's SVG ``<title>`` (escaped).
+    The element keeps matplotlib's ``width``/``height`` in points, so a standalone file has its
+    size; the HTML renderer replaces them with a CSS width.
+    """
     buf = io.StringIO()
     with rc_context({**_RC, "svg.hashsalt": chart_id}):
         fig.savefig(buf, format="svg", metadata={"Date": None}, bbox_inches="tight")
     svg = buf.getvalue()
     svg = svg[svg.index("<svg") :]
     svg = re.sub(r"<metadata>.*?</metadata>", "", svg, flags=re.S)
+    svg = _AUTO_ID.sub("", svg)
+    for gid, title in (titles or {}).items():
+        svg = svg.replace(f'<g id="{gid}">', f'<g id="{gid}"><title>{escape(title)}</title>', 1)
     head_end = svg.index(">")
-    head = svg[:head_end]
-    head = re.sub(r'\s(width|height)="[^"]*"', "", head)
-    head += f' id="{chart_id}" role="img" class="chart-svg"'
+    head = svg[:head_end] + f' id="{chart_id}" role="img" class="chart-svg"'
     return head + svg[head_end:].strip() + "\n"
+
+
+def standalone_svg(svg: str) -> str:
+    """An inline chart as a file of its own (XML prolog added)."""
+    return '<?xml version="1.0" encoding="utf-8" standalone="no"?>\n' + svg
 
 
 def _figure(width: float, height: float) -> Figure:
@@ -94,13 +116,15 @@ def interval_chart(
         fig = _figure(7.5, 0.9 + 0.34 * n)
         ax = fig.add_subplot()
         lows = [0.0]
+        titles: dict[str, str] = {}
         for i, row in enumerate(rows):
             y = n - 1 - i
             a = row.alpha
             colour = VERDICT_COLOURS.get(row.verdict, MUTED)
             if a is None or a.estimate is None:
                 t = ax.text(0.0, y, "  undefined", va="center", color=MUTED, fontsize=8)
-                t.set_gid(f"alpha-{row.row_id}")
+                t.set_gid(row.chart_id)
+                titles[row.chart_id] = f"{row.variable}: alpha undefined"
                 continue
             lows.append(a.estimate)
             if a.ci_low is not None and a.ci_high is not None:
@@ -108,31 +132,31 @@ def interval_chart(
                 (line,) = ax.plot(
                     [a.ci_low, a.ci_high], [y, y], color=colour, linewidth=2.2, alpha=0.55
                 )
-                line.set_gid(f"ci-{row.row_id}")
+                line.set_gid(f"ci-{row.slug}")
             (dot,) = ax.plot([a.estimate], [y], "o", color=colour, markersize=6)
-            dot.set_gid(f"alpha-{row.row_id}")
+            dot.set_gid(row.chart_id)
+            phrase = alpha_phrase(a.estimate, a.ci_low, a.ci_high, 95).replace(", 95% CI", "")
+            titles[row.chart_id] = f"{row.variable}: {phrase} ({row.verdict})"
         xmin = max(-1.0, min(-0.05, float(np.floor(min(lows) * 10) / 10)))
         ax.set_xlim(xmin, 1.02)
         ax.set_ylim(-0.7, n - 0.3 + 0.6)
-        for value, style, name in (
-            (tentative, (0, (4, 3)), f"{tentative:.3f}".lstrip("0") + " tentative"),
-            (reliable, "-", f"{reliable:.3f}".lstrip("0") + " reliable"),
+        for value, style, name, side in (
+            (tentative, (0, (4, 3)), f"{fmt_coef(tentative, 3)} tentative ", "right"),
+            (reliable, "-", f" {fmt_coef(reliable, 3)} reliable", "left"),
         ):
             ax.axvline(value, color=MUTED, linestyle=style, linewidth=1)
             ax.text(
                 value,
-                n - 0.3 + 0.5,
+                1.005,
                 name,
-                ha="center",
-                va="top",
+                ha=side,
+                va="bottom",
                 fontsize=7.5,
                 color=MUTED,
-                bbox={"facecolor": "white", "edgecolor": "none", "pad": 1},
+                transform=ax.get_xaxis_transform(),
             )
         ax.axvline(0, color=GRID, linewidth=1)
-        labels = [
-            _text(r.variable if r.kind == "variable" else f"{r.variable} ({r.kind})") for r in rows
-        ]
+        labels = [_text(r.variable) for r in rows]
         ax.set_yticks(range(n - 1, n - 1 - len(rows), -1), labels)
         ax.set_xlabel(
             "Krippendorff's alpha with bootstrap interval; lines at conventions of the field "
@@ -142,11 +166,20 @@ def interval_chart(
         ax.set_axisbelow(True)
         for side in ("top", "right"):
             ax.spines[side].set_visible(False)
-        return _to_svg(fig, "chart-intervals")
+        return _to_svg(fig, "chart-intervals", titles)
+
+
+def _code_label(code: str, label: str) -> str:
+    """``1 Black bear`` for numeric codes; the label alone for text codes (``Daytime``)."""
+    if label == code:
+        return code
+    return f"{code} {label}" if code.lstrip("-").isdigit() else label
 
 
 def confusion_chart(panel: CategoryPanel) -> str:
     """Heat map of one variable's coder-by-coder table (counts in the cells)."""
+    if panel.matrix is None:
+        raise ValueError(f"{panel.variable} has no confusion table")
     matrix = np.asarray(panel.matrix, dtype=float)
     k = len(panel.codes)
     size = min(6.0, 1.6 + 0.45 * k)
@@ -161,8 +194,7 @@ def confusion_chart(panel: CategoryPanel) -> str:
                 colour = "white" if top and value > 0.6 * top else INK
                 ax.text(j, i, str(value), ha="center", va="center", color=colour, fontsize=8)
         labels = [
-            _text(f"{c} {lab}" if lab != c else c, 18)
-            for c, lab in zip(panel.codes, panel.labels, strict=True)
+            _text(_code_label(c, lab), 18) for c, lab in zip(panel.codes, panel.labels, strict=True)
         ]
         ax.set_xticks(range(k), labels, rotation=40, ha="right")
         ax.set_yticks(range(k), labels)
@@ -171,7 +203,7 @@ def confusion_chart(panel: CategoryPanel) -> str:
         ax.tick_params(length=0)
         for spine in ax.spines.values():
             spine.set_visible(False)
-        return _to_svg(fig, f"chart-{panel.panel_id}")
+        return _to_svg(fig, panel.heatmap_id)
 
 
 def adjudication_chart(adjudication: Adjudication) -> str:
@@ -195,7 +227,8 @@ def adjudication_chart(adjudication: Adjudication) -> str:
                 label=status.replace("_", " "),
                 height=0.6,
             )
-            bars.set_gid(f"status-{status}")
+            for patch, (name, _) in zip(bars.patches, rows, strict=True):
+                patch.set_gid(f"status-{status}-{_slug(name)}")
             left += widths
         ax.set_yticks(ys, [_text(name) for name, _ in rows])
         ax.set_xlabel("cells of the final dataset (units)")
@@ -203,3 +236,16 @@ def adjudication_chart(adjudication: Adjudication) -> str:
         for side in ("top", "right"):
             ax.spines[side].set_visible(False)
         return _to_svg(fig, "chart-adjudication")
+
+
+def report_charts(content: ReportContent) -> dict[str, str]:
+    """Every chart of a report as SVG text, by chart id (drawn once, used by HTML and Markdown)."""
+    main = [r for r in content.table if r.kind == "variable"] or list(content.table)
+    thresholds = {"reliable": main[0].reliable, "tentative": main[0].tentative} if main else {}
+    out = {"chart-intervals": interval_chart(content.table, **thresholds)}
+    for panel in content.categories:
+        if panel.matrix is not None:
+            out[panel.heatmap_id] = confusion_chart(panel)
+    if content.adjudication is not None and content.adjudication.by_variable:
+        out["chart-adjudication"] = adjudication_chart(content.adjudication)
+    return out

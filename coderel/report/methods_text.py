@@ -62,6 +62,9 @@ REFERENCES: dict[str, str] = {
         "of high agreement. British Journal of Mathematical and Statistical Psychology, 61(1), "
         "29-48."
     ),
+    "gwet2014": (
+        "Gwet, K. L. (2014). Handbook of inter-rater reliability (4th ed.). Advanced Analytics."
+    ),
     "byrt1993": (
         "Byrt, T., Bishop, J., & Carlin, J. B. (1993). Bias, prevalence and kappa. Journal of "
         "Clinical Epidemiology, 46(5), 423-429."
@@ -91,6 +94,7 @@ _CITED: dict[str, tuple[str, str, tuple[str, ...]]] = {
         ("brennan1981",),
     ),
     "gwet_ac1": ("Gwet's AC1", "Gwet, 2008", ("gwet2008",)),
+    "gwet_ac2": ("Gwet's AC2 with ordinal weights", "Gwet, 2014", ("gwet2014",)),
     "pabak": ("prevalence- and bias-adjusted kappa (PABAK)", "Byrt et al., 1993", ("byrt1993",)),
 }
 

@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import datetime as dt
 import math
+import re
 from collections.abc import Mapping, Sequence
 from dataclasses import asdict, dataclass, field
 from typing import Any
@@ -19,7 +20,7 @@ import numpy as np
 import pandas as pd
 
 from coderel._version import __version__
-from coderel.codebook.model import Codebook
+from coderel.codebook.model import MULTI_SEPARATOR, Codebook
 from coderel.codings import Codings
 from coderel.report.methods_text import MethodsText, methods_text
 
@@ -35,6 +36,7 @@ COEFFICIENTS: dict[str, str] = {
     "scott_pi": "Scott's π",
     "brennan_prediger": "Brennan-Prediger κ",
     "gwet_ac1": "Gwet's AC1",
+    "gwet_ac2": "Gwet's AC2",
     "pabak": "PABAK",
 }
 VERDICTS: tuple[str, ...] = ("reliable", "tentative", "unreliable", "undefined")
@@ -70,6 +72,7 @@ class Coefficient:
     ci_low: float | None
     ci_high: float | None
     reason: str | None = None
+    se: float | None = None
 
 
 @dataclass(frozen=True, slots=True)
@@ -89,9 +92,19 @@ class VariableRow:
     tentative: float
 
     @property
+    def slug(self) -> str:
+        """Stable id part of this row: ``species``, ``species-applies`` (HTML ids, file names)."""
+        return _slug(self.variable)
+
+    @property
     def row_id(self) -> str:
-        suffix = "" if self.kind == "variable" else f"--{self.kind}"
-        return f"var-{_slug(self.variable)}{suffix}"
+        """Id of the row in the agreement table (``row-species``)."""
+        return f"row-{self.slug}"
+
+    @property
+    def chart_id(self) -> str:
+        """Id of the row's mark in the interval chart (``chart-species``)."""
+        return f"chart-{self.slug}"
 
     def coefficient(self, key: str) -> Coefficient | None:
         for c in self.coefficients:
@@ -112,16 +125,23 @@ class CategoryPanel:
     label: str
     codes: tuple[str, ...]
     labels: tuple[str, ...]
-    matrix: tuple[tuple[int, ...], ...]
+    matrix: tuple[tuple[int, ...], ...] | None
     matrix_caption: str
     row_title: str
     column_title: str
     category_columns: tuple[str, ...]
     category_rows: tuple[tuple[Any, ...], ...]
+    multiple: bool = False
 
     @property
     def panel_id(self) -> str:
+        """Id of the variable's block in the categories section (``cat-species``)."""
         return f"cat-{_slug(self.variable)}"
+
+    @property
+    def heatmap_id(self) -> str:
+        """Id of the variable's heat map (``heatmap-species``)."""
+        return f"heatmap-{_slug(self.variable)}"
 
 
 @dataclass(frozen=True, slots=True)
@@ -206,6 +226,7 @@ class Reproducibility:
     generated_utc: str
     command: str
     decisions_file: SourceRow | None = None
+    codebook_file: SourceRow | None = None
 
 
 @dataclass(frozen=True)
@@ -264,7 +285,9 @@ class ReportContent:
 
 
 def _slug(text: str) -> str:
-    out = "".join(ch if ch.isalnum() or ch in "-_" else "-" for ch in str(text))
+    """``'species [applies]' -> 'species-applies'``: letters, digits, ``_`` and single ``-``."""
+    out = "".join(ch if ch.isascii() and (ch.isalnum() or ch == "_") else "-" for ch in str(text))
+    out = re.sub(r"-+", "-", out).strip("-")
     return out or "x"
 
 
@@ -288,6 +311,7 @@ def _coefficients(va: Any) -> tuple[Coefficient, ...]:
                 ci_low=_num(ci[0]),
                 ci_high=_num(ci[1]),
                 reason=getattr(est, "reason", None),
+                se=_num(getattr(est, "se", None)),
             )
         )
     return tuple(out)
@@ -325,29 +349,44 @@ def _code_label(codebook: Codebook, variable: str, code: Any) -> str:
 
 
 def _category_panels(result: Any, codebook: Codebook) -> tuple[CategoryPanel, ...]:
+    """Per categorical variable: the summed coder-by-coder table and per-category agreement.
+
+    Single-choice variables get the confusion table (summed over coder pairs) and the engine's
+    per-category Fleiss kappa and specific agreement; multi-select variables get the engine's
+    per-category binary alpha only (a code set has no single confusion table).
+    """
     panels = []
     for va in result.variables:
-        if getattr(va, "kind", "variable") != "variable" or va.level not in ("nominal", "ordinal"):
+        name = str(va.variable)
+        if getattr(va, "kind", "variable") != "variable" or name not in codebook:
             continue
-        confusion: Mapping[tuple[str, str], Any] = getattr(va, "confusion", {}) or {}
-        cats = tuple(getattr(va, "categories", ()) or ())
-        if not confusion or not cats:
+        var = codebook.variable(name)
+        if not var.is_categorical:
             continue
-        pairs = list(confusion)
-        total = np.zeros((len(cats), len(cats)), dtype=np.int64)
-        for pair in pairs:
-            total += np.asarray(confusion[pair], dtype=np.int64)
-        if len(pairs) == 1:
-            a, b = pairs[0]
-            caption = f"Units coded by {a} (rows) and {b} (columns)."
-            row_title, col_title = str(a), str(b)
-        else:
-            caption = (
-                f"Summed over all {len(pairs)} pairs of coders: each unit counts once per pair; "
-                "rows are the first coder of each pair, columns the second."
-            )
-            row_title, col_title = "first coder of a pair", "second coder of a pair"
         per_cat: Mapping[Any, Mapping[str, Any]] = getattr(va, "category_agreement", {}) or {}
+        confusion: Mapping[tuple[str, str], Any] = getattr(va, "confusion", {}) or {}
+        cats = tuple(getattr(va, "categories", ()) or ()) or tuple(var.codes)
+        if not per_cat and not confusion:
+            continue
+        matrix = None
+        caption, row_title, col_title = "", "", ""
+        if confusion and not var.multiple:
+            pairs = list(confusion)
+            total = np.zeros((len(cats), len(cats)), dtype=np.int64)
+            for pair in pairs:
+                total += np.asarray(confusion[pair], dtype=np.int64)
+            matrix = tuple(tuple(int(x) for x in row) for row in total)
+            if len(pairs) == 1:
+                a, b = pairs[0]
+                caption = f"Units coded by {a} (rows) and {b} (columns)."
+                row_title, col_title = str(a), str(b)
+            else:
+                caption = (
+                    f"Summed over all {len(pairs)} pairs of coders: each unit counts once per "
+                    "pair; rows are the first coder of each pair, columns the second. Counts off "
+                    "the diagonal are disagreements."
+                )
+                row_title, col_title = "first coder of a pair", "second coder of a pair"
         columns: list[str] = []
         for stats in per_cat.values():
             for key in stats:
@@ -355,21 +394,22 @@ def _category_panels(result: Any, codebook: Codebook) -> tuple[CategoryPanel, ..
                     columns.append(str(key))
         cat_rows = []
         for code in cats:
-            stats = per_cat.get(code, {})
+            stats = per_cat.get(code, per_cat.get(str(code), {}))
             values = tuple(_plain(stats.get(c)) for c in columns)
-            cat_rows.append((str(code), _code_label(codebook, va.variable, code), *values))
+            cat_rows.append((str(code), _code_label(codebook, name, code), *values))
         panels.append(
             CategoryPanel(
-                variable=str(va.variable),
-                label=str(getattr(va, "label", None) or va.variable),
+                variable=name,
+                label=str(getattr(va, "label", None) or var.title),
                 codes=tuple(str(c) for c in cats),
-                labels=tuple(_code_label(codebook, va.variable, c) for c in cats),
-                matrix=tuple(tuple(int(x) for x in row) for row in total),
+                labels=tuple(_code_label(codebook, name, c) for c in cats),
+                matrix=matrix,
                 matrix_caption=caption,
                 row_title=row_title,
                 column_title=col_title,
                 category_columns=("code", "label", *columns),
                 category_rows=tuple(cat_rows),
+                multiple=bool(var.multiple),
             )
         )
     return tuple(panels)
@@ -468,9 +508,9 @@ def _coder_final(codings: Codings, merged: Any, coders: Sequence[str]) -> tuple[
                 if mine is None or unit not in final.index or status.get(unit) not in SETTLED:
                     continue
                 theirs = values.get(unit)
-                if theirs is None or (isinstance(theirs, float) and math.isnan(theirs)):
+                if _missing(theirs):
                     continue
-                pairs.append((mine, theirs))
+                pairs.append((_canon(mine), _canon(theirs)))
             if not pairs:
                 continue
             same = sum(1 for a, b in pairs if _same(a, b))
@@ -478,12 +518,12 @@ def _coder_final(codings: Codings, merged: Any, coders: Sequence[str]) -> tuple[
             total_n += len(pairs)
             kap = None
             if var.is_categorical and not var.multiple and var.codes:
-                pos = {c: i for i, c in enumerate(var.codes)}
+                pos = {_canon(c): i for i, c in enumerate(var.codes)}
                 table = np.zeros((len(pos), len(pos)), dtype=np.int64)
                 for a, b in pairs:
                     if a in pos and b in pos:
                         table[pos[a], pos[b]] += 1
-                kap = _num(_estimate_of(cohen_kappa_table(table)))
+                kap = _num(cohen_kappa_table(table)[0])
                 if kap is not None:
                     kappas.append(kap)
             per_var.append((var.name, len(pairs), same / len(pairs), kap))
@@ -500,16 +540,28 @@ def _coder_final(codings: Codings, merged: Any, coders: Sequence[str]) -> tuple[
     return tuple(out)
 
 
-def _same(a: Any, b: Any) -> bool:
-    if isinstance(a, float | int) and isinstance(b, float | int):
-        return math.isclose(float(a), float(b))
-    if isinstance(a, tuple | list) or isinstance(b, tuple | list):
-        return (
-            tuple(a) == tuple(b)
-            if isinstance(a, tuple | list) and isinstance(b, tuple | list)
-            else False
-        )
-    return a == b or str(a) == str(b)
+def _missing(value: Any) -> bool:
+    if value is None:
+        return True
+    try:
+        return bool(pd.isna(value))
+    except (TypeError, ValueError):
+        return False
+
+
+def _canon(value: Any) -> str:
+    """One text form for a coder's value and the merged value (``(1, 3)`` and ``'1;3'``)."""
+    if isinstance(value, np.generic):
+        value = value.item()
+    if isinstance(value, tuple | list | frozenset):
+        return MULTI_SEPARATOR.join(str(v) for v in value)
+    if isinstance(value, float | int) and not isinstance(value, bool):
+        return format(float(value), ".10g")
+    return str(value)
+
+
+def _same(a: str, b: str) -> bool:
+    return a == b
 
 
 def _adjudication(merged: Any, codebook: Codebook) -> Adjudication:
@@ -577,6 +629,7 @@ def build_report(
     *,
     command: str = "",
     decisions_source: Any | None = None,
+    codebook_source: Any | None = None,
     generated: dt.datetime | None = None,
 ) -> ReportContent:
     """Assemble the report's content from an agreement result (and a merge result).
@@ -594,6 +647,8 @@ def build_report(
         The command line, for the reproducibility block.
     decisions_source
         The decisions file as a :class:`coderel.codings.SourceFile` (name and SHA-256).
+    codebook_source
+        The codebook file as a :class:`coderel.codings.SourceFile`.
     generated
         Time stamp of the report (UTC); now by default.
 
@@ -630,6 +685,7 @@ def build_report(
         generated_utc=when.strftime("%Y-%m-%d %H:%M:%S UTC"),
         command=command,
         decisions_file=_source_row(decisions_source) if decisions_source is not None else None,
+        codebook_file=_source_row(codebook_source) if codebook_source is not None else None,
     )
     methods = methods_text(summary=summary, table=table, repro=repro)
     return ReportContent(

@@ -1,0 +1,184 @@
+"""``coderel report``: the reliability report as HTML, Markdown or xlsx (a thin layer)."""
+
+from __future__ import annotations
+
+import datetime as dt
+import os
+from collections.abc import Callable, Iterator
+from contextlib import contextmanager
+from pathlib import Path
+from typing import Annotated
+
+import typer
+
+from coderel.cli.app import app
+from coderel.cli.common import (
+    CodebookOption,
+    DataArgument,
+    JsonOption,
+    emit_json,
+    err_console,
+    handle_errors,
+    say,
+    show_progress,
+)
+from coderel.errors import ExitCode, UsageError
+
+DateOption = Annotated[
+    str | None,
+    typer.Option(
+        "--date",
+        help="Date shown in the reproducibility block (YYYY-MM-DD or ISO date-time, UTC); "
+        "default: SOURCE_DATE_EPOCH when set, else now.",
+    ),
+]
+
+
+def report_time(date: str | None, environ: dict[str, str] | None = None) -> dt.datetime:
+    """The report's time stamp: ``--date``, else ``SOURCE_DATE_EPOCH``, else now (UTC)."""
+    env = os.environ if environ is None else environ
+    if date:
+        try:
+            when = dt.datetime.fromisoformat(date)
+        except ValueError:
+            raise UsageError(f"--date {date!r} is not a date like 2026-12-02") from None
+        return when.replace(tzinfo=dt.UTC) if when.tzinfo is None else when.astimezone(dt.UTC)
+    epoch = env.get("SOURCE_DATE_EPOCH", "").strip()
+    if epoch:
+        try:
+            return dt.datetime.fromtimestamp(int(epoch), dt.UTC)
+        except (ValueError, OverflowError, OSError):
+            raise UsageError(
+                "SOURCE_DATE_EPOCH must be whole seconds since 1970-01-01 UTC"
+            ) from None
+    return dt.datetime.now(dt.UTC)
+
+
+@contextmanager
+def _progress(total: int) -> Iterator[Callable[[int, int], None] | None]:
+    """A progress bar on stderr over the variables, only on a terminal."""
+    if not show_progress():
+        yield None
+        return
+    from rich.progress import Progress
+
+    with Progress(console=err_console(), transient=True) as bar:
+        task = bar.add_task("agreement per variable", total=total)
+
+        def step(done: int, of: int) -> None:
+            bar.update(task, completed=done, total=of)
+
+        yield step
+
+
+def _command_line(
+    codebook: Path, data: list[Path], decisions: Path | None, options: list[str]
+) -> str:
+    parts = ["coderel report", "--codebook", str(codebook), *map(str, data)]
+    if decisions is not None:
+        parts += ["--decisions", str(decisions)]
+    return " ".join([*parts, *options])
+
+
+@app.command("report")
+@handle_errors
+def report_command(
+    data: DataArgument,
+    codebook: CodebookOption,
+    out: Annotated[
+        Path | None,
+        typer.Option(
+            "--out", "-o", help="Report file: .html, .md or .xlsx (the extension names the form)."
+        ),
+    ] = None,
+    formats: Annotated[
+        str | None,
+        typer.Option(
+            "--format",
+            help="Several forms at once, comma-separated (html,md,xlsx), written beside --out "
+            "with its stem.",
+        ),
+    ] = None,
+    decisions: Annotated[
+        Path | None,
+        typer.Option("--decisions", help="Adjudication list with decisions (.xlsx or .csv)."),
+    ] = None,
+    rule: Annotated[
+        str, typer.Option("--rule", help="How cells are settled: unanimous or majority.")
+    ] = "unanimous",
+    replicates: Annotated[int, typer.Option("--replicates", min=0)] = 2000,
+    seed: Annotated[int, typer.Option("--seed", help="Seed of the bootstrap.")] = 20261202,
+    interval_method: Annotated[str, typer.Option("--interval", help="bca or percentile")] = "bca",
+    date: DateOption = None,
+    json_out: JsonOption = False,
+) -> ExitCode:
+    """The reliability report: summary, agreement table, charts, coders, methods paragraph."""
+    from coderel.agree import agreement
+    from coderel.codebook.load import load_codebook
+    from coderel.codings import SourceFile
+    from coderel.io.atomic import refuse_overwriting_inputs, sha256_file
+    from coderel.io.read import collect_files, read_codings
+    from coderel.report import build_report, report_paths, write_report
+
+    if interval_method not in ("bca", "percentile"):
+        raise UsageError("--interval must be bca or percentile")
+    if rule not in ("unanimous", "majority"):
+        raise UsageError("--rule must be unanimous or majority")
+    if out is None and not json_out:
+        raise UsageError("name the report file with -o report.html (or .md, .xlsx), or use --json")
+    forms = [f.strip() for f in formats.split(",") if f.strip()] if formats else None
+    targets = report_paths(out, forms) if out is not None else []
+    inputs = [*collect_files(data), codebook, *([decisions] if decisions else [])]
+    refuse_overwriting_inputs(targets, inputs)
+    when = report_time(date)
+
+    cb = load_codebook(codebook)
+    codings = read_codings(cb, data)
+    errors = len(codings.problems.errors)
+    if errors:
+        say(f"{errors} cell(s) with errors were left out; run 'coderel validate' to see them")
+    with _progress(len(cb.variables)) as step:
+        result = agreement(
+            codings,
+            replicates=replicates,
+            seed=seed,
+            interval_method=interval_method,
+            progress=step,
+        )
+    merged = None
+    decisions_source = None
+    if decisions is not None:
+        from coderel.adjudicate import read_decisions
+        from coderel.merge import merge
+
+        read = read_decisions(decisions, cb)
+        if read.problems:
+            say(
+                f"{len(read.problems)} problem(s) in the decisions file; those decisions were "
+                "left out; correct them in the adjudication list"
+            )
+        merged = merge(codings, read, rule=rule)
+        decisions_source = read.source or SourceFile(
+            str(decisions), sha256_file(decisions), decisions.stat().st_size
+        )
+    options = [f"--replicates {replicates}", f"--seed {seed}", f"--interval {interval_method}"]
+    if decisions is not None:
+        options.append(f"--rule {rule}")
+    content = build_report(
+        codings,
+        result,
+        merged,
+        command=_command_line(codebook, data, decisions, options),
+        decisions_source=decisions_source,
+        codebook_source=SourceFile(str(codebook), sha256_file(codebook), codebook.stat().st_size),
+        generated=when,
+    )
+    written = write_report(content, out, forms) if out is not None else []
+    if json_out:
+        emit_json(content.to_dict())
+        for path in written:
+            say(f"written: {path}")
+    else:
+        for path in written:
+            typer.echo(str(path))
+    return ExitCode.OK

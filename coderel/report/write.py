@@ -1,0 +1,90 @@
+"""Writing a report in one or more forms (HTML, Markdown, xlsx), each atomically."""
+
+from __future__ import annotations
+
+import os
+from collections.abc import Iterable
+from pathlib import Path
+
+from coderel.errors import UsageError
+from coderel.io.atomic import write_text
+from coderel.report.charts import report_charts, standalone_svg
+from coderel.report.html import render_html
+from coderel.report.markdown import chart_file, render_markdown
+from coderel.report.model import ReportContent
+from coderel.report.xlsx import write_report_xlsx
+
+#: Report forms and their file extensions.
+FORMATS: dict[str, str] = {"html": ".html", "md": ".md", "xlsx": ".xlsx"}
+_ALIASES = {"htm": "html", "markdown": "md"}
+
+
+def report_format(name: str) -> str:
+    """A form's name (``html``, ``md``, ``xlsx``) from a name or an extension; else UsageError."""
+    key = name.lower().lstrip(".")
+    key = _ALIASES.get(key, key)
+    if key not in FORMATS:
+        raise UsageError(
+            f"unknown report format {name!r}: choose html, md or xlsx "
+            "(by the output's extension or --format)"
+        )
+    return key
+
+
+def report_paths(path: str | os.PathLike[str], formats: Iterable[str] | None = None) -> list[Path]:
+    """The files a report writes: ``path`` itself, or one file per form with ``path``'s stem."""
+    path = Path(path)
+    if not formats:
+        return [path.with_suffix(FORMATS[report_format(path.suffix)])]
+    forms = list(dict.fromkeys(report_format(f) for f in formats))
+    return [path.with_suffix(FORMATS[f]) for f in forms]
+
+
+def charts_folder(md_path: Path) -> Path:
+    """The folder of a Markdown report's SVG charts: ``report.md`` -> ``report-charts/``."""
+    return md_path.with_name(f"{md_path.stem}-charts")
+
+
+def write_report(
+    content: ReportContent,
+    path: str | os.PathLike[str],
+    formats: Iterable[str] | None = None,
+) -> list[Path]:
+    """Write the report in the forms asked for; return every file written.
+
+    Parameters
+    ----------
+    content
+        The report's content from :func:`coderel.report.build_report`.
+    path
+        Output path. Its extension names the form when ``formats`` is empty; otherwise each form
+        is written beside it with the same stem (``report.html``, ``report.md``, ...).
+    formats
+        Any of ``html``, ``md``, ``xlsx``.
+
+    Returns
+    -------
+    list of Path
+        The report files, then (for Markdown) its chart files.
+    """
+    targets = report_paths(path, formats)
+    charts: dict[str, str] | None = None
+    written: list[Path] = []
+    extra: list[Path] = []
+    for target in targets:
+        form = report_format(target.suffix)
+        if form in ("html", "md") and charts is None:
+            charts = report_charts(content)
+        if form == "html":
+            write_text(target, render_html(content, charts))
+        elif form == "md":
+            folder = charts_folder(target)
+            for chart_id, svg in (charts or {}).items():
+                chart_path = folder / chart_file(chart_id)
+                write_text(chart_path, standalone_svg(svg))
+                extra.append(chart_path)
+            write_text(target, render_markdown(content, charts, folder=folder.name))
+        else:
+            write_report_xlsx(content, target)
+        written.append(target)
+    return written + extra

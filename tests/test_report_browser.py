@@ -1,0 +1,83 @@
+"""The demo's HTML report in a real browser: headless Chromium (the system's own, never downloaded).
+
+Checks that the page loads with no request other than the file itself (the Content Security
+Policy Level 3 ``default-src 'none'`` is the page's own guard; here the browser's network events
+are the oracle), that every variable's table row and chart mark is present and visible, and
+saves a full-page screenshot to ``test-output/report.png``.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import shutil
+from pathlib import Path
+
+import pytest
+
+from coderel.adjudicate import read_decisions
+from coderel.agree import agreement
+from coderel.codebook.load import load_codebook
+from coderel.io.read import read_codings
+from coderel.merge import merge
+from coderel.report import build_report, write_report
+
+ROOT = Path(__file__).resolve().parents[1]
+CB = ROOT / "sample_codebooks" / "wildlife_encounters.yaml"
+OUTPUT = ROOT / "test-output"
+
+
+def _chromium() -> str | None:
+    for name in ("chromium", "chromium-browser", "google-chrome"):
+        found = shutil.which(name)
+        if found:
+            return found
+    return "/usr/bin/chromium" if Path("/usr/bin/chromium").exists() else None
+
+
+def test_demo_report_in_headless_chromium(tmp_path):
+    executable = _chromium()
+    if executable is None:
+        pytest.skip("no Chromium executable found (make browser installs the system package)")
+    sync_api = pytest.importorskip("playwright.sync_api")
+
+    cb = load_codebook(CB)
+    codings = read_codings(cb, [ROOT / "demo" / "sheets"])
+    result = agreement(codings, replicates=200)
+    merged = merge(codings, read_decisions(ROOT / "demo" / "decisions.xlsx", cb))
+    content = build_report(
+        codings, result, merged, generated=dt.datetime(2026, 12, 2, tzinfo=dt.UTC)
+    )
+    page_path = write_report(content, tmp_path / "report.html")[0]
+    page_url = page_path.resolve().as_uri()
+
+    requests: list[str] = []
+    errors: list[str] = []
+    with sync_api.sync_playwright() as p:
+        browser = p.chromium.launch(executable_path=executable, args=["--no-sandbox"])
+        try:
+            page = browser.new_page(viewport={"width": 1280, "height": 900})
+            page.on("request", lambda r: requests.append(r.url))
+            page.on("pageerror", lambda e: errors.append(str(e)))
+            page.goto(page_url, wait_until="load")
+            for row in content.table:
+                assert page.locator(f"#{row.row_id}").is_visible(), row.variable
+                mark = page.locator(f"#{row.chart_id}")
+                assert mark.count() == 1, row.variable
+                assert mark.is_visible(), row.variable
+            for panel in content.categories:
+                if panel.matrix is not None:
+                    assert page.locator(f"#{panel.heatmap_id}").is_visible(), panel.variable
+            for key in ("summary", "agreement", "intervals", "coders", "adjudication", "methods"):
+                assert page.locator(f"section#{key}").is_visible(), key
+            # The page is no wider than the window: tables scroll inside their own box.
+            width = page.evaluate("document.documentElement.scrollWidth")
+            assert width <= 1280
+            OUTPUT.mkdir(exist_ok=True)
+            page.screenshot(path=str(OUTPUT / "report.png"), full_page=True)
+        finally:
+            browser.close()
+
+    others = [u for u in requests if u != page_url and not u.startswith("data:")]
+    assert others == []
+    assert errors == []
+    assert (OUTPUT / "report.png").stat().st_size > 10_000
