@@ -321,3 +321,30 @@ def test_merge_killed_mid_write_leaves_old_output_intact(tmp_path, mode):
     leftovers = [p.name for p in tmp_path.iterdir() if p.name.endswith(".tmp")]
     assert all(name.startswith(".merged.csv.") for name in leftovers)
     assert len(leftovers) == 1  # the unfinished temporary file, never renamed into place
+
+
+def test_csv_list_decisions_and_stale_ones_reported(project):
+    cb, sheets, adj = project / "cb.yaml", project / "sheets", project / "adj.csv"
+    assert invoke("adjudicate", "-c", cb, sheets, "-o", adj).exit_code == 0
+    table = pd.read_csv(adj, dtype=str, keep_default_na=False)
+    table.loc[table["variable"] == "species", "decision"] = "3 = Cougar"
+    table.loc[table["variable"] == "spray_worked", "decision"] = "2"
+    table.to_csv(adj, index=False)
+    out = project / "merged.csv"
+    res = invoke("merge", "-c", cb, sheets, "--decisions", adj, "--strict", "-o", out, "--json")
+    assert res.exit_code == 0, res.output
+    assert json.loads(res.stdout)["totals"]["adjudicated"] == 2
+    merged = pd.read_csv(out, dtype=str, keep_default_na=False)
+    assert merged.loc[0, ["species", "species_status"]].tolist() == ["3", "adjudicated"]
+    # bob changes his species code after the decision: the decision no longer matches
+    (sheets / "bob.csv").write_text(
+        BOB.replace("R1,=cmd|' /C calc'!A0,2,", "R1,=cmd|' /C calc'!A0,3,")
+    )
+    res = invoke("merge", "-c", cb, sheets, "--decisions", adj, "-o", out, "--json")
+    assert res.exit_code == 0, res.output
+    doc = json.loads(res.stdout)
+    assert [(p["code"], p["unit"], p["variable"], p["cell"]) for p in doc["problems"]] == [
+        ("stale-decision", "R1", "species", "G2")
+    ]
+    assert doc["unresolved"] == [{"unit": "R1", "variable": "species"}]
+    assert "coders' values changed" in doc["problems"][0]["message"]
