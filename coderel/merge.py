@@ -122,6 +122,8 @@ class MergeResult:
         Every cell a decision settled.
     problems
         ``stale-decision`` warnings and the decisions file's ``bad-decision`` errors.
+    unresolved_values
+        For each entry of ``unresolved``, the coders' values as shown on the adjudication list.
     """
 
     frame: pd.DataFrame
@@ -134,6 +136,7 @@ class MergeResult:
     problems: Problems = field(default_factory=Problems)
     sources: tuple[SourceFile, ...] = ()
     decisions_source: SourceFile | None = None
+    unresolved_values: tuple[Mapping[str, str], ...] = ()
 
     @property
     def units(self) -> int:
@@ -169,6 +172,14 @@ class MergeResult:
                 out[s] += n
         return out
 
+    def unresolved_records(self) -> list[dict[str, Any]]:
+        """Every unresolved cell: unit, variable and the coders' values (codes, never text)."""
+        values = self.unresolved_values or tuple({} for _ in self.unresolved)
+        return [
+            {"unit": u, "variable": v, "coders": dict(shown)}
+            for (u, v), shown in zip(self.unresolved, values, strict=True)
+        ]
+
     def to_dict(self) -> dict[str, Any]:
         return {
             "rule": self.rule,
@@ -178,7 +189,7 @@ class MergeResult:
             "coders": list(self.coders),
             "totals": self.totals(),
             "status_counts": {v: dict(c) for v, c in self.status_counts.items()},
-            "unresolved": [{"unit": u, "variable": v} for u, v in self.unresolved],
+            "unresolved": self.unresolved_records(),
             "adjudicated": [a.to_dict() for a in self.adjudicated],
             **self.problems.to_dict(),
         }
@@ -348,6 +359,7 @@ def merge(
     data: dict[str, Any] = {cb.unit: pd.Series(units, dtype=object)}
     status_counts: dict[str, dict[str, int]] = {}
     unresolved: list[tuple[str, str]] = []
+    unresolved_values: list[dict[str, str]] = []
     adjudicated: list[AdjudicatedCell] = []
     statuses_by_var: dict[str, list[str]] = {}
     for var in cb.variables:
@@ -381,6 +393,8 @@ def merge(
         for var in cb.variables:
             if statuses_by_var[var.name][i] == "unresolved":
                 unresolved.append((unit, var.name))
+                tokens = tokens_by_cell.get((unit, var.name), {})
+                unresolved_values.append({c: display_token(var, t) for c, t in tokens.items()})
     frame = pd.DataFrame(data, columns=columns)
     return MergeResult(
         frame=frame,
@@ -389,6 +403,7 @@ def merge(
         coders=tuple(codings.coders),
         status_counts=status_counts,
         unresolved=tuple(unresolved),
+        unresolved_values=tuple(unresolved_values),
         adjudicated=tuple(adjudicated),
         problems=problems,
         sources=codings.sources,

@@ -173,8 +173,8 @@ def test_strict_exits_1_and_writes_nothing(project):
     assert res.exit_code == ExitCode.DATA_PROBLEMS
     doc = json.loads(res.stdout)
     assert doc["unresolved"] == [
-        {"unit": "R1", "variable": "species"},
-        {"unit": "R1", "variable": "spray_worked"},
+        {"unit": "R1", "variable": "species", "coders": {"ann": "1 = Bear", "bob": "2 = Elk"}},
+        {"unit": "R1", "variable": "spray_worked", "coders": {"ann": "1 = Yes", "bob": "2 = No"}},
     ]
     assert not out.exists()
     assert not Path(f"{out}.audit.jsonl").exists()
@@ -346,5 +346,5 @@ def test_csv_list_decisions_and_stale_ones_reported(project):
     assert [(p["code"], p["unit"], p["variable"], p["cell"]) for p in doc["problems"]] == [
         ("stale-decision", "R1", "species", "G2")
     ]
-    assert doc["unresolved"] == [{"unit": "R1", "variable": "species"}]
+    assert [(u["unit"], u["variable"]) for u in doc["unresolved"]] == [("R1", "species")]
     assert "coders' values changed" in doc["problems"][0]["message"]

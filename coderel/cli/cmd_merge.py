@@ -105,7 +105,7 @@ def merge_command(
     else:
         _print_statuses(result)
     print_problems(result.problems)
-    _print_unresolved(result.unresolved)
+    _print_unresolved(result.unresolved_records())
     totals = result.totals()
     counts = ", ".join(f"{totals[s]} {s}" for s in STATUSES if totals[s])
     say(
@@ -134,14 +134,15 @@ def _print_statuses(result) -> None:
     out_console().print(table)
 
 
-def _print_unresolved(unresolved: tuple[tuple[str, str], ...]) -> None:
+def _print_unresolved(unresolved: list[dict]) -> None:
     if not unresolved:
         return
     table = Table(title=f"{len(unresolved)} unresolved cell(s)")
-    table.add_column("unit")
-    table.add_column("variable")
-    for unit, variable in unresolved[:SHOWN_UNRESOLVED]:
-        table.add_row(unit, variable)
+    for col in ("unit", "variable", "coders' values"):
+        table.add_column(col, overflow="fold")
+    for cell in unresolved[:SHOWN_UNRESOLVED]:
+        shown = "; ".join(f"{c}: {v}" for c, v in cell["coders"].items()) or "no coder"
+        table.add_row(cell["unit"], cell["variable"], shown)
     console = err_console()
     console.print(table)
     if len(unresolved) > SHOWN_UNRESOLVED:
