@@ -9,12 +9,14 @@ tests/test_stats_core.py; they are not repeated here.
 
 from __future__ import annotations
 
+from pathlib import Path
+
 import krippendorff
 import numpy as np
 import pytest
 from statsmodels.stats.inter_rater import aggregate_raters, cohens_kappa, fleiss_kappa
 
-from coderel.agree import agreement
+from coderel.agree import COEFFICIENTS, THIN_DATA, agreement
 from coderel.codebook import Category, Codebook, Variable
 from coderel.codings import Codings
 from coderel.stats.counts import unit_agreeing_pairs
@@ -25,6 +27,7 @@ from coderel.stats.kappa import (
     z_test,
 )
 from coderel.stats.plan import Scale, build_plan
+from coderel.stats.undefined import REASONS
 
 N = None
 
@@ -355,3 +358,16 @@ def test_prevalence_paradox_is_flagged_in_words():
     codings = _codings([list(a + 1), list(b + 1)], {"present": "nominal"}, 2)
     v = agreement(codings, replicates=200, seed=6).variable("present")
     assert not any("paradox" in note for note in v.notes)
+
+
+# --------------------------------------------------------------------------------------------
+# docs/coefficients.md documents every coefficient key and every reason the engine can give
+# --------------------------------------------------------------------------------------------
+
+
+def test_coefficients_doc_names_every_key_and_reason():
+    doc = (Path(__file__).resolve().parents[1] / "docs" / "coefficients.md").read_text("utf-8")
+    for key in COEFFICIENTS:
+        assert f"`{key}`" in doc, key
+    for reason in (*REASONS, THIN_DATA):
+        assert f"`{reason}`" in doc, reason
