@@ -19,7 +19,8 @@ maps it onto the codebook:
   legitimate answer and is counted in the validation summary instead;
 * anything else -> value ``None`` and an error (``not-in-codebook`` with a "did you mean" hint,
   ``not-a-number``, ``out-of-range``, ``not-integer``, ``multiple-not-allowed``,
-  ``date-converted``, ``excel-error``, ``formula-no-value``).
+  ``date-converted`` for a date cell or date-like text such as ``3-Jan`` in a CSV file,
+  ``excel-error``, ``formula-no-value``).
 
 Messages quote only codes and short coded values, never narrative text: the text columns of the
 codebook are not passed through this module.
@@ -42,6 +43,15 @@ EXCEL_ERRORS: frozenset[str] = frozenset(
 )
 _NUMBER = re.compile(r"^[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?$")
 _INTEGER = re.compile(r"^[+-]?\d+$")
+_MONTH = r"(jan|feb|mar|apr|may|jun|jul|aug|sep|oct|nov|dec)[a-z]*\.?"
+#: Text a spreadsheet writes for a date when it saves a converted cell as CSV (``3-Jan``,
+#: ``Jan-03``, ``2026-01-03``, ``03/01/2026``, ``3.1.2026``), optionally with a time.
+_DATE_TEXT = re.compile(
+    rf"^(\d{{1,2}}[- ]{_MONTH}([- ]\d{{2,4}})?|{_MONTH}[- ]\d{{1,4}}"
+    r"|\d{4}-\d{1,2}-\d{1,2}|\d{1,2}/\d{1,2}/\d{2,4}|\d{1,2}\.\d{1,2}\.\d{4})"
+    r"([ T]\d{1,2}:\d{2}(:\d{2})?)?$",
+    re.IGNORECASE,
+)
 #: Longest raw value quoted in a message; longer values are summarised by their length.
 _QUOTE_LIMIT = 40
 
@@ -128,6 +138,24 @@ def _date_hint() -> str:
     return (
         "the spreadsheet turned the typed code into a date; format the column as Text "
         "(Format Cells > Text) and type the code again"
+    )
+
+
+def _date_text(variable: Variable, raw: Any) -> Normalised | None:
+    """A ``date-converted`` error when text that is no value of ``variable`` looks like a date."""
+    if not isinstance(raw, str) or not _DATE_TEXT.match(raw):
+        return None
+    return Normalised(
+        None,
+        None,
+        False,
+        (
+            Finding(
+                "date-converted",
+                f"{quote(raw)} looks like a date, not a value of {variable.name}",
+                _date_hint(),
+            ),
+        ),
     )
 
 
@@ -249,6 +277,8 @@ def _numeric(variable: Variable, raw: Any, *, typed: bool) -> Normalised:
         for code in variable.missing_codes:
             if str(code) == str(raw):
                 return Normalised(None, code, False, tuple(findings))
+    if number is None and (as_date := _date_text(variable, raw)) is not None:
+        return as_date
     if number is None or not math.isfinite(number):
         return Normalised(
             None,
@@ -439,6 +469,9 @@ def _categorical(
         order = {c: i for i, c in enumerate(variable.codes)}
         value = tuple(sorted(codes, key=order.__getitem__))
         return Normalised(value if value else None, None, not value, tuple(findings))
+    as_date = _date_text(variable, raw)
+    if as_date is not None:
+        return Normalised(None, None, False, (*findings, *as_date.findings))
     token = str(raw)
     return Normalised(
         None,

@@ -121,6 +121,12 @@ EXPECTED: dict[str, list[tuple]] = {
         ("normalised-number", "C8", "R-07", "animal"),
         ("normalised-space", "E8", "R-07", "contact"),
     ],
+    "dates.csv": [
+        ("date-converted", "H2", "R-01", "factors"),
+        ("date-converted", "H3", "R-02", "factors"),
+        ("date-converted", "G4", "R-03", "distance_m"),
+        ("not-in-codebook", "H5", "R-04", "factors"),
+    ],
     "wrong_code.xlsx": [("not-in-codebook", "D3", "R-02", "behaviour")],
     "columns.csv": [
         ("unknown-column", "G1", None, None),
@@ -234,6 +240,7 @@ BYTE_STABLE = {
     "encrypted.xlsx",
     "corrupt.xlsx",
     "latin1.csv",
+    "dates.csv",
     "columns.csv",
     "header_only.csv",
     "skip_logic.csv",
@@ -306,3 +313,13 @@ def test_demo_wide_and_long_give_the_same_codings(tmp_path):
         assert [p.code for p in long.problems] == ["partial-unit"] * len(long.problems)
         long_texts = long.texts.sort_values(["unit", "coder"]).reset_index(drop=True)
         assert long_texts["text"].tolist() == texts["text"].tolist(), form
+
+
+def test_date_like_text_is_a_date_only_when_it_is_no_code():
+    from coderel.codebook import Category, Variable
+    from coderel.normalise import normalise_cell
+
+    months = Variable("month", "nominal", categories=(Category("May-1", "first of May"),))
+    assert normalise_cell(months, "May-1", typed=False).value == "May-1"
+    found = normalise_cell(months, "May-2", typed=False).findings
+    assert [f.code for f in found] == ["date-converted"]

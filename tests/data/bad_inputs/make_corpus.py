@@ -171,6 +171,18 @@ def cells_xlsx() -> bytes:
     return workbook_bytes(wb)
 
 
+def dates_csv() -> bytes:
+    """A CSV saved by a spreadsheet after it turned typed codes into dates (text such as 3-Jan)."""
+    rows = [
+        HEADER,
+        ["R-01", "Bear and elk.", 1, 2, 2, None, 40, "3-Jan", "S"],  # H2: 1-3 became 3 January
+        ["R-02", "Elk herd.", 2, 1, 2, None, 120, "Jan-03", "S"],  # H3: another locale's form
+        ["R-03", "Cougar far off.", 3, 1, 2, None, "2026-01-03", "1", "S"],  # G4
+        ["R-04", "Bear by the bins.", 1, 2, 2, None, 10, "1-3", "S"],  # H5: typed 1-3, no date
+    ]
+    return _csv_text(rows).encode("utf-8")
+
+
 def wrong_code_xlsx() -> bytes:
     """behaviour 7 in D3 (unit R-02): not a code of behaviour."""
     rows = [HEADER, CLEAN[0], ["R-02", "An elk grazed.", 2, 7, 2, None, 120, "1;3", "S"]]
@@ -290,6 +302,7 @@ CASES: dict[str, Callable[[], bytes]] = {
     "entities.xlsx": entities_xlsx,
     "latin1.csv": latin1_csv,
     "cells.xlsx": cells_xlsx,
+    "dates.csv": dates_csv,
     "wrong_code.xlsx": wrong_code_xlsx,
     "columns.csv": columns_csv,
     "empty.xlsx": empty_xlsx,
