@@ -256,3 +256,11 @@ def test_cli_refuses_bad_outputs(tmp_path):
     assert nothing.exit_code == 2
     assert not (tmp_path / "r.pdf").exists()
     assert (tmp_path / "coder_ana.xlsx").read_bytes() == (SHEETS / "coder_ana.xlsx").read_bytes()
+
+
+def test_markdown_text_cannot_become_html_or_a_link():
+    from coderel.report.markdown import md
+
+    assert md("[x](javascript:alert(1))") == "[x]\\(javascript:alert(1))"
+    assert md("<img src=x>") == "&lt;img src=x&gt;"
+    assert md("a|b *c*\nd") == "a\\|b \\*c\\* d"

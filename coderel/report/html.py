@@ -95,11 +95,16 @@ figure { margin: .6rem 0 1rem; background: #fff; border: 1px solid var(--line);
   border-radius: 6px; padding: .7rem; }
 figcaption { font-size: .82rem; color: var(--muted); margin-top: .4rem; }
 svg.chart-svg { display: block; width: 100%; height: auto; margin: 0 auto; }
-.panels { display: grid; grid-template-columns: repeat(auto-fit, minmax(24rem, 1fr));
-  gap: 1rem; }
 .panel { min-width: 0; background: #fff; border: 1px solid var(--line); border-radius: 6px;
-  padding: .2rem .9rem .6rem; }
+  padding: .2rem 1rem .6rem; margin-bottom: 1rem; }
+.panel-body { display: grid; grid-template-columns: minmax(0, 5fr) minmax(0, 6fr); gap: 1.2rem;
+  align-items: start; }
+.panel-body > :only-child { grid-column: 1 / -1; }
+@media (max-width: 56rem) { .panel-body { grid-template-columns: minmax(0, 1fr); } }
 .panel figure { border: 0; padding: 0; }
+table.categories { font-size: .84rem; }
+table.categories th, table.categories td { padding: .3rem .4rem; }
+table.categories thead th { white-space: nowrap; }
 .methods-text { background: #fff; border-left: 4px solid var(--good); padding: .8rem 1rem;
   margin: .6rem 0; font-family: Georgia, "Times New Roman", "DejaVu Serif", serif;
   font-size: .98rem; line-height: 1.6; }
@@ -123,6 +128,7 @@ footer { max-width: 72rem; margin: 0 auto; padding: 1rem 1.2rem 2rem; color: var
   table { font-size: 8.5pt; }
   h2, h3 { break-after: avoid; }
   tr, figure, .panel, .methods-text, .card { break-inside: avoid; }
+  .panel-body { grid-template-columns: minmax(0, 1fr) minmax(0, 1.2fr); }
   section#methods, section#reproducibility { break-before: page; }
 }
 """
@@ -280,19 +286,21 @@ def _intervals(content: ReportContent, charts: Mapping[str, str]) -> str:
 def _categories(content: ReportContent, charts: Mapping[str, str]) -> str:
     if not content.categories:
         return "<p>No categorical variable with per-category figures in this project.</p>"
-    out = ['<div class="panels">']
+    out = [
+        '<p class="about">Fleiss\' κ for a category (Fleiss, 1971) compares agreement on that '
+        "category against all others, corrected for chance. Specific agreement is the share of "
+        "the coders' uses of a category that another coder matched, pooled over pairs. Low "
+        "values point to a category whose definition or examples need work; a rare category "
+        "(small share of values) gives unstable figures.</p>"
+    ]
     for p in content.categories:
         out.append(f'<div class="panel" id="{_e(p.panel_id)}">')
         out.append(f"<h3>{_e(p.variable)} <span class='label'>{_e(p.label)}</span></h3>")
+        out.append('<div class="panel-body">')
         if p.matrix is not None and p.heatmap_id in charts:
             out.append(
-                f"<figure>{_inline(charts[p.heatmap_id])}"
+                f'<figure class="heat">{_inline(charts[p.heatmap_id])}'
                 f"<figcaption>{_e(p.matrix_caption)}</figcaption></figure>"
-            )
-        elif p.multiple:
-            out.append(
-                '<p class="about">Multi-select: each category is treated as chosen or not '
-                "chosen, and agreement on that choice is shown per category.</p>"
             )
         heads = [CATEGORY_TITLES.get(c, c) for c in p.category_columns]
         rows = [
@@ -300,15 +308,14 @@ def _categories(content: ReportContent, charts: Mapping[str, str]) -> str:
             for row in p.category_rows
         ]
         table = _table(heads, rows, cls="categories", numeric=range(2, len(heads)))
-        out.append(f'<div class="scroll">{table}</div>')
-        out.append("</div>")
-    out.append("</div>")
-    out.append(
-        '<p class="about">Fleiss\' κ for a category (Fleiss, 1971) compares agreement on that '
-        "category against all others, corrected for chance. Specific agreement is the share of "
-        "the coders' uses of a category that another coder matched, pooled over pairs. Low "
-        "values point to a category whose definition or examples need work.</p>"
-    )
+        note = (
+            '<p class="about">Multi-select: each category is treated as chosen or not chosen, '
+            "and agreement on that choice is shown per category.</p>"
+            if p.multiple
+            else ""
+        )
+        out.append(f'<div class="side">{note}<div class="scroll">{table}</div></div>')
+        out.append("</div></div>")
     return "".join(out)
 
 

@@ -8,7 +8,6 @@ HTML that many Markdown viewers let through (``<``, ``>`` and ``&`` become entit
 from __future__ import annotations
 
 from collections.abc import Iterable, Mapping, Sequence
-from html import escape
 from urllib.parse import quote
 
 from coderel.report.fmt import pct
@@ -29,12 +28,18 @@ from coderel.report.sections import (
     summary_rows,
 )
 
-_SPECIAL = str.maketrans({c: "\\" + c for c in "\\`*[]|#"})
+_SPECIAL = str.maketrans(
+    {"\\": "\\\\", "`": "\\`", "*": "\\*", "|": "\\|", "<": "&lt;", ">": "&gt;"}
+)
 
 
 def md(value: object) -> str:
-    """Text made inert for Markdown: HTML entities, escaped markup characters, one line."""
-    text = escape(str(value), quote=False).translate(_SPECIAL)
+    """Text made inert for Markdown, on one line.
+
+    ``<`` and ``>`` become entities (many viewers pass raw HTML through), the characters of
+    emphasis, code and tables are escaped, and ``](`` is broken so that no text becomes a link.
+    """
+    text = str(value).translate(_SPECIAL).replace("](", "]\\(")
     return " ".join(text.split())
 
 

@@ -290,7 +290,7 @@ def intervals_frame(content: ReportContent) -> pd.DataFrame:
 CATEGORY_TITLES: dict[str, str] = {
     "code": "Code",
     "label": "Category",
-    "fleiss_kappa": "Fleiss' κ for the category",
+    "fleiss_kappa": "Fleiss' κ",
     "specific_agreement": "Specific agreement",
     "binary_alpha": "α (chosen or not)",
     "share_of_values": "Share of values",
