@@ -8,9 +8,11 @@ fill the workbook, and saved with fixed time stamps so that the file is byte-rep
 
 Usage (from the repository root)::
 
-    python scripts/make_demo_decisions.py [--out demo/decisions.xlsx]
+    python scripts/make_demo_decisions.py [--out sample_decisions/wildlife_encounters.xlsx]
 
-Then ``coderel merge --decisions demo/decisions.xlsx`` leaves no cell unresolved.
+Then ``coderel merge --decisions sample_decisions/wildlife_encounters.xlsx`` leaves no cell
+unresolved. The file sits beside the sample codebook, not in ``demo/``, which holds only what
+``scripts/generate_demo.py`` makes.
 """
 
 from __future__ import annotations
@@ -88,7 +90,9 @@ def make(out: Path) -> dict[str, int]:
 
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.split("\n")[0])
-    parser.add_argument("--out", type=Path, default=ROOT / "demo" / "decisions.xlsx")
+    parser.add_argument(
+        "--out", type=Path, default=ROOT / "sample_decisions" / "wildlife_encounters.xlsx"
+    )
     args = parser.parse_args()
     counts = make(args.out)
     print(f"{args.out}: " + ", ".join(f"{k}: {v}" for k, v in counts.items()))

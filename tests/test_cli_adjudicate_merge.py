@@ -29,6 +29,8 @@ from coderel.errors import ExitCode
 ROOT = Path(__file__).resolve().parents[1]
 DEMO_CB = ROOT / "sample_codebooks" / "wildlife_encounters.yaml"
 DEMO_SHEETS = ROOT / "demo" / "sheets"
+#: the demo's decisions, shipped beside the sample codebook (demo/ holds only generated files)
+SHIPPED = ROOT / "sample_decisions" / "wildlife_encounters.xlsx"
 
 CODEBOOK = """\
 title: CLI merge test (invented)
@@ -246,7 +248,7 @@ def test_demo_path_adjudicate_fill_merge_leaves_nothing_unresolved(tmp_path):
     assert [p["code"] for p in doc["problems"]] == []
     # the shipped decisions file settles the demo the same way
     shipped = invoke(
-        "merge", "-c", DEMO_CB, DEMO_SHEETS, "--decisions", ROOT / "demo" / "decisions.xlsx",
+        "merge", "-c", DEMO_CB, DEMO_SHEETS, "--decisions", SHIPPED,
         "--strict", "-o", tmp_path / "shipped.csv", "--json",
     )  # fmt: skip
     assert shipped.exit_code == 0, shipped.output
@@ -257,7 +259,7 @@ def test_demo_decisions_file_is_reproduced_by_its_script(tmp_path):
     out = tmp_path / "decisions.xlsx"
     counts = _demo_script().make(out)
     assert counts["decisions"] == 510
-    assert out.read_bytes() == (ROOT / "demo" / "decisions.xlsx").read_bytes()
+    assert out.read_bytes() == SHIPPED.read_bytes()
 
 
 KILLED = r"""
