@@ -24,6 +24,15 @@ from coderel.report import build_report, write_report
 ROOT = Path(__file__).resolve().parents[1]
 CB = ROOT / "sample_codebooks" / "wildlife_encounters.yaml"
 OUTPUT = ROOT / "test-output"
+#: The demo's decisions file, shipped beside the sample codebook (older trees kept it in demo/).
+DECISIONS = next(
+    p
+    for p in (
+        ROOT / "sample_decisions" / "wildlife_encounters.xlsx",
+        ROOT / "demo" / "decisions.xlsx",
+    )
+    if p.exists()
+)
 
 
 def _chromium() -> str | None:
@@ -43,7 +52,7 @@ def test_demo_report_in_headless_chromium(tmp_path):
     cb = load_codebook(CB)
     codings = read_codings(cb, [ROOT / "demo" / "sheets"])
     result = agreement(codings, replicates=200)
-    merged = merge(codings, read_decisions(ROOT / "demo" / "decisions.xlsx", cb))
+    merged = merge(codings, read_decisions(DECISIONS, cb))
     content = build_report(
         codings, result, merged, generated=dt.datetime(2026, 12, 2, tzinfo=dt.UTC)
     )

@@ -31,7 +31,15 @@ from coderel.report.sections import SECTIONS, section_frames
 ROOT = Path(__file__).resolve().parents[1]
 CB = ROOT / "sample_codebooks" / "wildlife_encounters.yaml"
 SHEETS = ROOT / "demo" / "sheets"
-DECISIONS = ROOT / "demo" / "decisions.xlsx"
+#: The demo's decisions file, shipped beside the sample codebook (older trees kept it in demo/).
+DECISIONS = next(
+    p
+    for p in (
+        ROOT / "sample_decisions" / "wildlife_encounters.xlsx",
+        ROOT / "demo" / "decisions.xlsx",
+    )
+    if p.exists()
+)
 REPLICATES = 200
 DATE = "2026-12-02"
 runner = CliRunner()
@@ -227,7 +235,7 @@ def test_cli_writes_three_forms_and_prints_paths(tmp_path):
     html = out.read_text(encoding="utf-8")
     assert "2026-12-02 00:00:00 UTC" in html
     assert "SHA-256" in html
-    assert "decisions.xlsx" in html
+    assert DECISIONS.name in html
     assert "wildlife_encounters.yaml" in html
 
 

@@ -4,8 +4,6 @@ from __future__ import annotations
 
 import datetime as dt
 import os
-from collections.abc import Callable, Iterator
-from contextlib import contextmanager
 from pathlib import Path
 from typing import Annotated
 
@@ -16,11 +14,10 @@ from coderel.cli.common import (
     CodebookOption,
     DataArgument,
     JsonOption,
+    delayed_progress,
     emit_json,
-    err_console,
     handle_errors,
     say,
-    show_progress,
 )
 from coderel.errors import ExitCode, UsageError
 
@@ -52,23 +49,6 @@ def report_time(date: str | None, environ: dict[str, str] | None = None) -> dt.d
                 "SOURCE_DATE_EPOCH must be whole seconds since 1970-01-01 UTC"
             ) from None
     return dt.datetime.now(dt.UTC)
-
-
-@contextmanager
-def _progress(total: int) -> Iterator[Callable[[int, int], None] | None]:
-    """A progress bar on stderr over the variables, only on a terminal."""
-    if not show_progress():
-        yield None
-        return
-    from rich.progress import Progress
-
-    with Progress(console=err_console(), transient=True) as bar:
-        task = bar.add_task("agreement per variable", total=total)
-
-        def step(done: int, of: int) -> None:
-            bar.update(task, completed=done, total=of)
-
-        yield step
 
 
 def _command_line(
@@ -128,6 +108,8 @@ def report_command(
         raise UsageError("name the report file with -o report.html (or .md, .xlsx), or use --json")
     forms = [f.strip() for f in formats.split(",") if f.strip()] if formats else None
     targets = report_paths(out, forms) if out is not None else []
+    if decisions is not None and not decisions.is_file():
+        raise UsageError(f"the decisions file {decisions.name!r} does not exist")
     inputs = [*collect_files(data), codebook, *([decisions] if decisions else [])]
     refuse_overwriting_inputs(targets, inputs)
     when = report_time(date)
@@ -137,7 +119,7 @@ def report_command(
     errors = len(codings.problems.errors)
     if errors:
         say(f"{errors} cell(s) with errors were left out; run 'coderel validate' to see them")
-    with _progress(len(cb.variables)) as step:
+    with delayed_progress("agreement per variable") as step:
         result = agreement(
             codings,
             replicates=replicates,

@@ -128,7 +128,12 @@ footer { max-width: 72rem; margin: 0 auto; padding: 1rem 1.2rem 2rem; color: var
   table { font-size: 8.5pt; }
   h2, h3 { break-after: avoid; }
   tr, figure, .panel, .methods-text, .card { break-inside: avoid; }
-  .panel-body { grid-template-columns: minmax(0, 1fr) minmax(0, 1.2fr); }
+  .panel-body { grid-template-columns: minmax(0, 1fr); }
+  .panel figure.heat { max-width: 65%; }
+  table.coefficients { font-size: 7pt; table-layout: fixed; }
+  table.coefficients th, td.coef { padding: .2rem .15rem; white-space: normal;
+    overflow-wrap: anywhere; }
+  table.coefficients th:first-child { width: 15%; overflow-wrap: normal; word-break: normal; }
   section#methods, section#reproducibility { break-before: page; }
 }
 """
