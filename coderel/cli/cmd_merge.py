@@ -27,7 +27,7 @@ from coderel.errors import ExitCode, UsageError
 from coderel.io.atomic import refuse_overwriting_inputs
 from coderel.io.read import collect_files, read_codings
 from coderel.io.tables import table_format
-from coderel.merge import RULES, STATUSES, merge, write_merged
+from coderel.merge import RULES, STATUSES, Rule, merge, write_merged
 from coderel.problems import Problems
 
 #: At most this many unresolved cells are listed on the terminal (--json lists every one).
@@ -45,7 +45,7 @@ def merge_command(
         typer.Option("--decisions", help="An adjudication list with decisions (.xlsx or .csv)."),
     ] = None,
     rule: Annotated[
-        str, typer.Option("--rule", help="unanimous (default) or majority.")
+        Rule, typer.Option("--rule", help="unanimous: all coders agree; majority: more than half.")
     ] = "unanimous",
     strict: Annotated[
         bool,
@@ -79,7 +79,7 @@ def merge_command(
             "(a blank against a value is a disagreement to adjudicate)"
         )
     loaded = read_decisions(decisions, cb) if decisions is not None else None
-    result = merge(codings, loaded, rule=rule)  # type: ignore[arg-type]
+    result = merge(codings, loaded, rule=rule)
     bad = Problems(result.problems.errors)
     written = False
     reason = None
