@@ -26,8 +26,9 @@ warning and is not used. Run ``coderel adjudicate`` again to carry decisions ove
 list.
 
 Value columns hold codes exactly as in the codebook: whole-number codes as a nullable integer
-column, text codes as text, numbers of interval and ratio variables as floats (whole numbers for
-``integer`` variables), missing codes as they are. A multi-select value is its codes joined with
+column, text codes as text (a variable mixing number and text codes as text throughout), numbers
+of interval and ratio variables as floats (whole numbers for ``integer`` variables), missing codes
+as they are. A multi-select value is its codes joined with
 ``;`` in codebook order (``1;3``) in every form, csv, xlsx and parquet alike; :func:`spread` adds
 one 0/1 column ``<variable>__<code>`` per category.
 """
