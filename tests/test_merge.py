@@ -361,3 +361,28 @@ def test_audit_log_appends_one_line_per_merge_without_narrative(tmp_path):
     assert record["time"].endswith("Z")
     assert secret not in log.read_text()
     assert record["time"][:10] not in out.read_text()  # the time lives in the log only
+
+
+def test_mixed_number_and_text_codes_stored_as_text(tmp_path):
+    cb = Codebook(
+        title="mixed codes (invented)",
+        variables=(
+            Variable(
+                "light",
+                "nominal",
+                categories=(Category(1, "Day"), Category(2, "Night")),
+                missing=(MissingCode("unknown", "not stated"),),
+            ),
+        ),
+    )
+    recs = [
+        {"unit": "R1", "coder": "ann", "variable": "light", "value": 1},
+        {"unit": "R1", "coder": "bob", "variable": "light", "value": 1},
+        {"unit": "R2", "coder": "ann", "variable": "light", "value": None, "missing": "unknown"},
+        {"unit": "R2", "coder": "bob", "variable": "light", "value": None, "missing": "unknown"},
+    ]
+    r = merge(Codings.from_records(cb, recs))
+    assert r.frame["light"].tolist() == ["1", "unknown"]
+    assert r.frame["light_status"].tolist() == ["agreed", "agreed"]
+    write_merged(r, tmp_path / "m.parquet")
+    assert pd.read_parquet(tmp_path / "m.parquet")["light"].tolist() == ["1", "unknown"]
