@@ -637,3 +637,23 @@ def test_applies_when_rows_match_krippendorff(n, c, seed):
     assert (got is None) == (expect is None)
     if expect is not None:
         assert got == pytest.approx(expect, abs=TOL)
+
+
+@FAST
+@given(
+    many_coders(missing=True),
+    st.sampled_from([1e-12, 1e-8, 1e-3, 1.0, 1e6, 1e12]),
+    st.floats(-1e3, 1e3),
+)
+def test_interval_alpha_does_not_depend_on_the_unit_of_measurement(data, unit, shift):
+    # Interval alpha is invariant under linear changes of scale (Krippendorff 2004): values a
+    # hundred-millionth apart are not "no variation". Reference: the krippendorff package.
+    _k, x = data
+    assume(_pairable_distinct(x) >= 2)
+    as_number = np.where(x >= 0, (x + shift) * unit, np.nan)
+    observed = np.unique(as_number[x >= 0])
+    index = np.where(x >= 0, np.searchsorted(observed, np.nan_to_num(as_number)), -1)
+    scale = Scale("numeric", "interval", len(observed), values=observed)
+    got = build_plan(index, scale).point("krippendorff_alpha")
+    ref = krippendorff.alpha(reliability_data=as_number.T, level_of_measurement="interval")
+    assert got == pytest.approx(ref, abs=1e-8)

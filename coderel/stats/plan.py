@@ -117,15 +117,25 @@ def _domain_distance(scale: Scale):
         values = np.asarray(scale.values, dtype=float)
         if scale.level == "ratio":
             return A.ratio_distance(values)
-        return A.interval_distance(values - _centre(values))
+        return A.interval_distance(_standardise(values))
     if scale.kind == "set":
         delta = A.jaccard_delta(list(scale.sets))
         return lambda a, b: delta[a, b]
     return lambda a, b: (a != b).astype(float)
 
 
-def _centre(values: np.ndarray) -> float:
-    return float(np.mean(values)) if len(values) else 0.0
+def _standardise(values: np.ndarray) -> np.ndarray:
+    """Interval values centred and divided by their spread.
+
+    Interval alpha is unchanged by any linear change of scale; working on standardised values
+    keeps the test for zero expected disagreement (``_alpha``) independent of the unit of
+    measurement (values a millionth apart are not "no variation").
+    """
+    if not len(values):
+        return values
+    centred = values - float(np.mean(values))
+    spread = float(np.max(np.abs(centred)))
+    return centred / spread if spread > 0 else centred
 
 
 def add_percent(b: _Builder, x: np.ndarray) -> Formula:
@@ -147,7 +157,7 @@ def add_alpha(b: _Builder, x: np.ndarray, scale: Scale) -> Formula:
     d = unit_disagreement(x, _domain_distance(scale))
     if scale.kind == "numeric" and scale.level == "interval":
         values = np.asarray(scale.values, dtype=float)
-        v = values - _centre(values)
+        v = _standardise(values)
         s1 = cp @ v
         s2 = cp @ v**2
         s_m, s_1, s_2, s_d = b.add(cp.sum(axis=1)), b.add(s1), b.add(s2), b.add(d)
