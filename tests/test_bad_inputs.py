@@ -128,6 +128,9 @@ EXPECTED: dict[str, list[tuple]] = {
         ("not-in-codebook", "H5", "R-04", "factors"),
     ],
     "wrong_code.xlsx": [("not-in-codebook", "D3", "R-02", "behaviour")],
+    "cached_formula.xlsx": [],
+    "ragged.csv": [("unknown-column", "J1", None, None)],
+    "long_ragged.csv": [("unknown-variable", "C3", "R-01", None)],
     "columns.csv": [
         ("unknown-column", "G1", None, None),
         ("missing-column", None, None, "distance_m"),
@@ -189,6 +192,15 @@ def test_values_read_from_the_cells_sheet(cb):
         assert value[(unit, name)] is None  # invalid cells reach no statistic
 
 
+def test_cached_formula_result_and_ragged_rows_are_read(cb):
+    cached = _read(cb, "cached_formula.xlsx").frame.set_index(["unit", "variable"])["value"]
+    assert cached[("R-01", "behaviour")] == 2  # the stored result of =1+1
+    ragged = _read(cb, "ragged.csv").frame.set_index(["unit", "variable"])["value"]
+    assert ragged[("R-01", "behaviour")] == 2
+    assert ragged[("R-01", "trail")] is None  # cells after the row's end are blank
+    assert ragged[("R-02", "trail")] == "S"
+
+
 def test_code_na_in_csv_is_kept(cb, tmp_path):
     sheet = tmp_path / "ana.csv"
     sheet.write_text(
@@ -241,6 +253,8 @@ BYTE_STABLE = {
     "corrupt.xlsx",
     "latin1.csv",
     "dates.csv",
+    "ragged.csv",
+    "long_ragged.csv",
     "columns.csv",
     "header_only.csv",
     "skip_logic.csv",

@@ -118,6 +118,13 @@ def read_csv(path: Path) -> RawTable:
         return _empty(path.name, None, typed=False)
     width = max([len(header), *(len(r.cells) for r in rows)])
     header = header + ("",) * (width - len(header))
+    # a short row (a line with fewer separators than the header) has blank cells at its end
+    rows = [
+        RawRow(r.number, r.cells + (None,) * (width - len(r.cells)), r.line)
+        if len(r.cells) < width
+        else r
+        for r in rows
+    ]
     return RawTable(
         path.name,
         None,

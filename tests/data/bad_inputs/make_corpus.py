@@ -189,6 +189,33 @@ def wrong_code_xlsx() -> bytes:
     return workbook_bytes(_workbook({"coding": rows}))
 
 
+def cached_formula_xlsx() -> bytes:
+    """D2 holds the formula 1+1 with its stored result 2, as a spreadsheet program saves it."""
+    formula = b'<c r="D2"><f>1+1</f><v>2</v></c>'
+    source = zipfile.ZipFile(io.BytesIO(workbook_bytes(_workbook({"coding": [HEADER, *CLEAN]}))))
+    entries = []
+    for info in source.infolist():
+        data = source.read(info.filename)
+        if info.filename == "xl/worksheets/sheet1.xml":
+            assert b'<c r="D2" t="n"><v>2</v></c>' in data
+            data = data.replace(b'<c r="D2" t="n"><v>2</v></c>', formula)
+        entries.append((info.filename, data))
+    return _zip(entries)
+
+
+def ragged_csv() -> bytes:
+    """Row 2 (R-01) stops after behaviour; row 3 (R-02) has a tenth cell under no header (J)."""
+    text = _csv_text([HEADER, CLEAN[0][:4], [*CLEAN[1], "extra"]])
+    return text.encode("utf-8")
+
+
+def long_ragged_csv() -> bytes:
+    """A long table whose row 3 stops after the coder (no variable, no value)."""
+    return _csv_text(
+        [["unit", "coder", "variable", "value"], ["R-01", "ana", "animal", "1"], ["R-01", "ana"]]
+    ).encode("utf-8")
+
+
 def columns_csv() -> bytes:
     """A typo in a header (distnce_m, G1), hence no distance_m column, and R-01 twice (A4)."""
     header = [h if h != "distance_m" else "distnce_m" for h in HEADER]
@@ -304,6 +331,9 @@ CASES: dict[str, Callable[[], bytes]] = {
     "cells.xlsx": cells_xlsx,
     "dates.csv": dates_csv,
     "wrong_code.xlsx": wrong_code_xlsx,
+    "cached_formula.xlsx": cached_formula_xlsx,
+    "ragged.csv": ragged_csv,
+    "long_ragged.csv": long_ragged_csv,
     "columns.csv": columns_csv,
     "empty.xlsx": empty_xlsx,
     "header_only.csv": header_only_csv,
