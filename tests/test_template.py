@@ -331,3 +331,21 @@ def test_cli_usage_errors_exit_2(tmp_path):
         == 2
     )
     assert runner.invoke(app, [*base]).exit_code == 2  # --coders is required
+
+
+def test_limits_refuse_outside_values_when_no_missing_code_needs_them(tmp_path, codebook):
+    # conftest's codebook: visitors is a count 0..100 without missing codes; distance_m has -1
+    (path,) = write_templates(codebook, ["eve"], tmp_path)
+    ws = openpyxl.load_workbook(path)[CODING_SHEET]
+    letters = _header(ws)
+    dvs = {
+        str(dv.sqref).split(":")[0].rstrip("0123456789"): dv
+        for dv in ws.data_validations.dataValidation
+    }
+    visitors = dvs[letters["visitors"]]
+    assert (visitors.type, visitors.formula1, visitors.formula2) == ("whole", "0", "100")
+    assert visitors.errorStyle == "stop"
+    assert dvs[letters["distance_m"]].errorStyle == "warning"
+    # no unit list: validations still cover DEFAULT_ROWS rows below the header
+    assert str(visitors.sqref) == f"{letters['visitors']}2:{letters['visitors']}501"
+    assert ws.max_row == 1
