@@ -137,7 +137,9 @@ def choices(variable: Variable) -> list[str]:
 
 
 def _number(value: float) -> str:
-    return f"{value:g}"
+    """A limit as a spreadsheet formula text: ``60``, ``-20``, ``0.5``, ``1234567`` (never 1e6)."""
+    value = float(value)
+    return str(int(value)) if value.is_integer() else repr(value)
 
 
 def _missing_text(variable: Variable) -> str:

@@ -349,3 +349,12 @@ def test_limits_refuse_outside_values_when_no_missing_code_needs_them(tmp_path, 
     # no unit list: validations still cover DEFAULT_ROWS rows below the header
     assert str(visitors.sqref) == f"{letters['visitors']}2:{letters['visitors']}501"
     assert ws.max_row == 1
+
+
+def test_large_and_fractional_limits_are_written_in_full(tmp_path):
+    income = Variable("fine_paid", "ratio", range=(0.5, 2_500_000.0))
+    cb = Codebook(title="t", unit="unit", variables=(income,))
+    (path,) = write_templates(cb, ["fay"], tmp_path)
+    (dv,) = openpyxl.load_workbook(path)[CODING_SHEET].data_validations.dataValidation
+    assert (dv.type, dv.formula1, dv.formula2) == ("decimal", "0.5", "2500000")
+    assert "from 0.5 to 2500000" in dv.prompt
