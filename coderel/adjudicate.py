@@ -459,10 +459,13 @@ def build_adjudication(
         problems.extend(previous.problems)
     rows: list[AdjudicationRow] = []
     kept = added = 0
+    changed: list[int] = []
     for row in current:
         old = old_rows.get(row.key) or old_retired.get(row.key)
         if old is not None:
             kept += 1
+            if old.decided and {c: v for c, v in old.values.items() if v} != dict(row.values):
+                changed.append(len(rows))
             row = AdjudicationRow(
                 unit=row.unit,
                 variable=row.variable,
@@ -513,7 +516,28 @@ def build_adjudication(
         moved=moved,
     )
     problems.extend(check_decisions(adjudication))
+    problems.extend(_changed_since_decision(adjudication, changed))
     return adjudication
+
+
+def _changed_since_decision(adjudication: Adjudication, indexes: Sequence[int]) -> Problems:
+    """``stale-decision`` warnings for kept decisions whose coders' values have changed."""
+    problems = Problems()
+    headers = main_columns(adjudication.coders, adjudication.text_columns)
+    col = _letter(headers.index("decision") + 1)
+    for i in indexes:
+        row = adjudication.rows[i]
+        problems.add(
+            "stale-decision",
+            "the coders' values changed since this decision was made; it is kept, check it",
+            hint="read the coders' new values on the list; change the decision if it no longer "
+            "holds",
+            sheet=MAIN_SHEET,
+            cell=f"{col}{i + 2}",
+            unit=row.unit,
+            variable=row.variable,
+        )
+    return problems
 
 
 def check_decisions(adjudication: Adjudication, file: str | None = None) -> Problems:

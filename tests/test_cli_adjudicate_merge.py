@@ -106,15 +106,21 @@ def test_decisions_kept_across_regeneration(project):
     fill(adj, {("R1", "species"): "2 = Elk", ("R1", "spray_worked"): "1"})
     # bob fixes spray_worked; a new unit R4 arrives on which the coders disagree
     (sheets / "bob.csv").write_text(BOB.replace("1;3,2", "1;3,1") + "R4,x,1,1,\n")
-    (sheets / "ann.csv").write_text(ANN + "R4,x,3,1,\n")
+    # ann changes her species code of R1: still a disagreement, but not the one decided on
+    (sheets / "ann.csv").write_text(ANN.replace("A0,1,1;3", "A0,3,1;3") + "R4,x,3,1,\n")
     res = invoke("adjudicate", "-c", cb, sheets, "-o", adj, "--json")
     assert res.exit_code == 0, res.output
     second = json.loads(res.stdout)
     assert (second["kept"], second["added"], second["moved"]) == (1, 1, 1)
     again = read_adjudication(adj, load_codebook(cb))
-    assert [(r.unit, r.variable, r.decision) for r in again.rows] == [
-        ("R1", "species", "2 = Elk"),
-        ("R4", "species", None),
+    assert [(r.unit, r.variable, r.decision, r.values["ann"]) for r in again.rows] == [
+        ("R1", "species", "2 = Elk", "3 = Cougar"),
+        ("R4", "species", None, "3 = Cougar"),
+    ]
+    header = [c.value for c in load_workbook(adj)["to decide"][1]]
+    letter = chr(ord("A") + header.index("decision"))
+    assert [(p["code"], p["file"], p["cell"], p["severity"]) for p in second["problems"]] == [
+        ("stale-decision", "adj.xlsx", f"{letter}2", "warning")
     ]
     assert [(r.key, r.decision, r.reason) for r in again.retired] == [
         ("R1|spray_worked", "1", "coders now agree")

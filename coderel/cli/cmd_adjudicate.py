@@ -2,13 +2,19 @@
 
 from __future__ import annotations
 
+from dataclasses import replace
 from pathlib import Path
 from typing import Annotated
 
 import typer
 from rich.table import Table
 
-from coderel.adjudicate import build_adjudication, check_decisions, write_adjudication
+from coderel.adjudicate import (
+    MAIN_SHEET,
+    build_adjudication,
+    check_decisions,
+    write_adjudication,
+)
 from coderel.cli.app import app
 from coderel.cli.common import (
     CodebookOption,
@@ -62,7 +68,12 @@ def adjudicate_command(
     previous = out if out.exists() else None
     adjudication = build_adjudication(codings, previous)
     write_adjudication(adjudication, out)
-    problems = Problems(p for p in adjudication.problems if p.code != "bad-decision")
+    sheet = None if out.suffix.lower() == ".csv" else MAIN_SHEET
+    problems = Problems(
+        replace(p, file=out.name, sheet=sheet if p.sheet == MAIN_SHEET else p.sheet)
+        for p in adjudication.problems
+        if p.code != "bad-decision"
+    )
     problems.extend(check_decisions(adjudication, file=out.name))
     summary = adjudication.summary()
     decided = int(summary["decided"].sum())
