@@ -386,3 +386,41 @@ def test_mixed_number_and_text_codes_stored_as_text(tmp_path):
     assert r.frame["light_status"].tolist() == ["agreed", "agreed"]
     write_merged(r, tmp_path / "m.parquet")
     assert pd.read_parquet(tmp_path / "m.parquet")["light"].tolist() == ["1", "unknown"]
+
+
+@settings(max_examples=40, deadline=None)
+@given(
+    st.lists(
+        st.tuples(codes, st.sampled_from([(1,), (1, 3)]), st.sampled_from([1, 2, None])),
+        min_size=1,
+        max_size=6,
+    ),
+    st.lists(
+        st.tuples(codes, st.sampled_from([(1,), (1, 3)]), st.sampled_from([1, 2, None])),
+        min_size=6,
+        max_size=6,
+    ),
+    st.permutations(["ann", "bob", "cai"]),
+    st.sampled_from(["unanimous", "majority"]),
+)
+def test_merge_does_not_depend_on_coder_names_or_row_order(first, second, names, rule):
+    """Property (house style 8): renaming coders or shuffling rows leaves the dataset unchanged."""
+    rows = {
+        "ann": {f"R{i}": (*v, 5.0) for i, v in enumerate(first)},
+        "bob": {f"R{i}": (*v, 5.0) for i, v in enumerate(second)},
+        "cai": {f"R{i}": (*v, 5.0) for i, v in enumerate(reversed(second))},
+    }
+    base = merge(make(rows), rule=rule)
+    renamed = {new: rows[old] for old, new in zip(["ann", "bob", "cai"], names, strict=True)}
+    shuffled = make(renamed)
+    shuffled = type(shuffled).from_records(CB, shuffled.frame.iloc[::-1].reset_index(drop=True))
+    other = merge(shuffled, rule=rule)
+    pd.testing.assert_frame_equal(base.frame, other.frame)
+    assert base.status_counts == other.status_counts
+
+
+def test_a_single_coder_gives_single_or_not_applicable():
+    r = merge(make({"ann": {"R1": (1, (1,), None, 5.0), "R2": (2, (3,), 1, None)}}))
+    assert r.frame["species_status"].tolist() == ["single", "single"]
+    assert r.frame["spray_worked_status"].tolist() == ["not_applicable", "single"]
+    assert r.frame["distance_m_status"].tolist() == ["single", "unresolved"]  # a blank

@@ -27,7 +27,7 @@ from coderel.errors import ExitCode, UsageError
 from coderel.io.atomic import refuse_overwriting_inputs
 from coderel.io.read import collect_files, read_codings
 from coderel.io.tables import table_format
-from coderel.merge import RULES, STATUSES, Rule, merge, write_merged
+from coderel.merge import RULES, STATUSES, MergeResult, Rule, merge, write_merged
 from coderel.problems import Problems
 
 #: At most this many unresolved cells are listed on the terminal (--json lists every one).
@@ -124,7 +124,7 @@ def merge_command(
     return ExitCode.OK
 
 
-def _print_statuses(result) -> None:
+def _print_statuses(result: MergeResult) -> None:
     table = Table(title=f"Status of every cell (rule: {result.rule})")
     table.add_column("variable")
     for s in STATUSES:
