@@ -498,8 +498,8 @@ def _notes(
     fk = coefs.get("fleiss_kappa")
     if fk is not None and fk.estimate is not None and fleiss_units < pairable_units:
         notes.append(
-            f"Fleiss' kappa uses the {fleiss_units} units coded by every coder; its standard "
-            "error holds only under kappa = 0 (Fleiss, Nee & Landis 1979) and serves the z test"
+            f"Fleiss' kappa: the {fleiss_units} of {pairable_units} units coded by every coder; "
+            "its SE holds under kappa = 0 only (for the z test)"
         )
     if t.kind == "variable" and t.var.multiple:
         notes.append(
