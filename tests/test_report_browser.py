@@ -24,15 +24,8 @@ from coderel.report import build_report, write_report
 ROOT = Path(__file__).resolve().parents[1]
 CB = ROOT / "sample_codebooks" / "wildlife_encounters.yaml"
 OUTPUT = ROOT / "test-output"
-#: The demo's decisions file, shipped beside the sample codebook (older trees kept it in demo/).
-DECISIONS = next(
-    p
-    for p in (
-        ROOT / "sample_decisions" / "wildlife_encounters.xlsx",
-        ROOT / "demo" / "decisions.xlsx",
-    )
-    if p.exists()
-)
+#: The demo's decisions, shipped beside the sample codebook.
+DECISIONS = ROOT / "sample_decisions" / "wildlife_encounters.xlsx"
 
 
 def _chromium() -> str | None:

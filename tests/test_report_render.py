@@ -31,15 +31,8 @@ from coderel.report.sections import SECTIONS, section_frames
 ROOT = Path(__file__).resolve().parents[1]
 CB = ROOT / "sample_codebooks" / "wildlife_encounters.yaml"
 SHEETS = ROOT / "demo" / "sheets"
-#: The demo's decisions file, shipped beside the sample codebook (older trees kept it in demo/).
-DECISIONS = next(
-    p
-    for p in (
-        ROOT / "sample_decisions" / "wildlife_encounters.xlsx",
-        ROOT / "demo" / "decisions.xlsx",
-    )
-    if p.exists()
-)
+#: The demo's decisions, shipped beside the sample codebook.
+DECISIONS = ROOT / "sample_decisions" / "wildlife_encounters.xlsx"
 REPLICATES = 200
 DATE = "2026-12-02"
 runner = CliRunner()
@@ -206,8 +199,16 @@ def test_same_inputs_same_bytes(demo, tmp_path):
         assert pa.read_bytes() == pb.read_bytes(), pa.name
 
 
+def _digests() -> dict[str, str]:
+    import hashlib
+
+    files = [CB, DECISIONS, *sorted(SHEETS.iterdir())]
+    return {p.name: hashlib.sha256(p.read_bytes()).hexdigest() for p in files}
+
+
 def test_cli_writes_three_forms_and_prints_paths(tmp_path):
     out = tmp_path / "report.html"
+    before = _digests()
     result = runner.invoke(
         app,
         [
@@ -228,6 +229,8 @@ def test_cli_writes_three_forms_and_prints_paths(tmp_path):
         ],
     )
     assert result.exit_code == 0, result.stderr
+    assert _digests() == before  # inputs are never changed
+    assert not list(tmp_path.rglob("*.tmp"))  # no temporary file left behind
     printed = result.stdout.split()
     for name in ("report.html", "report.md", "report.xlsx"):
         assert str(tmp_path / name) in printed

@@ -103,6 +103,10 @@ def sections(content: ReportContent) -> tuple[Section, ...]:
     return tuple(s for s in SECTIONS if s.key != "adjudication" or content.adjudication is not None)
 
 
+def _s(n: int) -> str:
+    return "" if n == 1 else "s"
+
+
 def level_text(content: ReportContent) -> str:
     """``95%``: the interval level."""
     return f"{round(content.reproducibility.ci_level * 100)}%"
@@ -127,7 +131,7 @@ def summary_rows(content: ReportContent) -> list[tuple[str, str]]:
         (
             "Variables",
             f"{s.variables}"
-            + (f" (and {extra} applicability rows for skip logic)" if extra else ""),
+            + (f" (and {extra} applicability row{_s(extra)} for skip logic)" if extra else ""),
         ),
         ("Reliable", f"{counts.get('reliable', 0)} (α ≥ {th_r})"),
         ("Tentative", f"{counts.get('tentative', 0)} ({th_t} ≤ α < {th_r})"),
