@@ -657,3 +657,19 @@ def test_interval_alpha_does_not_depend_on_the_unit_of_measurement(data, unit, s
     got = build_plan(index, scale).point("krippendorff_alpha")
     ref = krippendorff.alpha(reliability_data=as_number.T, level_of_measurement="interval")
     assert got == pytest.approx(ref, abs=1e-8)
+
+
+@FAST
+@given(many_coders(missing=True), st.sampled_from([0.0, 1e3, 1e6, 1e7, 1e9]))
+def test_ratio_alpha_with_large_numbers_is_not_taken_for_no_variation(data, base):
+    # Ratio distances between large numbers are tiny but not zero; alpha stays defined and equal
+    # to the krippendorff package's value.
+    _k, x = data
+    assume(_pairable_distinct(x) >= 2)
+    as_number = np.where(x >= 0, base + 1.0 + x, np.nan)
+    observed = np.unique(as_number[x >= 0])
+    index = np.where(x >= 0, np.searchsorted(observed, np.nan_to_num(as_number)), -1)
+    scale = Scale("numeric", "ratio", len(observed), values=observed)
+    got = build_plan(index, scale).point("krippendorff_alpha")
+    ref = krippendorff.alpha(reliability_data=as_number.T, level_of_measurement="ratio")
+    assert got == pytest.approx(ref, abs=1e-8)

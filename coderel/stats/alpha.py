@@ -21,9 +21,19 @@ from __future__ import annotations
 import numpy as np
 
 
-def _alpha(n: np.ndarray, d_sum: np.ndarray, expected: np.ndarray) -> np.ndarray:
+def _alpha(
+    n: np.ndarray, d_sum: np.ndarray, expected: np.ndarray, tolerance: float = 1e-12
+) -> np.ndarray:
+    """1 - (n - 1) * summed unit disagreement / expected; ``nan`` with fewer than two values or
+    no expected disagreement (expected <= tolerance * n^2).
+
+    ``tolerance`` absorbs rounding where ``expected`` comes from a difference of sums (the
+    interval moments). Where ``expected`` is a sum of non-negative terms that is exactly zero
+    without variation (a fixed distance matrix and integer counts) pass 0, so that distances
+    that are merely small (ratio distances between large numbers) are not taken for none.
+    """
     out = np.full(np.shape(n), np.nan)
-    ok = (n >= 2) & (expected > 1e-12 * np.maximum(n, 1.0) ** 2)
+    ok = (n >= 2) & (expected > tolerance * np.maximum(n, 1.0) ** 2)
     out[ok] = 1.0 - (n[ok] - 1.0) * d_sum[ok] / expected[ok]
     return out
 
@@ -38,7 +48,7 @@ def alpha_with_metric(counts: np.ndarray, d_sum: np.ndarray, delta: np.ndarray) 
     """Alpha with a fixed distance matrix ``delta`` (K x K) over the value domain."""
     n = counts.sum(axis=1)
     expected = np.einsum("rk,rk->r", counts @ delta, counts)
-    return _alpha(n, d_sum, expected)
+    return _alpha(n, d_sum, expected, tolerance=0.0)
 
 
 def ordinal_deltas(counts: np.ndarray, iu: tuple[np.ndarray, np.ndarray]) -> np.ndarray:
