@@ -337,3 +337,19 @@ def test_date_like_text_is_a_date_only_when_it_is_no_code():
     assert normalise_cell(months, "May-1", typed=False).value == "May-1"
     found = normalise_cell(months, "May-2", typed=False).findings
     assert [f.code for f in found] == ["date-converted"]
+
+
+def test_a_notes_sheet_beside_the_coding_sheet_is_reported_with_a_way_out(cb, tmp_path):
+    template = tmp_path / "ana.xlsx"
+    template.write_bytes((DATA / "wrong_code.xlsx").read_bytes())
+    wb = openpyxl.load_workbook(template)
+    wb.create_sheet("notes").append(["R-02: check the elk's behaviour"])
+    wb.save(template)
+    problems = [p for p in read_codings(cb, [template]).problems if p.sheet == "notes"]
+    assert [p.code for p in problems] == ["unknown-column", "missing-unit-column"]
+    assert "hide it" in problems[1].hint
+    wb["notes"].sheet_state = "hidden"
+    wb.save(template)
+    codings = read_codings(cb, [template])
+    assert codings.coders == ["ana"]
+    assert [p.code for p in codings.problems] == ["not-in-codebook"]

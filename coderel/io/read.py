@@ -311,7 +311,13 @@ class _Reader:
             self.problems.add(
                 "missing-unit-column",
                 f"no column is headed {cb.unit!r} (the codebook's unit ID column)",
-                hint=f"add a column {cb.unit!r} holding each unit's ID",
+                hint=f"add a column {cb.unit!r} holding each unit's ID"
+                + (
+                    "; if this sheet holds no coding data, hide it (hidden sheets and a sheet "
+                    "named 'codebook' are not read)"
+                    if table.sheet is not None
+                    else ""
+                ),
                 file=table.file,
                 sheet=table.sheet,
                 line=table.header_line,
