@@ -275,3 +275,32 @@ def test_markdown_text_cannot_become_html_or_a_link():
     assert md("[x](javascript:alert(1))") == "[x]\\(javascript:alert(1))"
     assert md("<img src=x>") == "&lt;img src=x&gt;"
     assert md("a|b *c*\nd") == "a\\|b \\*c\\* d"
+
+
+def test_undefined_alpha_is_said_in_words_not_as_a_number(codebook):
+    """Alpha is 0/0 when every pairable value is the same (Krippendorff, 2011, p. 3: D_e = 0)."""
+    import datetime as dt
+
+    from coderel.codings import Codings
+
+    records = [
+        {"unit": f"U{u}", "coder": c, "variable": var, "value": value}
+        for u in range(12)
+        for c in ("a", "b")
+        for var, value in (("animal", 1), ("behaviour", u % 3 + 1))
+    ]
+    codings = Codings.from_records(codebook, records)
+    result = agreement(codings, replicates=50)
+    content = build_report(codings, result, generated=dt.datetime(2026, 1, 1, tzinfo=dt.UTC))
+    animal = next(r for r in content.table if r.variable == "animal")
+    assert animal.alpha.estimate is None
+    assert animal.verdict == "undefined"
+    paragraph = content.methods.paragraph
+    assert "Alpha was undefined for animal" in paragraph
+    assert "every pairable value is the same" in paragraph
+    assert "behaviour, α = 1.00" in paragraph
+    html = render_html(content)
+    assert 'id="row-animal"' in html
+    assert 'id="chart-animal"' in html  # the chart says "undefined" where the dot would be
+    assert "no-variation" not in html  # the engine's slug is put into words
+    assert "2 coders" in html

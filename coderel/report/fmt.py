@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from coderel.report.methods_text import fmt_coef, fmt_interval
+from coderel.report.methods_text import fmt_coef, fmt_interval, reason_text
 from coderel.report.model import Coefficient
 
 #: Coefficients shown as percentages rather than as bounded coefficients.
@@ -37,7 +37,7 @@ def coef_interval(c: Coefficient) -> str:
 def coef_full(c: Coefficient) -> str:
     """Estimate and interval in one string, or ``undefined (reason)``."""
     if c.estimate is None:
-        return f"undefined ({c.reason})" if c.reason else "undefined"
+        return f"undefined ({reason_text(c.reason)})" if c.reason else "undefined"
     interval = coef_interval(c)
     return f"{coef_value(c)} {interval}".strip()
 

@@ -90,7 +90,8 @@ table.kv th { width: 11rem; background: transparent; font-weight: 600; }
 td.coef { white-space: nowrap; font-variant-numeric: tabular-nums; padding: .3rem .35rem; }
 table.coefficients { font-size: .8rem; }
 table.coefficients th { padding: .3rem .35rem; }
-td.coef .ci, td.coef .se { display: block; color: var(--muted); font-size: .78rem; }
+td.coef .ci, td.coef .se, td.coef .why { display: block; color: var(--muted); font-size: .78rem; }
+td.coef .why { white-space: normal; min-width: 7rem; font-size: .72rem; line-height: 1.3; }
 figure { margin: .6rem 0 1rem; background: #fff; border: 1px solid var(--line);
   border-radius: 6px; padding: .7rem; }
 figcaption { font-size: .82rem; color: var(--muted); margin-top: .4rem; }
@@ -231,9 +232,7 @@ def _agreement(content: ReportContent) -> str:
         label = (
             f'<span class="label">{_e(r["label"])}</span>' if r["label"] != r["variable"] else ""
         )
-        notes = r["notes"]
-        if r["reason"]:
-            notes = f"alpha undefined: {r['reason']}" + (f"; {notes}" if notes else "")
+        notes = r["notes"] or r["reason"]
         cells = [
             f'<th scope="row">{_e(r["variable"])}{tag}{label}</th>',
             f"<td>{_e(r['level'])}</td>",
@@ -264,8 +263,10 @@ def _agreement(content: ReportContent) -> str:
     for r in content.table:
         cells = [f'<th scope="row">{_e(r.variable)}</th>']
         for k in keys:
-            value, interval, se = coefficient_parts(r, k)
+            value, interval, se, why = coefficient_parts(r, k)
             parts = [f"<span>{_e(value)}</span>"]
+            if why:
+                parts.append(f'<span class="why">{_e(why)}</span>')
             if interval:
                 parts.append(f'<span class="ci">{_e(interval)}</span>')
             if se:

@@ -71,9 +71,7 @@ def _agreement(content: ReportContent, _charts: Mapping[str, str]) -> list[str]:
     body = []
     for r in rows:
         name = r["variable"] + (" (applicability)" if r["kind"] != "variable" else "")
-        notes = r["notes"]
-        if r["reason"]:
-            notes = f"alpha undefined: {r['reason']}" + (f"; {notes}" if notes else "")
+        notes = r["notes"] or r["reason"]
         line = [name, r["label"], r["level"], r["units"], r["coders"], r["alpha"], r["interval"]]
         line += [r["se"]] if show_se else []
         line += [r["verdict"], notes]

@@ -139,6 +139,28 @@ def number_word(n: int, *, capital: bool = False) -> str:
     return word[:1].upper() + word[1:] if capital else word
 
 
+def _count(n: int, *, capital: bool = False) -> str:
+    """``none`` for zero in counts of variables, else :func:`number_word`."""
+    if n == 0:
+        return "None" if capital else "none"
+    return number_word(n, capital=capital)
+
+
+#: Reasons of the report's own that the engine's list does not name.
+_MORE_REASONS: dict[str, str] = {
+    "too-few-units": "too few units with values from two or more coders for an interval",
+}
+
+
+def reason_text(reason: str | None) -> str:
+    """Plain words for an engine's reason slug (``no-variation`` -> a sentence fragment)."""
+    from coderel.stats.undefined import describe
+
+    if not reason:
+        return ""
+    return _MORE_REASONS.get(reason) or describe(reason)
+
+
 def alpha_phrase(estimate: float | None, low: float | None, high: float | None, level: int) -> str:
     """``α = .84, 95% CI [.79, .88]``."""
     text = f"α = {fmt_coef(estimate)}"
@@ -214,9 +236,9 @@ def methods_text(
         th_r = fmt_coef(rows[0].reliable, 3) if rows else ".800"
         th_t = fmt_coef(rows[0].tentative, 3) if rows else ".667"
         s.append(
-            f"{number_word(reliable, capital=True)} of {number_word(len(rows))} variables reached "
-            f"α ≥ {th_r}, {number_word(tentative)} reached only α ≥ {th_t} (acceptable for "
-            f"tentative conclusions) and {number_word(below)} fell below {th_t}; these "
+            f"{_count(reliable, capital=True)} of {number_word(len(rows))} variables reached "
+            f"α ≥ {th_r}, {_count(tentative)} reached only α ≥ {th_t} (acceptable for "
+            f"tentative conclusions) and {_count(below)} fell below {th_t}; these "
             "thresholds are conventions of the field (Krippendorff, 2004), not statistical tests."
         )
         parts = [
@@ -224,13 +246,20 @@ def methods_text(
             for r, a in defined
         ]
         s.append("Per variable: " + "; ".join(parts) + ".")
+        no_ci = [r.variable for r, a in defined if a.ci_low is None or a.ci_high is None]
+        if repro.replicates and no_ci:
+            s.append(
+                f"No interval is given for {_join(no_ci)}: too few units held values from two "
+                "or more coders."
+            )
     undefined = [r for r in rows if r.alpha is None or r.alpha.estimate is None]
     if undefined:
-        parts = []
+        groups: dict[str, list[str]] = {}
         for r in undefined:
-            reason = r.alpha.reason if r.alpha is not None and r.alpha.reason else "no variation"
-            parts.append(f"{r.variable} ({reason})")
-        s.append("Alpha was undefined for " + _join(parts) + ".")
+            reason = r.alpha.reason if r.alpha is not None and r.alpha.reason else "no-variation"
+            groups.setdefault(reason_text(reason), []).append(r.variable)
+        parts = [f"{_join(names)}: {why}" for why, names in groups.items()]
+        s.append("Alpha was undefined for " + "; and for ".join(parts) + ".")
     s.append(
         "Agreement between coders shows that the codebook was applied consistently; it does not "
         "show that the codes are valid measures of what they are meant to capture."

@@ -11,8 +11,8 @@ from dataclasses import dataclass
 
 import pandas as pd
 
-from coderel.report.fmt import coef_full, coef_interval, coef_value, pct, plain
-from coderel.report.methods_text import fmt_coef
+from coderel.report.fmt import coef_interval, coef_value, pct, plain
+from coderel.report.methods_text import fmt_coef, reason_text
 from coderel.report.model import COEFFICIENTS, STATUSES, ReportContent, VariableRow
 
 
@@ -177,26 +177,28 @@ def agreement_rows(content: ReportContent) -> list[dict[str, str]]:
                 "se": fmt_coef(a.se, 3) if a is not None and a.se is not None else "",
                 "verdict": r.verdict,
                 "notes": "; ".join(r.notes),
-                "reason": (a.reason or "") if a is not None and a.estimate is None else "",
+                "reason": reason_text(a.reason) if a is not None and a.estimate is None else "",
             }
         )
     return out
 
 
-def coefficient_parts(row: VariableRow, key: str) -> tuple[str, str, str]:
-    """One coefficient of one row as text: (estimate or ``undefined (why)``, interval, SE)."""
+def coefficient_parts(row: VariableRow, key: str) -> tuple[str, str, str, str]:
+    """One coefficient of one row as text: (estimate or ``undefined``, interval, SE, why)."""
     c = row.coefficient(key)
     if c is None:
-        return "–", "", ""
+        return "–", "", "", ""
     if c.estimate is None:
-        return coef_full(c), "", ""
+        return "undefined", "", "", reason_text(c.reason)
     se = fmt_coef(c.se, 3) if c.se is not None else ""
-    return coef_value(c), coef_interval(c), se
+    return coef_value(c), coef_interval(c), se, ""
 
 
 def coefficient_cell(row: VariableRow, key: str) -> str:
     """One coefficient of one row as ``.842 [.791, .880] SE .023`` (or ``undefined (why)``)."""
-    value, interval, se = coefficient_parts(row, key)
+    value, interval, se, why = coefficient_parts(row, key)
+    if why:
+        return f"{value} ({why})"
     return " ".join(x for x in (value, interval, f"SE {se}" if se else "") if x)
 
 
