@@ -8,18 +8,15 @@ saves a full-page screenshot to ``test-output/report.png``.
 
 from __future__ import annotations
 
-import datetime as dt
+import json
 import shutil
 from pathlib import Path
 
 import pytest
+from playwright.sync_api import sync_playwright
+from typer.testing import CliRunner
 
-from coderel.adjudicate import read_decisions
-from coderel.agree import agreement
-from coderel.codebook.load import load_codebook
-from coderel.io.read import read_codings
-from coderel.merge import merge
-from coderel.report import build_report, write_report
+from coderel.cli import app
 
 ROOT = Path(__file__).resolve().parents[1]
 CB = ROOT / "sample_codebooks" / "wildlife_encounters.yaml"
@@ -40,35 +37,50 @@ def test_demo_report_in_headless_chromium(tmp_path):
     executable = _chromium()
     if executable is None:
         pytest.skip("no Chromium executable found (make browser installs the system package)")
-    sync_api = pytest.importorskip("playwright.sync_api")
 
-    cb = load_codebook(CB)
-    codings = read_codings(cb, [ROOT / "demo" / "sheets"])
-    result = agreement(codings, replicates=200)
-    merged = merge(codings, read_decisions(DECISIONS, cb))
-    content = build_report(
-        codings, result, merged, generated=dt.datetime(2026, 12, 2, tzinfo=dt.UTC)
+    page_path = tmp_path / "report.html"
+    # The page as `coderel report` writes it (with the decisions, so every section is present).
+    result = CliRunner().invoke(
+        app,
+        [
+            "report",
+            "--codebook",
+            str(CB),
+            str(ROOT / "demo" / "sheets"),
+            "--decisions",
+            str(DECISIONS),
+            "--replicates",
+            "200",
+            "--date",
+            "2026-12-02",
+            "--json",
+            "-o",
+            str(page_path),
+        ],
     )
-    page_path = write_report(content, tmp_path / "report.html")[0]
+    assert result.exit_code == 0, result.stderr
+    content = json.loads(result.stdout)
     page_url = page_path.resolve().as_uri()
 
     requests: list[str] = []
     errors: list[str] = []
-    with sync_api.sync_playwright() as p:
+    with sync_playwright() as p:
         browser = p.chromium.launch(executable_path=executable, args=["--no-sandbox"])
         try:
             page = browser.new_page(viewport={"width": 1280, "height": 900})
             page.on("request", lambda r: requests.append(r.url))
             page.on("pageerror", lambda e: errors.append(str(e)))
             page.goto(page_url, wait_until="load")
-            for row in content.table:
-                assert page.locator(f"#{row.row_id}").is_visible(), row.variable
-                mark = page.locator(f"#{row.chart_id}")
-                assert mark.count() == 1, row.variable
-                assert mark.is_visible(), row.variable
-            for panel in content.categories:
-                if panel.matrix is not None:
-                    assert page.locator(f"#{panel.heatmap_id}").is_visible(), panel.variable
+            assert len(content["table"]) == 11  # ten variables and one applicability row
+            for row in content["table"]:
+                assert page.locator(f"#{row['id']}").is_visible(), row["variable"]
+                mark = page.locator(f"#{row['chart_id']}")
+                assert mark.count() == 1, row["variable"]
+                assert mark.is_visible(), row["variable"]
+            for panel in content["categories"]:
+                if panel["matrix"] is not None:
+                    heat = page.locator(f"#{panel['heatmap_id']}")
+                    assert heat.is_visible(), panel["variable"]
             for key in ("summary", "agreement", "intervals", "coders", "adjudication", "methods"):
                 assert page.locator(f"section#{key}").is_visible(), key
             # The page is no wider than the window: tables scroll inside their own box.

@@ -247,10 +247,17 @@ class ReportContent:
         out = {
             "summary": {**asdict(self.summary), "completeness": self.summary.completeness},
             "table": [
-                {**asdict(r), "id": r.row_id, "coefficients": [asdict(c) for c in r.coefficients]}
+                {
+                    **asdict(r),
+                    "id": r.row_id,
+                    "chart_id": r.chart_id,
+                    "coefficients": [asdict(c) for c in r.coefficients],
+                }
                 for r in self.table
             ],
-            "categories": [asdict(p) for p in self.categories],
+            "categories": [
+                {**asdict(p), "id": p.panel_id, "heatmap_id": p.heatmap_id} for p in self.categories
+            ],
             "coders": asdict(self.coders),
             "adjudication": None,
             "methods": asdict(self.methods),
@@ -275,6 +282,7 @@ class ReportContent:
                 "estimate": c.estimate,
                 "ci_low": c.ci_low,
                 "ci_high": c.ci_high,
+                "se": c.se,
                 "reason": c.reason,
                 "verdict": r.verdict,
             }
