@@ -360,6 +360,22 @@ def test_prevalence_paradox_is_flagged_in_words():
     assert not any("paradox" in note for note in v.notes)
 
 
+@pytest.mark.parametrize(
+    ("table", "p_pos", "p_neg"),
+    [([[40, 9], [6, 45]], 80 / 95, 90 / 105), ([[80, 10], [5, 5]], 160 / 175, 10 / 25)],
+)
+def test_specific_agreement_per_category(table, p_pos, p_neg):
+    # Cicchetti, D. V., & Feinstein, A. R. (1990). High agreement but low kappa: II. Resolving
+    # the paradoxes. J. Clin. Epidemiol., 43(6), 551-558: p_pos = 2a / (2a + b + c) and
+    # p_neg = 2d / (2d + b + c) for the table [[a, b], [c, d]]; on the skewed table p_neg falls
+    # to .40 while p_pos stays high, which is where the low kappa comes from.
+    a, b = _pairs_from_table(table)
+    codings = _codings([list(a + 1), list(b + 1)], {"present": "nominal"}, 2)
+    per_category = agreement(codings, replicates=0, seed=6).variable("present").category_agreement
+    assert per_category[1]["specific_agreement"] == pytest.approx(p_pos, abs=1e-12)
+    assert per_category[2]["specific_agreement"] == pytest.approx(p_neg, abs=1e-12)
+
+
 # --------------------------------------------------------------------------------------------
 # docs/coefficients.md documents every coefficient key and every reason the engine can give
 # --------------------------------------------------------------------------------------------

@@ -23,7 +23,7 @@ import numpy as np
 import pytest
 from hypothesis import assume, given, settings
 from hypothesis import strategies as st
-from sklearn.metrics import cohen_kappa_score
+from sklearn.metrics import cohen_kappa_score, confusion_matrix
 from statsmodels.stats.inter_rater import cohens_kappa, fleiss_kappa
 
 from coderel.agree import agreement
@@ -673,3 +673,42 @@ def test_ratio_alpha_with_large_numbers_is_not_taken_for_no_variation(data, base
     got = build_plan(index, scale).point("krippendorff_alpha")
     ref = krippendorff.alpha(reliability_data=as_number.T, level_of_measurement="ratio")
     assert got == pytest.approx(ref, abs=1e-8)
+
+
+# --------------------------------------------------------------------------------------------
+# the coder-by-coder table (--pairs) against scikit-learn and the krippendorff package
+# --------------------------------------------------------------------------------------------
+
+
+@SLOW
+@given(many_coders(min_coders=2, max_coders=4), st.sampled_from(["nominal", "ordinal"]))
+def test_pairs_match_references(data, level):
+    k, x = data
+    v = agreement(_codings(x, k, level), replicates=0, seed=1).variable("v")
+    coders = [f"c{c}" for c in range(x.shape[1])]
+    seen = set()
+    for pair in v.pairs:
+        i, j = coders.index(pair.coder_a), coders.index(pair.coder_b)
+        seen.add(frozenset((i, j)))
+        both = (x[:, i] >= 0) & (x[:, j] >= 0)
+        a, b = x[both, i], x[both, j]
+        assert pair.units == int(both.sum())
+        assert pair.percent_agreement == pytest.approx(float(np.mean(a == b)), abs=TOL)
+        ref_table = confusion_matrix(a, b, labels=list(range(k)))
+        assert np.array_equal(np.array(pair.confusion), ref_table)
+        if len(set(a) | set(b)) > 1:
+            ref = cohen_kappa_score(a, b, labels=list(range(k)))
+            assert pair.cohen_kappa == pytest.approx(ref, abs=TOL)
+            rel = np.where(x[:, [i, j]] >= 0, x[:, [i, j]], np.nan).T
+            ref_alpha = krippendorff.alpha(
+                rel, level_of_measurement=level, value_domain=list(range(k))
+            )
+            assert pair.krippendorff_alpha == pytest.approx(ref_alpha, abs=TOL)
+        else:
+            assert pair.cohen_kappa is None
+            assert pair.krippendorff_alpha is None
+    # Every pair of coders who share a unit is listed (in the engine's coder order).
+    for i in range(x.shape[1]):
+        for j in range(i + 1, x.shape[1]):
+            shared = bool(((x[:, i] >= 0) & (x[:, j] >= 0)).any())
+            assert (frozenset((i, j)) in seen) == shared
