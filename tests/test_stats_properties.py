@@ -17,6 +17,7 @@ The category list always comes from a codebook of ``k`` categories, some of whic
 from __future__ import annotations
 
 import warnings
+from pathlib import Path
 
 import krippendorff
 import numpy as np
@@ -28,7 +29,9 @@ from statsmodels.stats.inter_rater import cohens_kappa, fleiss_kappa
 
 from coderel.agree import agreement
 from coderel.codebook import Category, Codebook, Condition, Variable
+from coderel.codebook.load import load_codebook
 from coderel.codings import Codings
+from coderel.io.read import read_codings
 from coderel.stats.counts import confusion_table, value_counts
 from coderel.stats.kappa import agreement_weights, cohen_kappa_table
 from coderel.stats.plan import Scale, build_plan
@@ -712,3 +715,44 @@ def test_pairs_match_references(data, level):
         for j in range(i + 1, x.shape[1]):
             shared = bool(((x[:, i] >= 0) & (x[:, j] >= 0)).any())
             assert (frozenset((i, j)) in seen) == shared
+
+
+# --------------------------------------------------------------------------------------------
+# the demo project: every categorical variable's multi-coder coefficients against references
+# --------------------------------------------------------------------------------------------
+
+
+def test_demo_fleiss_and_light_match_statsmodels_and_sklearn():
+    root = Path(__file__).resolve().parents[1]
+    codings = read_codings(
+        load_codebook(root / "sample_codebooks" / "wildlife_encounters.yaml"),
+        [root / "demo" / "sheets"],
+    )
+    result = agreement(codings, replicates=0)
+    checked = 0
+    for var in codings.codebook.variables:
+        if not var.is_categorical or var.multiple:
+            continue
+        sub = codings.for_variable(var.name)
+        sub = sub[[a is not False for a in sub["applies"]]]
+        wide = sub.pivot(index="unit", columns="coder", values="value")
+        wide = wide.reindex(columns=codings.coders)
+        codes = list(var.codes)
+        x = np.array(
+            [[codes.index(v) if v is not None and v == v else -1 for v in row] for row in
+             wide.to_numpy(dtype=object)]
+        )  # fmt: skip
+        coefs = result.variable(var.name).coefficients
+        complete = (x >= 0).all(axis=1)
+        ref_fleiss = fleiss_kappa(value_counts(x[complete], len(codes)), method="fleiss")
+        assert coefs["fleiss_kappa"].estimate == pytest.approx(ref_fleiss, abs=TOL), var.name
+        kappas = []
+        for i in range(x.shape[1]):
+            for j in range(i + 1, x.shape[1]):
+                both = (x[:, i] >= 0) & (x[:, j] >= 0)
+                kappas.append(
+                    cohen_kappa_score(x[both, i], x[both, j], labels=list(range(len(codes))))
+                )
+        assert coefs["light_kappa"].estimate == pytest.approx(np.mean(kappas), abs=TOL), var.name
+        checked += 1
+    assert checked >= 4  # species, behaviour, severity, time_of_day, food_present, spray_worked
