@@ -87,7 +87,11 @@ class Codings:
         Missing provenance columns are filled with ``None``; ``applies`` is computed from the
         codebook's conditions when absent.
         """
-        frame = pd.DataFrame(records).copy()
+        frame = (
+            records.copy()
+            if isinstance(records, pd.DataFrame)
+            else pd.DataFrame(list(records), dtype=object)
+        )
         for col in ("unit", "coder", "variable", "value"):
             if col not in frame.columns:
                 raise ValueError(f"codings need a {col!r} column")
@@ -97,11 +101,16 @@ class Codings:
         for col in ("missing", "file", "sheet", "cell"):
             if col not in frame.columns:
                 frame[col] = None
-        frame = frame.astype({"value": object, "missing": object})
-        frame["value"] = [None if _is_na(v) else v for v in frame["value"]]
-        frame["missing"] = [None if _is_na(v) else v for v in frame["missing"]]
+        # Object Series with an explicit dtype keep ``None`` as ``None`` (a plain list of numbers
+        # and ``None`` would be inferred as float with NaN).
+        for col in ("value", "missing"):
+            frame[col] = pd.Series(
+                [None if _is_na(v) else v for v in frame[col]], index=frame.index, dtype=object
+            )
         if "applies" not in frame.columns:
-            frame["applies"] = applicability(codebook, frame)
+            frame["applies"] = pd.Series(
+                applicability(codebook, frame), index=frame.index, dtype=object
+            )
         frame = frame[list(CODING_COLUMNS)].reset_index(drop=True)
         return cls(
             codebook=codebook,

@@ -32,7 +32,7 @@ step "5. The adjudication list: one row per cell where the coders disagree"
 "$CODEREL" adjudicate --codebook "$CB" "$SHEETS" -o "$OUT/adjudication.xlsx"
 
 step "6. The reconciled dataset, with the demo's decisions (sample_decisions/)"
-"$CODEREL" merge --codebook "$CB" "$SHEETS" --decisions "$DECISIONS" -o "$OUT/merged.xlsx"
+"$CODEREL" merge --codebook "$CB" "$SHEETS" --decisions "$DECISIONS" --strict -o "$OUT/merged.xlsx"
 
 step "7. The reliability report"
 "$CODEREL" report --codebook "$CB" "$SHEETS" --decisions "$DECISIONS" -o "$OUT/report.html" --format html,md,xlsx
