@@ -51,12 +51,20 @@ def report_time(date: str | None, environ: dict[str, str] | None = None) -> dt.d
     return dt.datetime.now(dt.UTC)
 
 
+def _shown(path: Path) -> str:
+    """A path for the reproducibility block: relative to the working folder when inside it."""
+    try:
+        return str(path.resolve().relative_to(Path.cwd().resolve()))
+    except ValueError:
+        return str(path)
+
+
 def _command_line(
     codebook: Path, data: list[Path], decisions: Path | None, options: list[str]
 ) -> str:
-    parts = ["coderel report", "--codebook", str(codebook), *map(str, data)]
+    parts = ["coderel report", "--codebook", _shown(codebook), *map(_shown, data)]
     if decisions is not None:
-        parts += ["--decisions", str(decisions)]
+        parts += ["--decisions", _shown(decisions)]
     return " ".join([*parts, *options])
 
 
