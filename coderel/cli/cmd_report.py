@@ -94,7 +94,9 @@ def report_command(
     rule: Annotated[
         str, typer.Option("--rule", help="How cells are settled: unanimous or majority.")
     ] = "unanimous",
-    replicates: Annotated[int, typer.Option("--replicates", min=0)] = 2000,
+    replicates: Annotated[
+        int, typer.Option("--replicates", min=0, help="Bootstrap replicates (0: no intervals).")
+    ] = 2000,
     seed: Annotated[int, typer.Option("--seed", help="Seed of the bootstrap.")] = 20261202,
     interval_method: Annotated[str, typer.Option("--interval", help="bca or percentile")] = "bca",
     date: DateOption = None,
@@ -164,11 +166,16 @@ def report_command(
         generated=when,
     )
     written = write_report(content, out, forms) if out is not None else []
+    reports = [p for p in written if p in targets]
+    charts = len(written) - len(reports)
     if json_out:
         emit_json(content.to_dict())
-        for path in written:
+        for path in reports:
             say(f"written: {path}")
     else:
-        for path in written:
+        for path in reports:
             typer.echo(str(path))
+    if charts:
+        folder = next(p for p in written if p not in targets).parent
+        say(f"{charts} chart(s) of the Markdown report in {folder}")
     return ExitCode.OK

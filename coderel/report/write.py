@@ -35,6 +35,11 @@ def report_paths(path: str | os.PathLike[str], formats: Iterable[str] | None = N
     """The files a report writes: ``path`` itself, or one file per form with ``path``'s stem."""
     path = Path(path)
     if not formats:
+        if not path.suffix:
+            raise UsageError(
+                f"cannot tell the report's form from {path.name!r}: end it in .html, .md or "
+                ".xlsx, or name the forms with --format"
+            )
         return [path.with_suffix(FORMATS[report_format(path.suffix)])]
     forms = list(dict.fromkeys(report_format(f) for f in formats))
     return [path.with_suffix(FORMATS[f]) for f in forms]
