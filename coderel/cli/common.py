@@ -63,7 +63,22 @@ def out_console() -> Console:
 def err_console() -> Console:
     """Console for messages on stderr."""
     plain = not _is_terminal(sys.stderr) or "NO_COLOR" in os.environ
-    return Console(file=sys.stderr, no_color=plain, highlight=False, soft_wrap=plain)
+    return Console(
+        file=sys.stderr,
+        no_color=plain,
+        highlight=False,
+        soft_wrap=plain,
+        width=200 if plain else None,
+    )
+
+
+def _silence_stdout() -> None:
+    """Point stdout at /dev/null so that Python's final flush does not fail again."""
+    try:
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+    except (OSError, ValueError):
+        pass
 
 
 def show_progress() -> bool:
@@ -162,6 +177,10 @@ def handle_errors(func: F) -> F:
         except KeyboardInterrupt:
             say("interrupted; no output was changed")
             raise typer.Exit(130) from None
+        except BrokenPipeError:
+            # The reader of stdout went away (``coderel ... --json | head``): stop quietly.
+            _silence_stdout()
+            raise typer.Exit(int(ExitCode.OK)) from None
         except Exception:
             if os.environ.get("CODEREL_DEBUG"):
                 traceback.print_exc()
