@@ -60,6 +60,7 @@ PARADOX_AGREEMENT = 0.85
 RARE_SHARE = 0.05
 APPLIES_SUFFIX = " [applies]"
 THIN_DATA = "too-few-units"
+ONE_VALUE_USED = "one-value-used"
 
 
 @dataclass(frozen=True)
@@ -468,6 +469,12 @@ def _notes(
             f"only {pairable_units} units have two or more values: too few for a "
             "meaningful interval, none is given"
         )
+    if any(e is not None and e.reason == ONE_VALUE_USED for e in coefs.values()):
+        notes.append(
+            "every pairable value is the same: alpha and the kappas are undefined, while percent "
+            "agreement, Brennan-Prediger, AC1 and PABAK are 1 by their definitions; this says "
+            "nothing about reliability, and no interval is given"
+        )
     alpha = coefs.get("krippendorff_alpha")
     if alpha is not None and alpha.estimate is None and alpha.reason:
         notes.append(f"alpha is undefined: {U.describe(alpha.reason)}")
@@ -529,7 +536,11 @@ def _row(
     pairable_values = int(per_unit[per_unit >= 2].sum())
     complete = (per_unit == x.shape[1]) & (x.shape[1] >= 2)
     fleiss_units = int(complete.sum()) if t.scale.kind == "categorical" else 0
-    thin = pairable_units < MIN_UNITS_FOR_INTERVAL
+    pairable_x = x[per_unit >= 2]
+    used = int(np.unique(pairable_x[pairable_x >= 0]).size)
+    one_value = used == 1
+    thin = pairable_units < MIN_UNITS_FOR_INTERVAL or one_value
+    thin_reason = ONE_VALUE_USED if one_value else THIN_DATA
     coefs: dict[str, Estimate | None] = {}
     for key in COEFFICIENTS:
         ev = evaluated.get(key)
@@ -543,7 +554,7 @@ def _row(
         ci = None
         if not thin and ev.replicates.size:
             ci = interval(ev.replicates, ev.point, ev.jackknife, ci_level, interval_method)
-        coefs[key] = Estimate(point, ci, None, THIN_DATA if thin else None)
+        coefs[key] = Estimate(point, ci, None, thin_reason if thin else None)
     pairs, confusion = _pairs(t, coders)
     complete_counts = (
         value_counts(x[complete], t.scale.size) if t.scale.kind == "categorical" else np.empty(0)

@@ -148,6 +148,10 @@ def test_undefined_cases_have_reasons():
     assert alpha.reason == U.NO_VARIATION
     assert same.verdict == "undefined"
     assert same.coefficients["percent_agreement"].estimate == 1.0
+    # A single value used: no confident-looking [1, 1] interval, and a note in words.
+    assert same.coefficients["percent_agreement"].ci is None
+    assert same.coefficients["percent_agreement"].reason == "one-value-used"
+    assert any("every pairable value is the same" in n for n in same.notes)
     lonely = agreement(_codings([var], {"n": [(1, None), (None, 2)]}), replicates=50)
     est = lonely.variable("n").coefficients["krippendorff_alpha"]
     assert est.estimate is None
