@@ -111,6 +111,12 @@ def test_methods_paragraph_in_journal_style(demo, demo_html):
     assert "Krippendorff, 2004" in paragraph
     assert "Hayes & Krippendorff, 2007" in paragraph
     assert "valid" in paragraph  # reliability is not validity
+    # APA 7th ed. 6.32: counts compared with a number of 10 or more are numerals.
+    main = [r for r in content.table if r.kind == "variable"]
+    count = {v: sum(r.verdict == v for r in main) for v in ("reliable", "tentative")}
+    assert len(main) == 10
+    assert f"Of 10 variables, {count['reliable']} reached α ≥ .800, " in paragraph
+    assert f"{count['tentative']} reached only α ≥ .667" in paragraph
     assert escape(paragraph) in demo_html
 
 

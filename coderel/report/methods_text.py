@@ -139,11 +139,11 @@ def number_word(n: int, *, capital: bool = False) -> str:
     return word[:1].upper() + word[1:] if capital else word
 
 
-def _count(n: int, *, capital: bool = False) -> str:
-    """``none`` for zero in counts of variables, else :func:`number_word`."""
+def _count(n: int, *, numerals: bool = False) -> str:
+    """A count of variables: ``none`` for zero, else words below ten (numerals if asked)."""
     if n == 0:
-        return "None" if capital else "none"
-    return number_word(n, capital=capital)
+        return "none"
+    return f"{n:,}" if numerals else number_word(n)
 
 
 #: Reasons of the report's own that the engine's list does not name.
@@ -235,11 +235,14 @@ def methods_text(
         below = sum(1 for r in rows if r.verdict == "unreliable")
         th_r = fmt_coef(rows[0].reliable, 3) if rows else ".800"
         th_t = fmt_coef(rows[0].tentative, 3) if rows else ".667"
+        # APA 7th ed. 6.32: numbers compared with a number of 10 or more are all numerals.
+        big = len(rows) >= 10
         s.append(
-            f"{_count(reliable, capital=True)} of {number_word(len(rows))} variables reached "
-            f"α ≥ {th_r}, {_count(tentative)} reached only α ≥ {th_t} (acceptable for "
-            f"tentative conclusions) and {_count(below)} fell below {th_t}; these "
-            "thresholds are conventions of the field (Krippendorff, 2004), not statistical tests."
+            f"Of {number_word(len(rows))} variables, {_count(reliable, numerals=big)} reached "
+            f"α ≥ {th_r}, {_count(tentative, numerals=big)} reached only α ≥ {th_t} (acceptable "
+            f"for tentative conclusions) and {_count(below, numerals=big)} fell below {th_t}; "
+            "these thresholds are conventions of the field (Krippendorff, 2004), not statistical "
+            "tests."
         )
         parts = [
             f"{r.variable}, {alpha_phrase(a.estimate, a.ci_low, a.ci_high, level)}"
