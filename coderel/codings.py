@@ -163,18 +163,23 @@ def applicability(codebook: Codebook, frame: pd.DataFrame) -> list[object]:
     Returns ``True``/``False`` per row, ``None`` where the condition variable is blank or missing
     for that coder and unit, and ``True`` for variables without a condition.
     """
+    conditions = {v.name: v.applies_when for v in codebook.variables if v.applies_when}
+    if not conditions:
+        return [True if name in codebook else None for name in frame["variable"]]
+    needed = {c.variable for c in conditions.values()}
     lookup: dict[tuple[str, str, str], Any] = {
         (u, c, v): val
         for u, c, v, val in zip(
             frame["unit"], frame["coder"], frame["variable"], frame["value"], strict=True
         )
+        if v in needed
     }
     out: list[object] = []
     for unit, coder, name in zip(frame["unit"], frame["coder"], frame["variable"], strict=True):
         if name not in codebook:
             out.append(None)
             continue
-        cond = codebook.variable(name).applies_when
+        cond = conditions.get(name)
         if cond is None:
             out.append(True)
             continue

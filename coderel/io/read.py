@@ -43,7 +43,14 @@ from coderel.io.archive import (
 )
 from coderel.io.atomic import sha256_file
 from coderel.io.text_tables import RawRow, RawTable, read_csv, read_parquet
-from coderel.normalise import CellError, Finding, FormulaNoValue, normalise_cell, quote
+from coderel.normalise import (
+    CellError,
+    Finding,
+    FormulaNoValue,
+    Normalised,
+    normalise_cell,
+    quote,
+)
 from coderel.problems import Problems
 
 DATA_SUFFIXES: tuple[str, ...] = (".xlsx", ".csv", ".parquet")
@@ -125,6 +132,9 @@ class _Reader:
     owners: dict[str, tuple[str, str | None]] = field(default_factory=dict)
     refused_coders: set[tuple[str, str, str | None]] = field(default_factory=set)
     seen: dict[tuple[str, str, str | None], dict[Any, str]] = field(default_factory=dict)
+    #: (variable, typed, type, raw) -> result: a cell's result depends on nothing else, and
+    #: coded data repeat the same few values, so each distinct value is normalised once.
+    memo: dict[tuple[Any, ...], Normalised] = field(default_factory=dict)
 
     # ---- helpers ---------------------------------------------------------------------------
     def claim(self, coder: str, table: RawTable, cell: str | None = None) -> bool:
@@ -182,7 +192,15 @@ class _Reader:
         present: bool = True,
     ) -> None:
         if present:
-            result = normalise_cell(variable, raw, typed=typed)
+            try:
+                key = (variable.name, typed, type(raw), raw)
+                result = self.memo.get(key)
+            except TypeError:  # an unhashable cell value: no memo
+                key, result = None, None
+            if result is None:
+                result = normalise_cell(variable, raw, typed=typed)
+                if key is not None:
+                    self.memo[key] = result
             self.add_findings(
                 result.findings, unit=unit, coder=coder, variable=variable.name, **place
             )
@@ -618,10 +636,18 @@ class _Reader:
                 frame.at[frame.index[i], "value"] = None
                 frame.at[frame.index[i], "missing"] = None
                 frame.at[frame.index[i], "_invalid"] = True
-        for i, (a, v, m, inv) in enumerate(
-            zip(frame["applies"], frame["value"], frame["missing"], frame["_invalid"], strict=True)
+        conditional = {v.name for v in cb.variables if v.applies_when is not None}
+        for i, (name, a, v, m, inv) in enumerate(
+            zip(
+                frame["variable"],
+                frame["applies"],
+                frame["value"],
+                frame["missing"],
+                frame["_invalid"],
+                strict=True,
+            )
         ):
-            if a is True and v is None and m is None and not inv:
+            if name in conditional and a is True and v is None and m is None and not inv:
                 row = frame.iloc[i]
                 variable = cb.variable(row["variable"])
                 cond = variable.applies_when
