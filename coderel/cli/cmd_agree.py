@@ -54,7 +54,8 @@ def _pairs_tables(result: AgreementResult) -> list[Table]:
             continue
         cell = {(p.coder_a, p.coder_b): p for p in v.pairs}
         table = Table(
-            title=f"{escape(v.variable)}: pairwise alpha (upper right) and percent agreement (lower left)"
+            title=f"{escape(v.variable)}: pairwise alpha (upper right) and percent agreement "
+            "(lower left)"
         )
         table.add_column("coder")
         for c in coders:
