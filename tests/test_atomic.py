@@ -21,3 +21,25 @@ def test_output_equal_to_input_is_refused(tmp_path):
     f.write_text("x")
     with pytest.raises(UsageError):
         refuse_overwriting_inputs([tmp_path / "." / "a.csv"], [f])
+
+
+def test_new_outputs_get_the_usual_mode_and_old_ones_keep_theirs(tmp_path):
+    # mkstemp creates 0o600 files; an output meant to be shared gets 0o666 less the umask, as
+    # open(..., "w") would give, and an existing output keeps its own mode.
+    import os
+    import stat
+
+    from coderel.io.atomic import write_text
+
+    mask = os.umask(0o022)
+    try:
+        new = tmp_path / "new.txt"
+        write_text(new, "a")
+        assert stat.S_IMODE(new.stat().st_mode) == 0o644
+        old = tmp_path / "old.txt"
+        old.write_text("x")
+        old.chmod(0o640)
+        write_text(old, "b")
+        assert stat.S_IMODE(old.stat().st_mode) == 0o640
+    finally:
+        os.umask(mask)

@@ -17,6 +17,17 @@ from typing import IO
 from coderel.errors import UsageError
 
 
+def _mode_for(target: Path) -> int:
+    """The mode a plain ``open(target, "w")`` would give: the old file's mode when it exists,
+    else 0o666 less the umask (``mkstemp`` alone would leave every output private, 0o600)."""
+    try:
+        return target.stat().st_mode & 0o777
+    except FileNotFoundError:
+        mask = os.umask(0)
+        os.umask(mask)
+        return 0o666 & ~mask
+
+
 @contextlib.contextmanager
 def atomic_path(target: str | os.PathLike[str]) -> Iterator[Path]:
     """Yield a temporary path in the target's folder; rename it onto ``target`` on success.
@@ -33,6 +44,7 @@ def atomic_path(target: str | os.PathLike[str]) -> Iterator[Path]:
         yield tmp
         with open(tmp, "rb") as fh:
             os.fsync(fh.fileno())
+        os.chmod(tmp, _mode_for(target))
         os.replace(tmp, target)
     finally:
         if tmp.exists():
