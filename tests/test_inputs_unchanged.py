@@ -1,6 +1,7 @@
 """Input files are never changed: every byte (SHA-256) and the file list stay the same.
 
-Runs validate, agree, template and the codebook commands on the demo project and validate on the
+Runs every command (validate, agree, template, adjudicate, merge, report, codebook) on the demo
+project and validate on the
 bad-input corpus, with outputs in a temporary folder, and compares the digest of every input file
 (and the list of files in the input folders, so no temporary file is left beside an input) before
 and after.
@@ -22,6 +23,7 @@ INPUT_FOLDERS = [
     ROOT / "demo" / "sheets",
     ROOT / "demo" / "messy",
     ROOT / "sample_codebooks",
+    ROOT / "sample_decisions",
     ROOT / "tests" / "data" / "bad_inputs",
 ]
 UNITS = ROOT / "demo" / "units.txt"
@@ -41,6 +43,7 @@ CBS = str(CB)
 SHEETS = str(ROOT / "demo" / "sheets")
 MESSY = str(ROOT / "demo" / "messy")
 BAD = ROOT / "tests" / "data" / "bad_inputs"
+DECISIONS = str(ROOT / "sample_decisions" / "wildlife_encounters.xlsx")
 #: (command with ``{out}`` for the temporary output folder, accepted exit codes)
 COMMANDS: list[tuple[list[str], set[int]]] = [
     (["validate", "--codebook", CBS, SHEETS, "--json"], {0}),
@@ -61,6 +64,27 @@ COMMANDS: list[tuple[list[str], set[int]]] = [
             "{out}",
             "--units",
             str(UNITS),
+        ],
+        {0},
+    ),
+    (["adjudicate", "--codebook", CBS, SHEETS, "-o", "{out}/adj.xlsx"], {0}),
+    (["adjudicate", "--codebook", CBS, SHEETS, "-o", f"{SHEETS}/coder_ben.xlsx"], {2}),
+    (["merge", "--codebook", CBS, SHEETS, "--decisions", DECISIONS, "-o", "{out}/m.xlsx"], {0}),
+    (["merge", "--codebook", CBS, SHEETS, "--strict", "-o", "{out}/m.parquet"], {1}),
+    (
+        [
+            "report",
+            "--codebook",
+            CBS,
+            SHEETS,
+            "--decisions",
+            DECISIONS,
+            "--replicates",
+            "20",
+            "--format",
+            "html,md,xlsx",
+            "-o",
+            "{out}/r.html",
         ],
         {0},
     ),
