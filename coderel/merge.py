@@ -56,7 +56,7 @@ from coderel.adjudicate import (
     sorted_units,
 )
 from coderel.codebook import MULTI_SEPARATOR, Codebook, Variable
-from coderel.codings import Codings, SourceFile
+from coderel.codings import Codings, SourceFile, condition_holds
 from coderel.errors import UsageError
 from coderel.problems import Problems
 
@@ -288,6 +288,48 @@ def output_columns(codebook: Codebook) -> list[str]:
     return cols
 
 
+def _check_skip_logic(
+    cb: Codebook,
+    units: Sequence[str],
+    tokens_by_var: Mapping[str, Sequence[Token | None]],
+    statuses_by_var: Mapping[str, Sequence[str]],
+    problems: Problems,
+) -> None:
+    """Warn where a conditional variable's final value contradicts its condition's final value.
+
+    Each coder's sheet obeys the skip logic on its own, but final values are settled cell by cell
+    (an adjudicator may drop code 3 from ``actions`` yet keep a ``spray_worked`` value), so the
+    merged row is checked once more.
+    """
+    for var in cb.variables:
+        cond = var.applies_when
+        if cond is None or cond.variable not in cb:
+            continue
+        cond_var = cb.variable(cond.variable)
+        for i, unit in enumerate(units):
+            cond_token = tokens_by_var[cond.variable][i]
+            if cond_token is None or cond_token[0] != "value":
+                continue  # condition unresolved, blank or missing: nothing to compare
+            holds = condition_holds(cond_var, cond_token[1], cond.includes)
+            token = tokens_by_var[var.name][i]
+            has_value = token is not None and token[0] in ("value", "missing")
+            is_na = statuses_by_var[var.name][i] == "not_applicable" or (
+                token is not None and token[0] == "na"
+            )
+            if not ((not holds and has_value) or (holds and is_na)):
+                continue
+            includes = ", ".join(cond_var.display(c) for c in cond.includes)
+            problems.add(
+                "merged-skip-logic",
+                f"the final {var.name} is {'given' if has_value else 'not applicable'}, but the "
+                f"final {cond.variable} {'is' if holds else 'is not'} one of {includes}",
+                hint=f"settle {cond.variable} and {var.name} of this unit together (adjudication "
+                "list), so that the skip logic holds",
+                unit=unit,
+                variable=var.name,
+            )
+
+
 # ---- the merge -----------------------------------------------------------------------------
 def merge(
     codings: Codings,
@@ -363,13 +405,17 @@ def merge(
     unresolved_values: list[dict[str, str]] = []
     adjudicated: list[AdjudicatedCell] = []
     statuses_by_var: dict[str, list[str]] = {}
+    tokens_by_var: dict[str, list[Token | None]] = {}
     for var in cb.variables:
         values: list[Any] = []
         statuses: list[str] = []
+        finals: list[Token | None] = []
+        tokens_by_var[var.name] = finals
         for unit in units:
             tokens = tokens_by_cell.get((unit, var.name), {})
             decision = usable.get((unit, var.name))
             status, token, used = _decide(tokens, rule, decision)
+            finals.append(token)
             values.append(None if token is None else _final_value(var, token))
             statuses.append(status)
             if used and decision is not None:
@@ -396,6 +442,7 @@ def merge(
                 unresolved.append((unit, var.name))
                 tokens = tokens_by_cell.get((unit, var.name), {})
                 unresolved_values.append({c: display_token(var, t) for c, t in tokens.items()})
+    _check_skip_logic(cb, units, tokens_by_var, statuses_by_var, problems)
     frame = pd.DataFrame(data, columns=columns)
     return MergeResult(
         frame=frame,

@@ -82,6 +82,11 @@ PROBLEM_CODES: dict[str, tuple[Severity, str]] = {
         "warning",
         "a decision for a cell the coders no longer disagree on, or a unit not in the data",
     ),
+    "merged-skip-logic": (
+        "warning",
+        "in the merged data a conditional variable's final value contradicts the final value of "
+        "its condition variable",
+    ),
 }
 
 

@@ -188,7 +188,12 @@ def test_decisions_override_and_stale_ones_are_not_used():
     assert pd.isna(value)
     assert status(r, "R1", "distance_m")[0] == "unresolved"
     assert status(r, "R2", "species") == ("agreed", 1)
-    stale = [(p.code, p.unit, p.variable) for p in r.problems]
+    stale = [(p.code, p.unit, p.variable) for p in r.problems if p.code == "stale-decision"]
+    # The decisions keep spray (3) in R1's actions yet call spray_worked not applicable: the
+    # merged row breaks the skip logic, and the merge says so.
+    assert [(p.code, p.unit, p.variable) for p in r.problems if p.code != "stale-decision"] == [
+        ("merged-skip-logic", "R1", "spray_worked")
+    ]
     assert stale == [
         ("stale-decision", "R1", "distance_m"),
         ("stale-decision", "R2", "species"),
@@ -424,3 +429,22 @@ def test_a_single_coder_gives_single_or_not_applicable():
     assert r.frame["species_status"].tolist() == ["single", "single"]
     assert r.frame["spray_worked_status"].tolist() == ["not_applicable", "single"]
     assert r.frame["distance_m_status"].tolist() == ["single", "unresolved"]  # a blank
+
+
+def test_merged_row_that_breaks_the_skip_logic_is_reported():
+    # Both coders used spray (3) and said it worked; the adjudicator then drops spray from R1's
+    # actions but the agreed spray_worked value stays: the final row contradicts the codebook's
+    # applies_when, which each coder's own sheet obeyed.
+    c = make(
+        {
+            "ann": {"R1": (1, (1, 3), 1, 10.0), "R2": (1, (3,), 1, 4.0)},
+            "bob": {"R1": (1, (2, 3), 1, 10.0), "R2": (1, (3,), 1, 4.0)},
+        }
+    )
+    decisions = Decisions({("R1", "actions"): decision((1,), ("value", (1,)), "1")})
+    r = merge(c, decisions)
+    assert status(r, "R1", "actions") == ("adjudicated", "1")
+    assert status(r, "R1", "spray_worked") == ("agreed", 1)
+    found = [(p.code, p.severity, p.unit, p.variable) for p in r.problems]
+    assert found == [("merged-skip-logic", "warning", "R1", "spray_worked")]
+    assert "is not one of 3" in next(iter(r.problems)).message
