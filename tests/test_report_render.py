@@ -118,6 +118,11 @@ def test_methods_paragraph_in_journal_style(demo, demo_html):
     assert f"Of 10 variables, {count['reliable']} reached α ≥ .800, " in paragraph
     assert f"{count['tentative']} reached only α ≥ .667" in paragraph
     assert escape(paragraph) in demo_html
+    # The set distance of the multi-select variable and the skip logic are named, with sources.
+    assert "multi-select variable actions" in paragraph
+    assert "Jaccard, 1912" in paragraph
+    assert any(ref.startswith("Jaccard, P. (1912)") for ref in content.methods.references)
+    assert "The variable spray_worked was coded only where" in paragraph
 
 
 def test_text_from_the_codebook_is_escaped(tmp_path):

@@ -25,6 +25,10 @@ REFERENCES: dict[str, str] = {
         "Krippendorff, K. (2011). Computing Krippendorff's alpha-reliability. Departmental "
         "Papers (ASC), 43. Annenberg School for Communication, University of Pennsylvania."
     ),
+    "jaccard1912": (
+        "Jaccard, P. (1912). The distribution of the flora in the alpine zone. New Phytologist, "
+        "11(2), 37-50."
+    ),
     "hayes2007": (
         "Hayes, A. F., & Krippendorff, K. (2007). Answering the call for a standard reliability "
         "measure for coding data. Communication Methods and Measures, 1(1), 77-89."
@@ -200,6 +204,23 @@ def methods_text(
         "(Krippendorff, 2004, 2011), using the difference function of each variable's level of "
         f"measurement ({_join(levels)})."
     )
+    multi = [r.variable for r in rows if r.multiple]
+    if multi:
+        s.append(
+            f"For the multi-select variable{'s' if len(multi) > 1 else ''} {_join(multi)}, the "
+            "difference between two coders' sets of codes was the Jaccard distance (one minus "
+            "the share of codes in common; Jaccard, 1912), and alpha was also computed per "
+            "category on whether it was chosen."
+        )
+        refs.append("jaccard1912")
+    conditional = [r.variable for r in rows if r.conditional]
+    if conditional:
+        s.append(
+            f"The variable{'s' if len(conditional) > 1 else ''} {_join(conditional)} "
+            f"{'was' if len(conditional) == 1 else 'were'} coded only where the codebook's skip "
+            "logic applied, and agreement on whether "
+            f"{'it' if len(conditional) == 1 else 'they'} applied is reported separately."
+        )
     present = [
         key
         for key in _CITED

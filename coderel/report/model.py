@@ -90,6 +90,8 @@ class VariableRow:
     notes: tuple[str, ...]
     reliable: float
     tentative: float
+    multiple: bool = False
+    conditional: bool = False
 
     @property
     def slug(self) -> str:
@@ -343,6 +345,10 @@ def _table(result: Any, codebook: Codebook) -> tuple[VariableRow, ...]:
                 notes=tuple(str(n) for n in (getattr(va, "notes", ()) or ())),
                 reliable=float(th.reliable),
                 tentative=float(th.tentative),
+                multiple=bool(name in codebook and codebook.variable(name).multiple),
+                conditional=bool(
+                    name in codebook and codebook.variable(name).applies_when is not None
+                ),
             )
         )
     return tuple(rows)
