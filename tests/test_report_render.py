@@ -315,3 +315,49 @@ def test_undefined_alpha_is_said_in_words_not_as_a_number(codebook):
     assert 'id="chart-animal"' in html  # the chart says "undefined" where the dot would be
     assert "no-variation" not in html  # the engine's slug is put into words
     assert "2 coders" in html
+
+
+def test_coder_panel_pairwise_alpha_against_the_krippendorff_package(demo):
+    # Each pair's mean alpha averages, over the variables, the two coders' alpha at the variable's
+    # level; recomputed here with the krippendorff package for the two single-choice ordinal and
+    # nominal variables and the numeric ones (multi-select is left to the engine's own tests).
+    codings, content = demo
+    c = content.coders
+    i, j = c.coders.index("coder_ana"), c.coders.index("coder_cai")
+    assert c.pair_alpha[i][j] == c.pair_alpha[j][i]
+    values = []
+    for var in codings.codebook.variables:
+        wide = codings.wide(var.name)
+        if var.applies_when is not None:
+            applies = codings.for_variable(var.name).pivot(
+                index="unit", columns="coder", values="applies"
+            )
+            wide = wide.where(applies.reindex_like(wide).astype(object) != False, None)  # noqa: E712
+        pair = wide[["coder_ana", "coder_cai"]]
+        if var.multiple:
+            values.append(None)  # Jaccard distance: checked in tests/test_stats_properties.py
+            continue
+        if var.is_categorical:
+            codes = list(var.codes)
+            data = [[np.nan if v is None else codes.index(v) for v in pair[col]] for col in pair]
+            domain = range(len(codes))
+        else:
+            data = [[np.nan if v is None else float(v) for v in pair[col]] for col in pair]
+            domain = None
+        values.append(
+            krippendorff.alpha(
+                np.array(data, dtype=float), level_of_measurement=var.level, value_domain=domain
+            )
+        )
+    engine = {
+        v.variable: p.krippendorff_alpha
+        for v in agreement(codings, replicates=0).variables
+        if v.kind == "variable"
+        for p in v.pairs
+        if (p.coder_a, p.coder_b) == ("coder_ana", "coder_cai")
+    }
+    names = [v.name for v in codings.codebook.variables]
+    for name, ref in zip(names, values, strict=True):
+        if ref is not None:
+            assert engine[name] == pytest.approx(ref, abs=1e-9), name
+    assert c.pair_alpha[i][j] == pytest.approx(np.mean(list(engine.values())), abs=1e-12)

@@ -339,8 +339,9 @@ def _coders(content: ReportContent) -> str:
         out.append(_table(heads, rows, cls="pairs", numeric=range(1, len(heads)), row_headers=True))
         out.append(
             '<p class="about">Percent agreement pooled over the variables (weighted by the '
-            "values both coders gave) and Cohen's κ (Cohen, 1960) averaged over the "
-            "variables.</p>"
+            "values both coders gave); Krippendorff's α of the two coders at each variable's "
+            "level, averaged over the variables; Cohen's κ (Cohen, 1960) averaged over the "
+            "categorical variables.</p>"
         )
     if c.final:
         out.append("<h3>Each coder against the final value</h3>")

@@ -153,8 +153,9 @@ def _coders(content: ReportContent, _charts: Mapping[str, str]) -> list[str]:
         ]
         out.append(md_table(["", *c.coders], rows, right=range(1, len(c.coders) + 1)))
         out.append(
-            "Percent agreement pooled over the variables and Cohen's κ (Cohen, 1960) averaged "
-            "over the variables."
+            "Percent agreement pooled over the variables; Krippendorff's α of the two coders at "
+            "each variable's level, averaged over the variables; Cohen's κ (Cohen, 1960) averaged "
+            "over the categorical variables."
         )
     if c.final:
         out.append("### Each coder against the final value")

@@ -167,6 +167,8 @@ class CoderPanel:
     pair_kappa: tuple[tuple[float | None, ...], ...]
     pair_units: tuple[tuple[int, ...], ...]
     final: tuple[CoderFinal, ...] = ()
+    #: Krippendorff's alpha of the two coders at each variable's level, averaged over variables.
+    pair_alpha: tuple[tuple[float | None, ...], ...] = ()
 
 
 @dataclass(frozen=True, slots=True)
@@ -440,13 +442,16 @@ def _plain(value: Any) -> Any:
 
 
 def _coder_pairs(result: Any, coders: Sequence[str]) -> CoderPanel:
-    """Pooled pairwise agreement over variables (weighted by units) and mean Cohen's kappa."""
+    """Pooled pairwise agreement over variables (weighted by units), mean Cohen's kappa (categorical
+    variables) and mean Krippendorff's alpha at each variable's level (every variable)."""
     index = {c: i for i, c in enumerate(coders)}
     k = len(coders)
     agree = np.zeros((k, k))
     units = np.zeros((k, k), dtype=np.int64)
     kappa_sum = np.zeros((k, k))
     kappa_n = np.zeros((k, k), dtype=np.int64)
+    alpha_sum = np.zeros((k, k))
+    alpha_n = np.zeros((k, k), dtype=np.int64)
     for va in result.variables:
         if getattr(va, "kind", "variable") != "variable":
             continue
@@ -465,6 +470,11 @@ def _coder_pairs(result: Any, coders: Sequence[str]) -> CoderPanel:
                 for a, b in ((i, j), (j, i)):
                     kappa_sum[a, b] += kap
                     kappa_n[a, b] += 1
+            alp = _num(_estimate_of(getattr(pa, "krippendorff_alpha", None)))
+            if alp is not None:
+                for a, b in ((i, j), (j, i)):
+                    alpha_sum[a, b] += alp
+                    alpha_n[a, b] += 1
     percent = tuple(
         tuple(
             None if i == j or units[i, j] == 0 else float(agree[i, j] / units[i, j])
@@ -479,11 +489,19 @@ def _coder_pairs(result: Any, coders: Sequence[str]) -> CoderPanel:
         )
         for i in range(k)
     )
+    alpha = tuple(
+        tuple(
+            None if i == j or alpha_n[i, j] == 0 else float(alpha_sum[i, j] / alpha_n[i, j])
+            for j in range(k)
+        )
+        for i in range(k)
+    )
     return CoderPanel(
         coders=tuple(coders),
         pair_percent=percent,
         pair_kappa=kappa,
         pair_units=tuple(tuple(int(x) for x in row) for row in units),
+        pair_alpha=alpha,
     )
 
 
@@ -683,6 +701,7 @@ def build_report(
             pair_percent=coders.pair_percent,
             pair_kappa=coders.pair_kappa,
             pair_units=coders.pair_units,
+            pair_alpha=coders.pair_alpha,
             final=_coder_final(codings, merged, coder_names),
         )
     summary = _summary(codings, result, table)

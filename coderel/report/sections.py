@@ -347,13 +347,16 @@ def confusion_frame(content: ReportContent) -> pd.DataFrame:
 
 
 def pair_text(content: ReportContent, i: int, j: int) -> str:
-    """``91.4% · κ .85`` for coders i and j (``–`` on the diagonal or without data)."""
+    """``91.4% · α .88 · κ .85`` for coders i and j (``–`` on the diagonal or without data)."""
     c = content.coders
     p = c.pair_percent[i][j]
+    a = c.pair_alpha[i][j] if c.pair_alpha else None
     k = c.pair_kappa[i][j]
-    if p is None and k is None:
+    if p is None and k is None and a is None:
         return "–"
     parts = [pct(p)] if p is not None else []
+    if a is not None:
+        parts.append(f"α {fmt_coef(a)}")
     if k is not None:
         parts.append(f"κ {fmt_coef(k)}")
     return " · ".join(parts)
@@ -372,6 +375,7 @@ def coders_frame(content: ReportContent) -> pd.DataFrame:
                     "with": c.coders[j],
                     "values_compared": c.pair_units[i][j],
                     "percent_agreement": c.pair_percent[i][j],
+                    "mean_krippendorff_alpha": c.pair_alpha[i][j] if c.pair_alpha else None,
                     "mean_cohen_kappa": c.pair_kappa[i][j],
                 }
             )
@@ -394,6 +398,7 @@ def coders_frame(content: ReportContent) -> pd.DataFrame:
             "with",
             "values_compared",
             "percent_agreement",
+            "mean_krippendorff_alpha",
             "mean_cohen_kappa",
         ],
     )
