@@ -119,8 +119,11 @@ def agree_command(
     if json_out:
         emit_json(result.to_dict(pairs=pairs))
         return ExitCode.OK
+    # Two coders: Cohen's kappa; more: Light's mean pairwise kappa (Cohen's is then undefined).
+    kappa = "cohen_kappa" if len(result.coders) == 2 else "light_kappa"
+    shown = tuple(kappa if k == "cohen_kappa" else k for k in SHOWN)
     table = Table(title=f"Agreement ({replicates} bootstrap replicates, seed {seed})")
-    for col in ("variable", "level", "units", "pairable", *SHOWN, "verdict"):
+    for col in ("variable", "level", "units", "pairable", *shown, "verdict"):
         table.add_column(col)
     for v in result.variables:
         table.add_row(
@@ -128,7 +131,7 @@ def agree_command(
             v.level,
             str(v.units),
             str(v.pairable_values),
-            *(_fmt(v.coefficients.get(k)) for k in SHOWN),
+            *(_fmt(v.coefficients.get(k)) for k in shown),
             v.verdict,
         )
     console = out_console()
