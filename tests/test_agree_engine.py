@@ -187,3 +187,28 @@ def test_cli_pairs_json_and_files(tmp_path):
     assert kinds["spray_worked [applies]"] == "applicability"
     assert (tmp_path / "agree.csv").exists()
     assert (tmp_path / "agree-pairs.csv").exists()
+
+
+@pytest.mark.parametrize("command", ["agree", "adjudicate", "merge", "report"])
+def test_a_refused_sheet_stops_every_computing_command(tmp_path, command):
+    # An encrypted workbook beside good sheets: going on without that coder would quietly change
+    # every number, so the command stops with exit 3 (input refused) and writes nothing.
+    bad = ROOT / "tests" / "data" / "bad_inputs"
+    folder = tmp_path / "sheets"
+    folder.mkdir()
+    for name in ("wrong_code.xlsx", "encrypted.xlsx"):
+        (folder / name).write_bytes((bad / name).read_bytes())
+    out = tmp_path / ("out.html" if command == "report" else "out.xlsx")
+    res = CliRunner().invoke(
+        app, [command, "-c", str(bad / "codebook.yaml"), str(folder), "-o", str(out)]
+    )
+    assert res.exit_code == 3, res.output
+    assert "refused" in res.output
+    assert not out.exists()
+
+
+def test_unknown_interval_method_is_a_usage_error():
+    res = CliRunner().invoke(
+        app, ["agree", "-c", str(CB), str(ROOT / "demo/sheets"), "--interval", "normal"]
+    )
+    assert res.exit_code == 2

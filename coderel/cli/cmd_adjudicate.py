@@ -24,12 +24,12 @@ from coderel.cli.common import (
     handle_errors,
     out_console,
     print_problems,
+    read_project,
     say,
 )
-from coderel.codebook.load import load_codebook
 from coderel.errors import ExitCode, UsageError
 from coderel.io.atomic import refuse_overwriting_inputs
-from coderel.io.read import collect_files, read_codings
+from coderel.io.read import collect_files
 from coderel.problems import Problems
 
 LIST_SUFFIXES = (".xlsx", ".csv")
@@ -54,17 +54,12 @@ def adjudicate_command(
     if out.suffix.lower() not in LIST_SUFFIXES:
         raise UsageError(f"cannot write {out.name!r}: the adjudication list is .xlsx or .csv")
     refuse_overwriting_inputs([out], [*collect_files(data), codebook])
-    codings = read_codings(load_codebook(codebook), data)
-    if codings.problems.refused:
-        print_problems(Problems(codings.problems.refused))
-        say("nothing written: a sheet was refused, so its coder's disagreements would be missing")
-        return ExitCode.INPUT_REFUSED
-    errors = len(codings.problems.errors)
-    if errors:
-        say(
-            f"{errors} cell(s) with errors count as blank here; run 'coderel validate' to see "
-            "them and fix the sheets, then run adjudicate again (decisions are kept)"
-        )
+    codings = read_project(
+        codebook,
+        data,
+        errors_note="count as blank here; fix the sheets, then run adjudicate again (decisions "
+        "are kept)",
+    )
     previous = out if out.exists() else None
     adjudication = build_adjudication(codings, previous)
     write_adjudication(adjudication, out)

@@ -12,19 +12,23 @@ from rich.table import Table
 from coderel.agree import AgreementResult, Estimate, agreement
 from coderel.cli.app import app
 from coderel.cli.common import (
+    DEFAULT_REPLICATES,
+    DEFAULT_SEED,
     CodebookOption,
     DataArgument,
+    IntervalOption,
     JsonOption,
+    ReplicatesOption,
+    SeedOption,
     check_table_output,
     delayed_progress,
     emit_json,
     handle_errors,
     out_console,
+    read_project,
     say,
 )
-from coderel.codebook.load import load_codebook
 from coderel.errors import ExitCode
-from coderel.io.read import read_codings
 from coderel.io.tables import table_format, write_table
 
 SHOWN = ("krippendorff_alpha", "percent_agreement", "fleiss_kappa", "cohen_kappa", "gwet_ac1")
@@ -81,25 +85,20 @@ def _pairs_tables(result: AgreementResult) -> list[Table]:
 def agree_command(
     data: DataArgument,
     codebook: CodebookOption,
-    replicates: Annotated[
-        int, typer.Option("--replicates", min=0, help="Bootstrap replicates (0: no intervals).")
-    ] = 2000,
-    seed: Annotated[int, typer.Option("--seed", help="Seed of the bootstrap.")] = 20261202,
-    interval_method: Annotated[str, typer.Option("--interval", help="bca or percentile")] = "bca",
+    replicates: ReplicatesOption = DEFAULT_REPLICATES,
+    seed: SeedOption = DEFAULT_SEED,
+    interval_method: IntervalOption = "bca",
     pairs: Annotated[
         bool, typer.Option("--pairs", help="Add the coder-by-coder agreement per variable.")
     ] = False,
     json_out: JsonOption = False,
-    out: Annotated[Path | None, typer.Option("--out", help="Write the table (.csv/.xlsx).")] = None,
+    out: Annotated[
+        Path | None, typer.Option("--out", "-o", help="Write the table (.csv/.xlsx).")
+    ] = None,
 ) -> ExitCode:
     """Every agreement coefficient per variable, with seeded bootstrap intervals."""
-    if interval_method not in ("bca", "percentile"):
-        raise typer.BadParameter("--interval must be bca or percentile")
     check_table_output(out, data, codebook)
-    codings = read_codings(load_codebook(codebook), data)
-    errors = len(codings.problems.errors)
-    if errors:
-        say(f"{errors} cell(s) with errors were left out; run 'coderel validate' to see them")
+    codings = read_project(codebook, data, errors_note="were left out")
     with delayed_progress("bootstrap") as progress:
         result = agreement(
             codings,

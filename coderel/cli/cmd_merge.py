@@ -14,20 +14,22 @@ from coderel.cli.app import app
 from coderel.cli.common import (
     CodebookOption,
     DataArgument,
+    DecisionsOption,
     JsonOption,
+    RuleOption,
     emit_json,
     err_console,
     handle_errors,
     out_console,
     print_problems,
+    read_project,
     say,
 )
-from coderel.codebook.load import load_codebook
 from coderel.errors import ExitCode, UsageError
 from coderel.io.atomic import refuse_overwriting_inputs
-from coderel.io.read import collect_files, read_codings
+from coderel.io.read import collect_files
 from coderel.io.tables import table_format
-from coderel.merge import RULES, STATUSES, MergeResult, Rule, merge, write_merged
+from coderel.merge import STATUSES, MergeResult, merge, write_merged
 from coderel.problems import Problems
 
 #: At most this many unresolved cells are listed on the terminal (--json lists every one).
@@ -40,13 +42,8 @@ def merge_command(
     data: DataArgument,
     codebook: CodebookOption,
     out: Annotated[Path, typer.Option("--out", "-o", help="The dataset: .csv, .xlsx or .parquet.")],
-    decisions: Annotated[
-        Path | None,
-        typer.Option("--decisions", help="An adjudication list with decisions (.xlsx or .csv)."),
-    ] = None,
-    rule: Annotated[
-        Rule, typer.Option("--rule", help="unanimous: all coders agree; majority: more than half.")
-    ] = "unanimous",
+    decisions: DecisionsOption = None,
+    rule: RuleOption = "unanimous",
     strict: Annotated[
         bool,
         typer.Option("--strict", help="Any unresolved cell is an error: exit 1, nothing written."),
@@ -57,8 +54,6 @@ def merge_command(
     json_out: JsonOption = False,
 ) -> ExitCode:
     """One row per unit, a final value and a status per variable; an audit line per merge."""
-    if rule not in RULES:
-        raise UsageError(f"--rule must be one of {', '.join(RULES)}, not {rule!r}")
     table_format(out)
     inputs = [*collect_files(data), codebook]
     if decisions is not None:
@@ -66,18 +61,12 @@ def merge_command(
             raise UsageError(f"no such decisions file: {decisions.name!r}")
         inputs.append(decisions)
     refuse_overwriting_inputs([out, audit_path(out)], inputs)
-    cb = load_codebook(codebook)
-    codings = read_codings(cb, data)
-    if codings.problems.refused:
-        print_problems(Problems(codings.problems.refused))
-        say("nothing written: a sheet was refused, so its coder's values would be missing")
-        return ExitCode.INPUT_REFUSED
-    errors = len(codings.problems.errors)
-    if errors:
-        say(
-            f"{errors} cell(s) with errors count as blank; run 'coderel validate' to see them "
-            "(a blank against a value is a disagreement to adjudicate)"
-        )
+    codings = read_project(
+        codebook,
+        data,
+        errors_note="count as blank (a blank against a value is a disagreement to adjudicate)",
+    )
+    cb = codings.codebook
     loaded = read_decisions(decisions, cb) if decisions is not None else None
     result = merge(codings, loaded, rule=rule)
     bad = Problems(result.problems.errors)

@@ -11,12 +11,20 @@ import typer
 
 from coderel.cli.app import app
 from coderel.cli.common import (
+    DEFAULT_REPLICATES,
+    DEFAULT_SEED,
     CodebookOption,
     DataArgument,
+    DecisionsOption,
+    IntervalOption,
     JsonOption,
+    ReplicatesOption,
+    RuleOption,
+    SeedOption,
     delayed_progress,
     emit_json,
     handle_errors,
+    read_project,
     say,
 )
 from coderel.errors import ExitCode, UsageError
@@ -87,33 +95,21 @@ def report_command(
             "with its stem.",
         ),
     ] = None,
-    decisions: Annotated[
-        Path | None,
-        typer.Option("--decisions", help="Adjudication list with decisions (.xlsx or .csv)."),
-    ] = None,
-    rule: Annotated[
-        str, typer.Option("--rule", help="How cells are settled: unanimous or majority.")
-    ] = "unanimous",
-    replicates: Annotated[
-        int, typer.Option("--replicates", min=0, help="Bootstrap replicates (0: no intervals).")
-    ] = 2000,
-    seed: Annotated[int, typer.Option("--seed", help="Seed of the bootstrap.")] = 20261202,
-    interval_method: Annotated[str, typer.Option("--interval", help="bca or percentile")] = "bca",
+    decisions: DecisionsOption = None,
+    rule: RuleOption = "unanimous",
+    replicates: ReplicatesOption = DEFAULT_REPLICATES,
+    seed: SeedOption = DEFAULT_SEED,
+    interval_method: IntervalOption = "bca",
     date: DateOption = None,
     json_out: JsonOption = False,
 ) -> ExitCode:
     """The reliability report: summary, agreement table, charts, coders, methods paragraph."""
     from coderel.agree import agreement
-    from coderel.codebook.load import load_codebook
     from coderel.codings import SourceFile
     from coderel.io.atomic import refuse_overwriting_inputs, sha256_file
-    from coderel.io.read import collect_files, read_codings
+    from coderel.io.read import collect_files
     from coderel.report import build_report, report_paths, write_report
 
-    if interval_method not in ("bca", "percentile"):
-        raise UsageError("--interval must be bca or percentile")
-    if rule not in ("unanimous", "majority"):
-        raise UsageError("--rule must be unanimous or majority")
     if out is None and not json_out:
         raise UsageError("name the report file with -o report.html (or .md, .xlsx), or use --json")
     forms = [f.strip() for f in formats.split(",") if f.strip()] if formats else None
@@ -124,11 +120,8 @@ def report_command(
     refuse_overwriting_inputs(targets, inputs)
     when = report_time(date)
 
-    cb = load_codebook(codebook)
-    codings = read_codings(cb, data)
-    errors = len(codings.problems.errors)
-    if errors:
-        say(f"{errors} cell(s) with errors were left out; run 'coderel validate' to see them")
+    codings = read_project(codebook, data, errors_note="were left out")
+    cb = codings.codebook
     with delayed_progress("agreement per variable") as step:
         result = agreement(
             codings,

@@ -32,7 +32,8 @@ def validate_command(
     codebook: CodebookOption,
     json_out: JsonOption = False,
     out: Annotated[
-        Path | None, typer.Option("--out", help="Also write the problem list (.csv or .xlsx).")
+        Path | None,
+        typer.Option("--out", "-o", help="Also write the problem list (.csv or .xlsx)."),
     ] = None,
 ) -> ExitCode:
     """Check every coder's sheet against the codebook and list every problem with its cell."""

@@ -17,7 +17,7 @@ import traceback
 from collections.abc import Callable, Iterator
 from contextlib import contextmanager
 from pathlib import Path
-from typing import Annotated, Any, TypeVar
+from typing import TYPE_CHECKING, Annotated, Any, Literal, TypeVar
 
 import typer
 from rich.console import Console
@@ -26,6 +26,9 @@ from rich.table import Table
 
 from coderel.errors import CodebookError, CoderelError, DataProblems, ExitCode, InputRefused
 from coderel.problems import Problems
+
+if TYPE_CHECKING:
+    from coderel.codings import Codings
 
 F = TypeVar("F", bound=Callable[..., Any])
 
@@ -42,6 +45,27 @@ JsonOption = Annotated[
     bool, typer.Option("--json", help="Print machine-readable JSON on stdout instead of a table.")
 ]
 SeedOption = Annotated[int, typer.Option("--seed", help="Seed of the bootstrap (reproducible).")]
+ReplicatesOption = Annotated[
+    int, typer.Option("--replicates", min=0, help="Bootstrap replicates (0: no intervals).")
+]
+IntervalOption = Annotated[
+    Literal["bca", "percentile"],
+    typer.Option("--interval", help="bca (bias-corrected and accelerated) or percentile."),
+]
+DecisionsOption = Annotated[
+    Path | None,
+    typer.Option("--decisions", help="An adjudication list with decisions (.xlsx or .csv)."),
+]
+RuleOption = Annotated[
+    Literal["unanimous", "majority"],
+    typer.Option(
+        "--rule",
+        help="unanimous: every coder agrees; majority: more than half of the coders who coded "
+        "the unit agree.",
+    ),
+]
+DEFAULT_SEED = 20261202
+DEFAULT_REPLICATES = 2000
 
 
 def _is_terminal(stream: Any) -> bool:
@@ -206,6 +230,30 @@ def check_table_output(out: Path | None, data: list[Path], codebook: Path) -> No
 
     table_format(out)
     refuse_overwriting_inputs([out], [*collect_files(data), codebook])
+
+
+def read_project(codebook: Path, data: list[Path], *, errors_note: str) -> Codings:
+    """The codebook and every coder's sheet, for a command that computes from them.
+
+    A refused sheet stops the command (exit 3): going on without that coder would quietly change
+    every number. Cells with errors count as blank; one message says how many and ``errors_note``
+    says what that means for this command.
+    """
+    from coderel.codebook.load import load_codebook
+    from coderel.io.read import read_codings
+
+    codings = read_codings(load_codebook(codebook), data)
+    refused = codings.problems.refused
+    if refused:
+        raise InputRefused(
+            "nothing was computed or written: a sheet was refused, so its coder's values would "
+            "be missing",
+            problems=Problems(refused),
+        )
+    errors = len(codings.problems.errors)
+    if errors:
+        say(f"{errors} cell(s) with errors {errors_note}; run 'coderel validate' to see them")
+    return codings
 
 
 @contextmanager
