@@ -131,3 +131,26 @@ def test_cli_json_has_every_coefficient_key():
     ):
         assert key in first
     assert first["krippendorff_alpha"]["ci"] is not None
+
+
+def test_cli_reproduces_the_four_observer_alphas_from_files():
+    # The same published example as files a user would have: a long csv and a YAML codebook
+    # (tests/data/published/); `coderel agree --json` prints .743 / .815 / .849 / .797.
+    data = ROOT / "tests" / "data" / "published"
+    res = CliRunner().invoke(
+        app,
+        [
+            "agree",
+            "-c",
+            str(data / "krippendorff2011_codebook.yaml"),
+            str(data / "krippendorff2011.csv"),
+            "--json",
+            "--replicates",
+            "200",
+        ],
+    )
+    assert res.exit_code == 0, res.output
+    doc = json.loads(res.stdout)
+    alphas = {v["variable"]: v["krippendorff_alpha"]["estimate"] for v in doc["variables"]}
+    assert {k: round(a, 3) for k, a in alphas.items()} == PUBLISHED
+    assert all(v["pairable_values"] == 40 for v in doc["variables"])
