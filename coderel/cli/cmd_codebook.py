@@ -175,10 +175,17 @@ def convert_command(
 @handle_errors
 def schema_command(
     out: Annotated[
-        Path | None, typer.Option("--out", "-o", help="Write the schema to this file instead.")
+        Path | None,
+        typer.Option("--out", "-o", help="Write the schema to this .json file instead."),
     ] = None,
 ) -> ExitCode:
     """Print the JSON Schema of the YAML codebook (for editors that check YAML files)."""
+    if out is not None and out.suffix.lower() not in JSON_SUFFIXES:
+        # The schema is JSON; a .yaml name is most likely a codebook about to be overwritten.
+        raise UsageError(
+            f"cannot write the schema to {out.name!r}: name a .json file, for example "
+            "-o codebook.schema.json"
+        )
     text = json.dumps(codebook_json_schema(), indent=2, ensure_ascii=False) + "\n"
     if out is None:
         typer.echo(text, nl=False)
