@@ -61,13 +61,28 @@ RARE_SHARE = 0.05
 APPLIES_SUFFIX = " [applies]"
 THIN_DATA = "too-few-units"
 ONE_VALUE_USED = "one-value-used"
+PERFECT_AGREEMENT = "perfect-agreement"
+TOO_FEW_REPLICATES = "too-few-replicates"
+
+
+def min_replicates(ci_level: float) -> int:
+    """The fewest bootstrap replicates that leave one replicate in each tail of the interval.
+
+    Below ``2 / (1 - ci_level)`` (40 at 95%) an interval end is an extreme replicate or an
+    interpolation between two, not a quantile; no interval is then given.
+
+    >>> min_replicates(0.95), min_replicates(0.80)
+    (40, 10)
+    """
+    return math.ceil(round(2.0 / (1.0 - ci_level), 9))
 
 
 @dataclass(frozen=True)
 class Estimate:
     """A coefficient's estimate, bootstrap interval, standard error and, for Fleiss' kappa, the
     z test against kappa = 0. ``reason`` is a slug (:mod:`coderel.stats.undefined`) when the
-    estimate is ``None``, or ``too-few-units`` when only the interval is withheld."""
+    estimate is ``None``, or ``too-few-units``, ``one-value-used``, ``perfect-agreement`` or
+    ``too-few-replicates`` when only the interval is withheld."""
 
     estimate: float | None
     ci: tuple[float, float] | None = None
@@ -461,13 +476,31 @@ def _notes(
     pairable_units: int,
     fleiss_units: int,
     cat_agree: dict,
+    replicates: int = 0,
+    ci_level: float = 0.95,
 ) -> list[str]:
     notes: list[str] = []
     th = t.thresholds
+    withheld = {e.reason for e in coefs.values() if e is not None and e.estimate is not None}
     if pairable_units < MIN_UNITS_FOR_INTERVAL:
         notes.append(
             f"only {pairable_units} units have two or more values: too few for a "
             "meaningful interval, none is given"
+        )
+    if PERFECT_AGREEMENT in withheld:
+        # Rule of three: with no event in n trials, 3/n is an approximate 95% upper bound of
+        # its rate (Hanley & Lippman-Hand 1983, JAMA 249(13), 1743-1745; from memory).
+        notes.append(
+            f"the coders agreed on every one of the {pairable_units} units: every bootstrap "
+            "resample agrees too, so no interval is given (it would be [1, 1] and claim "
+            "certainty); even so, up to about "
+            f"{min(1.0, 3 / pairable_units):.0%} of units could be disagreements in a larger "
+            "sample (rule of three, 95%)"
+        )
+    if TOO_FEW_REPLICATES in withheld:
+        notes.append(
+            f"{replicates} bootstrap replicate(s) are too few for a {ci_level:.0%} interval "
+            f"(at least {min_replicates(ci_level)}; 1,000 or more is usual): none is given"
         )
     if any(e is not None and e.reason == ONE_VALUE_USED for e in coefs.values()):
         notes.append(
@@ -539,8 +572,29 @@ def _row(
     pairable_x = x[per_unit >= 2]
     used = int(np.unique(pairable_x[pairable_x >= 0]).size)
     one_value = used == 1
-    thin = pairable_units < MIN_UNITS_FOR_INTERVAL or one_value
-    thin_reason = ONE_VALUE_USED if one_value else THIN_DATA
+    # Every pairable unit's values identical (and more than one value used): each bootstrap
+    # resample agrees perfectly too, and the interval would collapse to a confident [1, 1].
+    perfect = (
+        pairable_units > 0
+        and not one_value
+        and bool(
+            np.all(
+                np.where(pairable_x >= 0, pairable_x, -1).max(axis=1)
+                == np.where(pairable_x >= 0, pairable_x, np.iinfo(np.int64).max).min(axis=1)
+            )
+        )
+    )
+    replicates = max((ev.replicates.size for ev in evaluated.values()), default=0)
+    few_replicates = 0 < replicates < min_replicates(ci_level)
+    if one_value:
+        thin_reason = ONE_VALUE_USED
+    elif pairable_units < MIN_UNITS_FOR_INTERVAL:
+        thin_reason = THIN_DATA
+    elif perfect:
+        thin_reason = PERFECT_AGREEMENT
+    else:
+        thin_reason = TOO_FEW_REPLICATES
+    thin = pairable_units < MIN_UNITS_FOR_INTERVAL or one_value or perfect or few_replicates
     coefs: dict[str, Estimate | None] = {}
     for key in COEFFICIENTS:
         ev = evaluated.get(key)
@@ -575,7 +629,9 @@ def _row(
         coefficients=coefs,
         alpha_below_min=below,
         verdict=_verdict(alpha, t.thresholds),
-        notes=tuple(_notes(t, coefs, pairable_units, fleiss_units, cat_agree)),
+        notes=tuple(
+            _notes(t, coefs, pairable_units, fleiss_units, cat_agree, replicates, ci_level)
+        ),
         kind=t.kind,
         fleiss_units=fleiss_units,
         categories=t.categories,

@@ -58,3 +58,117 @@ def test_schema_refuses_a_non_json_output_and_leaves_the_file(tmp_path):
     ok = runner.invoke(app, ["codebook", "schema", "-o", str(tmp_path / "s.json")])
     assert ok.exit_code == 0
     assert (tmp_path / "s.json").read_text("utf-8").lstrip().startswith("{")
+
+
+def _sheets(folder: Path, coders: dict[str, list[tuple[str, str, int]]]) -> Path:
+    """One CSV per coder: ``coders[name]`` is a list of (id, mood, flag) rows."""
+    data = folder / "sheets"
+    data.mkdir()
+    for name, rows in coders.items():
+        lines = ["id,text,mood,flag", *(f"{u},report {u},{m},{f}" for u, m, f in rows)]
+        (data / f"{name}.csv").write_text("\n".join(lines) + "\n", encoding="utf-8")
+    return data
+
+
+def _codings(table: dict[str, list[tuple]], coders=("a", "b")):
+    from coderel.codebook import Category, Codebook, Variable
+    from coderel.codings import Codings
+
+    variables = tuple(
+        Variable(name, "nominal", categories=(Category(0, "no"), Category(1, "yes")))
+        for name in table
+    )
+    cb = Codebook(title="t", version="1", variables=variables)
+    records = [
+        {"unit": f"u{u:03d}", "coder": coders[c], "variable": name, "value": value}
+        for name, rows in table.items()
+        for u, row in enumerate(rows)
+        for c, value in enumerate(row)
+    ]
+    return Codings.from_records(cb, records)
+
+
+# ---- agree: perfect agreement on 12 units printed "1.000 [1.000, 1.000]" ------------------------
+def test_perfect_agreement_gives_no_collapsed_interval_and_says_why():
+    from coderel.agree import PERFECT_AGREEMENT, agreement
+
+    # 12 units, both coders agree everywhere, both categories used.
+    rows = [(0, 0)] * 8 + [(1, 1)] * 4
+    v = agreement(_codings({"f": rows}), replicates=200).variable("f")
+    alpha = v.coefficients["krippendorff_alpha"]
+    assert alpha.estimate == 1.0
+    assert alpha.ci is None
+    assert alpha.reason == PERFECT_AGREEMENT
+    assert v.coefficients["percent_agreement"].ci is None
+    assert v.alpha_below_min is None
+    # Rule of three (Hanley & Lippman-Hand 1983, JAMA 249(13)): 0 events in n=12 -> 3/12 = 25%.
+    assert any("agreed on every one of the 12 units" in n and "25%" in n for n in v.notes)
+    # One disagreement: an ordinary interval again.
+    rows[0] = (0, 1)
+    v = agreement(_codings({"f": rows}), replicates=200).variable("f")
+    assert v.coefficients["krippendorff_alpha"].ci is not None
+    assert v.coefficients["krippendorff_alpha"].reason is None
+
+
+# ---- agree --replicates 2 printed 95% intervals that did not hold the estimate -----------------
+def test_too_few_replicates_give_no_interval():
+    from coderel.agree import TOO_FEW_REPLICATES, agreement, min_replicates
+
+    # 2 / (1 - .95) = 40: the fewest replicates with one in each 2.5% tail.
+    assert min_replicates(0.95) == 40
+    rows = [(0, 0), (0, 1), (1, 1), (1, 0), (0, 0), (1, 1)] * 3
+    codings = _codings({"f": rows})
+    for reps in (1, 2, 39):
+        v = agreement(codings, replicates=reps).variable("f")
+        alpha = v.coefficients["krippendorff_alpha"]
+        assert alpha.estimate is not None
+        assert alpha.ci is None
+        assert alpha.reason == TOO_FEW_REPLICATES
+        assert any("too few for a 95% interval" in n for n in v.notes)
+    v = agreement(codings, replicates=40).variable("f")
+    assert v.coefficients["krippendorff_alpha"].ci is not None
+    v = agreement(codings, replicates=0).variable("f")
+    assert v.coefficients["krippendorff_alpha"].reason is None
+    assert not any("replicate" in n for n in v.notes)
+
+
+def _methods(markdown: str) -> str:
+    part = markdown.split("## Methods paragraph", 1)[1]
+    return next(line for line in part.splitlines() if line.startswith("> "))
+
+
+# ---- report with one coder: "One coders independently coded ... intervals were obtained" ------
+def test_methods_paragraph_with_one_coder(tmp_path):
+    cb = _write_codebook(tmp_path)
+    rows = [(f"u{i}", "pos" if i % 2 else "neg", i % 2) for i in range(12)]
+    data = _sheets(tmp_path, {"ana": rows})
+    out = tmp_path / "r.md"
+    result = runner.invoke(
+        app, ["report", "-c", str(cb), str(data), "--replicates", "100", "-o", str(out)]
+    )
+    assert result.exit_code == 0, result.output
+    text = _methods(out.read_text("utf-8"))
+    assert text.startswith("> One coder coded 12 units")
+    assert "could not be assessed" in text
+    assert "confidence intervals" not in text
+    assert "coders independently" not in text
+
+
+# ---- report --replicates 2: the paragraph claimed bootstrap intervals that were not given -------
+def test_methods_paragraph_says_why_no_interval(tmp_path):
+    cb = _write_codebook(tmp_path)
+    moods = ["pos", "neg", "neu"]
+    a = [(f"u{i}", moods[i % 3], i % 2) for i in range(12)]
+    b = [(u, moods[(i + 1) % 3] if i % 4 == 0 else m, f) for i, (u, m, f) in enumerate(a)]
+    data = _sheets(tmp_path, {"ana": a, "ben": b})
+    out = tmp_path / "r.md"
+    args = ["report", "-c", str(cb), str(data), "-o", str(out), "--replicates"]
+    assert runner.invoke(app, [*args, "2"]).exit_code == 0
+    text = _methods(out.read_text("utf-8"))
+    assert "confidence intervals were obtained" not in text
+    assert "mood: too few bootstrap replicates were drawn" in text
+    assert "flag: the coders agreed on every unit" in text
+    assert runner.invoke(app, [*args, "200"]).exit_code == 0
+    text = _methods(out.read_text("utf-8"))
+    assert "confidence intervals were obtained by bootstrapping" in text
+    assert "No interval is given for flag: the coders agreed on every unit" in text

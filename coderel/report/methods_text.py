@@ -153,6 +153,17 @@ def _count(n: int, *, numerals: bool = False) -> str:
 #: Reasons of the report's own that the engine's list does not name.
 _MORE_REASONS: dict[str, str] = {
     "too-few-units": "too few units with values from two or more coders for an interval",
+    "perfect-agreement": "the coders agreed on every unit, so the bootstrap shows no uncertainty",
+    "too-few-replicates": "too few bootstrap replicates for an interval",
+    "one-value-used": "every pairable value is the same, so the estimate says nothing about "
+    "reliability",
+}
+#: Why no interval is given for a variable whose alpha stands, as the end of a sentence.
+_NO_CI_WHY: dict[str, str] = {
+    "too-few-units": "too few units held values from two or more coders",
+    "perfect-agreement": "the coders agreed on every unit, so every bootstrap resample agrees "
+    "too and an interval would claim a certainty the sample cannot give",
+    "too-few-replicates": "too few bootstrap replicates were drawn",
 }
 
 
@@ -194,11 +205,18 @@ def methods_text(
     levels = sorted({r.level for r in rows}, key=("nominal", "ordinal", "interval", "ratio").index)
     s = []
     s.append(
-        f"{number_word(n_coders, capital=True)} coders independently coded "
+        f"{number_word(n_coders, capital=True)} "
+        f"{'coders independently' if n_coders != 1 else 'coder'} coded "
         f"{summary.units:,} units on {number_word(len(rows))} "
         f"variable{'s' if len(rows) != 1 else ''} defined in a codebook "
         f"({repro.codebook_title}, version {repro.codebook_version})."
     )
+    if n_coders < 2:
+        s.append(
+            "Intercoder reliability could not be assessed: it needs at least two coders coding "
+            "the same units."
+        )
+        return MethodsText(paragraph=" ".join(s), references=(), cautions=_cautions())
     s.append(
         "Intercoder reliability was assessed per variable with Krippendorff's alpha "
         "(Krippendorff, 2004, 2011), using the difference function of each variable's level of "
@@ -233,7 +251,12 @@ def methods_text(
             names.append(f"{name} ({cite})" if cite else name)
             refs.extend(k for k in keys if k not in refs)
         s.append(f"For comparison we also report {_join(names)}.")
-    if repro.replicates:
+    any_ci = any(
+        (c := r.coefficient(key)) is not None and c.ci_low is not None and c.ci_high is not None
+        for r in rows
+        for key in ("krippendorff_alpha", *_CITED)
+    )
+    if repro.replicates and any_ci:
         refs.append("hayes2007")
         if repro.interval.lower() == "bca":
             kind = "bias-corrected and accelerated (BCa) intervals (Efron, 1987)"
@@ -270,12 +293,14 @@ def methods_text(
             for r, a in defined
         ]
         s.append("Per variable: " + "; ".join(parts) + ".")
-        no_ci = [r.variable for r, a in defined if a.ci_low is None or a.ci_high is None]
+        no_ci: dict[str, list[str]] = {}
+        for r, a in defined:
+            if a.ci_low is None or a.ci_high is None:
+                why = _NO_CI_WHY.get(a.reason or "too-few-units", _NO_CI_WHY["too-few-units"])
+                no_ci.setdefault(why, []).append(r.variable)
         if repro.replicates and no_ci:
-            s.append(
-                f"No interval is given for {_join(no_ci)}: too few units held values from two "
-                "or more coders."
-            )
+            parts = [f"{_join(names)}: {why}" for why, names in no_ci.items()]
+            s.append("No interval is given for " + "; and for ".join(parts) + ".")
     undefined = [r for r in rows if r.alpha is None or r.alpha.estimate is None]
     if undefined:
         groups: dict[str, list[str]] = {}
@@ -288,18 +313,21 @@ def methods_text(
         "Agreement between coders shows that the codebook was applied consistently; it does not "
         "show that the codes are valid measures of what they are meant to capture."
     )
-    cautions = (
+    return MethodsText(
+        paragraph=" ".join(s),
+        references=tuple(REFERENCES[k] for k in sorted(set(refs), key=REFERENCES_ORDER.index)),
+        cautions=_cautions(),
+    )
+
+
+def _cautions() -> tuple[str, ...]:
+    return (
         "Reliability is not validity: coders can agree on a wrong reading of the text. Check "
         "validity separately (for example against an expert standard or other data).",
         "The thresholds .800 and .667 are conventions of the field (Krippendorff, 2004), not "
         "tests; report the interval, not only whether a threshold was passed.",
         "When you describe or quote the narrative reports, follow your ethics board's approval "
         "and your data-protection rules. This report contains no narrative text.",
-    )
-    return MethodsText(
-        paragraph=" ".join(s),
-        references=tuple(REFERENCES[k] for k in sorted(set(refs), key=REFERENCES_ORDER.index)),
-        cautions=cautions,
     )
 
 
