@@ -172,3 +172,27 @@ def test_methods_paragraph_says_why_no_interval(tmp_path):
     text = _methods(out.read_text("utf-8"))
     assert "confidence intervals were obtained by bootstrapping" in text
     assert "No interval is given for flag: the coders agreed on every unit" in text
+
+
+# ---- report with a CJK coder name and label: matplotlib's missing-glyph warning on stderr (and,
+# ---- with warnings as errors, exit 4) -------------------------------------------------------------
+def test_report_with_cjk_and_unicode_names(tmp_path):
+    cb = tmp_path / "cb.yaml"
+    cb.write_text(
+        SMALL_CODEBOOK.replace("label: Neutral", "label: 中立").replace(
+            "title: Small test (invented)", "title: Små test ✓ (invented)"
+        ),
+        encoding="utf-8",
+    )
+    a = [(f"u{i}", ["pos", "neg", "neu"][i % 3], i % 2) for i in range(12)]
+    b = [(u, "neu" if i % 5 == 0 else m, f) for i, (u, m, f) in enumerate(a)]
+    data = _sheets(tmp_path, {"李": a, "Ünal": b})
+    out = tmp_path / "r.html"
+    result = runner.invoke(
+        app, ["report", "-c", str(cb), str(data), "--replicates", "50", "-o", str(out)]
+    )
+    assert result.exit_code == 0, result.output
+    assert "Warning" not in result.output
+    html = out.read_text("utf-8")
+    assert "李" in html
+    assert "中立" in html

@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import io
 import re
+import warnings
 from collections.abc import Mapping, Sequence
 from html import escape
 
@@ -80,7 +81,12 @@ def _to_svg(fig: Figure, chart_id: str, titles: Mapping[str, str] | None = None)
     size; the HTML renderer replaces them with a CSS width.
     """
     buf = io.StringIO()
-    with rc_context({**_RC, "svg.hashsalt": chart_id}):
+    with rc_context({**_RC, "svg.hashsalt": chart_id}), warnings.catch_warnings():
+        # Text stays text in the SVG (the viewer's fonts draw it), so a coder name or label in a
+        # script DejaVu Sans lacks (CJK, for example) only makes the layout's width estimate rough.
+        warnings.filterwarnings(
+            "ignore", message=r"Glyph \d+ .* missing from", category=UserWarning
+        )
         fig.savefig(buf, format="svg", metadata={"Date": None}, bbox_inches="tight")
     svg = buf.getvalue()
     svg = svg[svg.index("<svg") :]
