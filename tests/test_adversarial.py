@@ -196,3 +196,43 @@ def test_report_with_cjk_and_unicode_names(tmp_path):
     html = out.read_text("utf-8")
     assert "李" in html
     assert "中立" in html
+
+
+# ---- validate: "001" in one sheet and 1 (a number) in another gave 2 x 12 partial-unit warnings
+# ---- with no word on the likely cause --------------------------------------------------------------
+def test_unit_ids_differing_in_leading_zeros_are_pointed_out(tmp_path):
+    import json
+
+    from openpyxl import Workbook
+
+    cb = _write_codebook(tmp_path)
+    data = tmp_path / "sheets"
+    data.mkdir()
+    lines = ["id;text;mood;flag", *(f"{i:03d};report;pos;0" for i in range(1, 4))]
+    # A BOM, semicolons and CRLF line ends, as a spreadsheet program may save them.
+    (data / "ana.csv").write_bytes(("\ufeff" + "\r\n".join(lines) + "\r\n").encode("utf-8"))
+    wb = Workbook()
+    ws = wb.active
+    ws.append(["id", "text", "mood", "flag"])
+    for i in range(1, 4):
+        ws.append([i, "report", "pos", 0])
+    wb.save(data / "ben.xlsx")
+    before = {p.name: _sha(p) for p in data.iterdir()}
+    result = runner.invoke(app, ["validate", "-c", str(cb), str(data), "--json"])
+    assert result.exit_code == 0, result.output
+    problems = json.loads(result.stdout)["problems"]
+    partial = {p["unit"]: p for p in problems if p["code"] == "partial-unit"}
+    assert set(partial) == {"001", "002", "003", "1", "2", "3"}
+    assert "'1' differs only in leading zeros" in partial["001"]["hint"]
+    assert "'003' differs only in leading zeros" in partial["3"]["hint"]
+    assert {p.name: _sha(p) for p in data.iterdir()} == before
+
+
+def test_loose_unit_id():
+    from coderel.io.read import _loose_id
+
+    assert _loose_id("ENC-007") == _loose_id("enc-7") == "enc-7"
+    assert _loose_id("001") == _loose_id("1") == "1"
+    assert _loose_id("100") == "100"
+    assert _loose_id("0") == "0"
+    assert _loose_id("A 10") == _loose_id("a10")

@@ -21,6 +21,7 @@ from __future__ import annotations
 
 import datetime as dt
 import difflib
+import re
 from collections.abc import Iterable, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -675,17 +676,39 @@ class _Reader:
         by_unit: dict[str, set[str]] = {}
         for unit, coder in zip(frame["unit"], frame["coder"], strict=True):
             by_unit.setdefault(unit, set()).add(coder)
+        # IDs that differ only in leading zeros, case or inner spaces ("001" and 1, once a
+        # spreadsheet has turned the text into a number) are most likely one unit.
+        alike: dict[str, list[str]] = {}
+        for unit in by_unit:
+            alike.setdefault(_loose_id(unit), []).append(unit)
         for unit, present in by_unit.items():
             absent = [c for c in coders if c not in present]
             if absent:
+                others = [u for u in alike[_loose_id(unit)] if u != unit]
+                hint = (
+                    "code the unit by every coder, or accept that agreement for it uses fewer "
+                    "coders"
+                )
+                if others:
+                    hint = (
+                        f"the unit ID {', '.join(repr(u) for u in others)} differs only in "
+                        "leading zeros, case or spaces: if it is the same unit, write the ID the "
+                        "same way in every sheet (format the unit column as Text so that leading "
+                        f"zeros stay); otherwise {hint}"
+                    )
                 self.problems.add(
                     "partial-unit",
                     f"unit {unit} is coded by {', '.join(c for c in coders if c in present)} "
                     f"but not by {', '.join(absent)}",
-                    hint="code the unit by every coder, or accept that agreement for it uses "
-                    "fewer coders",
+                    hint=hint,
                     unit=unit,
                 )
+
+
+def _loose_id(unit: str) -> str:
+    """A unit ID without case, spaces and leading zeros of its numbers (``ENC-007`` ~ ``enc-7``)."""
+    folded = "".join(str(unit).casefold().split())
+    return re.sub(r"(?<![0-9])0+(?=[0-9])", "", folded)
 
 
 def _row_place(row: pd.Series) -> dict[str, Any]:
