@@ -355,11 +355,15 @@ class Adjudication:
     moved: int = 0
 
     def summary(self) -> pd.DataFrame:
-        """Per variable (codebook order): disagreements, decided, open, no longer needed."""
+        """Per variable (codebook order): disagreements, decided, open, no longer needed.
+
+        Only valid decisions count as decided; a cell with an invalid decision is still open.
+        """
         out = []
         for var in self.codebook.variables:
             rows = [r for r in self.rows if r.variable == var.name]
-            decided = sum(r.decided for r in rows)
+            # A decision that is not a valid value (a bad-decision problem) leaves the cell open.
+            decided = sum(r.decided and parse_decision(var, r.decision)[1] is None for r in rows)
             out.append(
                 {
                     "variable": var.name,

@@ -236,3 +236,61 @@ def test_loose_unit_id():
     assert _loose_id("100") == "100"
     assert _loose_id("0") == "0"
     assert _loose_id("A 10") == _loose_id("a10")
+
+
+# ---- adjudicate run twice: invalid decisions ('banana', 77) were counted as "decided" ----------
+def test_adjudicate_twice_invalid_decisions_stay_open(tmp_path):
+    import json
+
+    from openpyxl import load_workbook
+    from openpyxl.utils import get_column_letter
+
+    cb = _write_codebook(tmp_path)
+    a = [("u1", "pos", 0), ("u2", "neg", 1), ("u3", "neu", 0)]
+    b = [("u1", "neg", 0), ("u2", "neg", 0), ("u3", "neu", 0)]
+    data = _sheets(tmp_path, {"ana": a, "ben": b})
+    out = tmp_path / "adj.xlsx"
+    args = ["adjudicate", "-c", str(cb), str(data), "-o", str(out), "--json"]
+    first = runner.invoke(app, args)
+    assert first.exit_code == 0, first.output
+    assert json.loads(first.stdout)["open"] == 2
+    wb = load_workbook(out)
+    ws = wb["to decide"]
+    header = [c.value for c in ws[1]]
+    col = header.index("decision") + 1
+    keys = {ws.cell(r, header.index("key") + 1).value: r for r in range(2, ws.max_row + 1)}
+    ws.cell(keys["u1|mood"], col).value = "banana"
+    ws.cell(keys["u2|flag"], col).value = 1
+    wb.save(out)
+    # ben changes his mind on u1 (the disagreement disappears) and codes u3 differently (new one).
+    b = [("u1", "pos", 0), ("u2", "neg", 0), ("u3", "pos", 0)]
+    (data / "ben.csv").unlink()
+    lines = ["id,text,mood,flag", *(f"{u},report {u},{m},{f}" for u, m, f in b)]
+    (data / "ben.csv").write_text("\n".join(lines) + "\n", encoding="utf-8")
+    sheets = {p.name: _sha(p) for p in data.iterdir()}
+    second = runner.invoke(app, args)
+    assert second.exit_code == 0, second.output
+    summary = json.loads(second.stdout)
+    assert summary["moved"] == 1  # u1|mood (with its invalid decision) is no longer needed
+    assert summary["decided"] == 1
+    assert summary["open"] == 1
+    # Now the invalid decision sits on a cell that is still open: it is an error, not "decided".
+    wb = load_workbook(out)
+    ws = wb["to decide"]
+    header = [c.value for c in ws[1]]
+    col = header.index("decision") + 1
+    keys = {ws.cell(r, header.index("key") + 1).value: r for r in range(2, ws.max_row + 1)}
+    ws.cell(keys["u3|mood"], col).value = "banana"
+    wb.save(out)
+    third = runner.invoke(app, args)
+    assert third.exit_code == 1
+    summary = json.loads(third.stdout)
+    assert summary["decided"] == 1
+    assert summary["open"] == 1
+    per = {r["variable"]: r for r in summary["per_variable"]}
+    assert per["mood"]["decided"] == 0
+    assert per["mood"]["open"] == 1
+    bad = [p for p in summary["problems"] if p["code"] == "bad-decision"]
+    assert [(p["unit"], p["sheet"]) for p in bad] == [("u3", "to decide")]
+    assert bad[0]["cell"] == f"{get_column_letter(col)}{keys['u3|mood']}"
+    assert {p.name: _sha(p) for p in data.iterdir()} == sheets
