@@ -71,6 +71,7 @@ PROBLEM_CODES: dict[str, tuple[Severity, str]] = {
     "bad-decision": ("error", "an adjudication decision is not a valid code for its variable"),
     # warnings
     "partial-unit": ("warning", "a unit is coded by only some of the coders"),
+    "blank-variable": ("warning", "a coder left a variable blank on every unit where it applies"),
     "normalised-number": ("warning", "a number stored as text was read as a number"),
     "normalised-space": ("warning", "spaces around a value were removed"),
     "normalised-label": ("warning", "a category's label was typed instead of its code"),

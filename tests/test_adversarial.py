@@ -8,6 +8,7 @@ traceback.
 from __future__ import annotations
 
 import hashlib
+import json
 from pathlib import Path
 
 from typer.testing import CliRunner
@@ -201,8 +202,6 @@ def test_report_with_cjk_and_unicode_names(tmp_path):
 # ---- validate: "001" in one sheet and 1 (a number) in another gave 2 x 12 partial-unit warnings
 # ---- with no word on the likely cause --------------------------------------------------------------
 def test_unit_ids_differing_in_leading_zeros_are_pointed_out(tmp_path):
-    import json
-
     from openpyxl import Workbook
 
     cb = _write_codebook(tmp_path)
@@ -240,8 +239,6 @@ def test_loose_unit_id():
 
 # ---- adjudicate run twice: invalid decisions ('banana', 77) were counted as "decided" ----------
 def test_adjudicate_twice_invalid_decisions_stay_open(tmp_path):
-    import json
-
     from openpyxl import load_workbook
     from openpyxl.utils import get_column_letter
 
@@ -294,3 +291,33 @@ def test_adjudicate_twice_invalid_decisions_stay_open(tmp_path):
     assert [(p["unit"], p["sheet"]) for p in bad] == [("u3", "to decide")]
     assert bad[0]["cell"] == f"{get_column_letter(col)}{keys['u3|mood']}"
     assert {p.name: _sha(p) for p in data.iterdir()} == sheets
+
+
+# ---- validate: a coder who left a whole variable blank (and a variable no one coded) passed with
+# ---- no word; agree then quietly rested on the other coders -------------------------------------
+def test_blank_variable_is_reported(tmp_path):
+    cb = tmp_path / "cb.yaml"
+    cb.write_text(
+        SMALL_CODEBOOK
+        + "  - name: never\n    level: nominal\n    categories: [{code: a, label: A}]\n",
+        encoding="utf-8",
+    )
+    data = tmp_path / "sheets"
+    data.mkdir()
+    rows = {"ana": ["pos", "neg", "neu"], "ben": ["", "", ""], "cai": ["pos", "neg", "pos"]}
+    for coder, moods in rows.items():
+        lines = ["id,text,mood,flag,never"]
+        lines += [f"u{i},report,{m},{i % 2}," for i, m in enumerate(moods)]
+        (data / f"{coder}.csv").write_text("\n".join(lines) + "\n", encoding="utf-8")
+    # A sheet not yet begun is not reported variable by variable.
+    (data / "dee.csv").write_text("id,text,mood,flag,never\nu0,,,,\nu1,,,,\n", encoding="utf-8")
+    result = runner.invoke(app, ["validate", "-c", str(cb), str(data), "--json"])
+    assert result.exit_code == 0, result.output
+    blank = [p for p in json.loads(result.stdout)["problems"] if p["code"] == "blank-variable"]
+    assert [(p["coder"], p["variable"], p["file"]) for p in blank] == [
+        (None, "never", None),
+        ("ben", "mood", "ben.csv"),
+    ]
+    assert blank[0]["severity"] == "warning"
+    assert "no coder coded never" in blank[0]["message"]
+    assert "ben left mood blank on all 3 units" in blank[1]["message"]

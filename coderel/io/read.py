@@ -669,6 +669,57 @@ class _Reader:
                 )
         return frame
 
+    def check_blank_variables(self, frame: pd.DataFrame) -> None:
+        """``blank-variable``: a coder left a variable blank on every unit where it applies.
+
+        Agreement then rests on the other coders alone, which no number shows; a column filled
+        in the wrong sheet, or not yet coded, is the usual cause. Needs two or more such units,
+        and only coders with at least one valid value count (a sheet not yet begun is no news).
+        """
+        empty = frame["value"].isna().to_numpy() & frame["missing"].isna().to_numpy()
+        blank = empty & ~frame["_invalid"].astype(bool).to_numpy()
+        begun = set(frame.loc[~empty, "coder"])
+        applies = frame["applies"].map(lambda a: a is not False).to_numpy(dtype=bool, copy=True)
+        applies &= frame["coder"].isin(begun).to_numpy()
+        cols = frame.loc[applies, ["coder", "variable"]].assign(_blank=blank[applies])
+        if cols.empty:
+            return
+        groups = cols.groupby(["coder", "variable"], sort=False)["_blank"].agg(["all", "size"])
+        first = (
+            frame.loc[applies]
+            .drop_duplicates(["coder", "variable"])
+            .set_index(["coder", "variable"])
+        )
+        nobody = {
+            variable
+            for variable, rows in groups.groupby(level="variable", sort=False)
+            if len(rows) > 1 and bool(rows["all"].all())
+        }
+        for variable in nobody:  # one problem for the variable, not one per coder
+            self.problems.add(
+                "blank-variable",
+                f"no coder coded {variable}: it is blank on every unit in every sheet, so it has "
+                "no agreement",
+                hint=f"code {variable}, or check that its column is headed {variable!r} in every "
+                "sheet",
+                variable=variable,
+            )
+        for (coder, variable), row in groups.iterrows():
+            if not row["all"] or row["size"] < 2 or variable in nobody:
+                continue
+            where = first.loc[(coder, variable)]
+            self.problems.add(
+                "blank-variable",
+                f"{coder} left {variable} blank on all {row['size']} units where it applies; "
+                f"agreement on {variable} rests on the other coders",
+                hint=f"code {variable} in {coder}'s sheet, or check that the values are in the "
+                "column the codebook names (not in another sheet or a renamed column)",
+                file=where["file"],
+                sheet=where["sheet"],
+                coder=coder,
+                variable=variable,
+            )
+
     def check_partial_units(self, frame: pd.DataFrame) -> None:
         coders = list(dict.fromkeys(frame["coder"]))
         if len(coders) < 2:
@@ -826,6 +877,7 @@ def read_codings(
     frame = frame.where(frame.notna(), None) if len(frame) else frame
     if len(frame):
         frame = reader.check_skip_logic(frame)
+        reader.check_blank_variables(frame)
         reader.check_partial_units(frame)
     else:
         frame["applies"] = []
