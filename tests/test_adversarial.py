@@ -321,3 +321,26 @@ def test_blank_variable_is_reported(tmp_path):
     assert blank[0]["severity"] == "warning"
     assert "no coder coded never" in blank[0]["message"]
     assert "ben left mood blank on all 3 units" in blank[1]["message"]
+
+
+# ---- coderel agree ... | head -2: the table form exited 1 (rich's own broken-pipe exit), which
+# ---- coderel reserves for data problems; the JSON form already exited 0 ------------------------------
+def test_table_into_a_closed_pipe_exits_zero():
+    import subprocess
+    import sys
+
+    root = Path(__file__).resolve().parents[1]
+    exe = Path(sys.executable).with_name("coderel")
+    args = ["agree", "-c", str(root / "sample_codebooks/wildlife_encounters.yaml")]
+    proc = subprocess.Popen(
+        [str(exe), *args, str(root / "demo/sheets"), "--replicates", "0", "--pairs"],
+        stdout=subprocess.PIPE,
+        stderr=subprocess.PIPE,
+    )
+    proc.stdout.read(10)  # like `| head -c 10`: read a little, then close
+    proc.stdout.close()
+    err = proc.stderr.read().decode()
+    proc.stderr.close()
+    assert proc.wait(timeout=60) == 0
+    assert "Traceback" not in err
+    assert "bug in coderel" not in err

@@ -72,10 +72,21 @@ def _is_terminal(stream: Any) -> bool:
     return bool(getattr(stream, "isatty", lambda: False)())
 
 
+class _DataConsole(Console):
+    """A console whose closed pipe ends the command like any other (exit 0, see handle_errors).
+
+    rich's own handling exits with 1, which coderel reserves for data problems.
+    """
+
+    def on_broken_pipe(self) -> None:
+        self.quiet = True
+        raise BrokenPipeError
+
+
 def out_console() -> Console:
     """Console for data on stdout; plain text when stdout is not a terminal."""
     plain = not _is_terminal(sys.stdout) or "NO_COLOR" in os.environ
-    return Console(
+    return _DataConsole(
         file=sys.stdout,
         no_color=plain,
         highlight=False,
