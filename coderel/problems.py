@@ -43,6 +43,10 @@ PROBLEM_CODES: dict[str, tuple[Severity, str]] = {
     # input files
     "input-refused": ("error", "the file cannot or must not be read"),
     "encoding": ("error", "a CSV file is not UTF-8"),
+    "unclosed-quote": (
+        "error",
+        "a quote in a CSV file is never closed; the rows after it are lost",
+    ),
     "empty-sheet": ("error", "a sheet or file holds no data rows"),
     "duplicate-coder": ("error", "two files or sheets claim the same coder"),
     "unknown-column": (
@@ -111,11 +115,15 @@ class Problem:
         return asdict(self)
 
     def where(self) -> str:
-        """A short human-readable place: ``coder_a.xlsx!Sheet1!C14`` or ``codebook.yaml:12``."""
+        """A short human-readable place: ``coder_a.xlsx!Sheet1!C14``, ``codebook.yaml:12`` or,
+        for a CSV cell, ``coder_a.csv!C14 (line 15)`` (not ``C14:15``, which reads as a range)."""
         parts = [p for p in (self.file, self.sheet, self.cell) if p]
         place = "!".join(parts)
         if self.line is not None:
-            place = f"{place}:{self.line}" if place else f"line {self.line}"
+            if self.cell:
+                place = f"{place} (line {self.line})"
+            else:
+                place = f"{place}:{self.line}" if place else f"line {self.line}"
         return place
 
 

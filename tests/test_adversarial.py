@@ -344,3 +344,71 @@ def test_table_into_a_closed_pipe_exits_zero():
     assert proc.wait(timeout=60) == 0
     assert "Traceback" not in err
     assert "bug in coderel" not in err
+
+
+# ---- validate on a CSV with a quote never closed: the rows after it vanished with 0 errors -------
+def test_unclosed_quote_in_csv_is_an_error(tmp_path):
+    cb = _write_codebook(tmp_path)
+    data = tmp_path / "sheets"
+    data.mkdir()
+    text = 'id,text,mood,flag\nu1,fine,pos,0\nu2,"never closed,neg,1\nu3,x,neu,0\n'
+    (data / "ana.csv").write_text(text, encoding="utf-8")
+    result = runner.invoke(app, ["validate", "-c", str(cb), str(data), "--json"])
+    assert result.exit_code == 1, result.output
+    (problem,) = [p for p in json.loads(result.stdout)["problems"] if p["severity"] == "error"]
+    assert problem["code"] == "unclosed-quote"
+    assert problem["file"] == "ana.csv"
+    assert problem["line"] == 3
+    # Quotes that are closed, doubled or inside an unquoted cell are fine.
+    ok = 'id,text,mood,flag\nu1,"a ""b"", c\nd",pos,0\nu2,5\'11" tall,neg,1\n'
+    (data / "ana.csv").write_text(ok, encoding="utf-8")
+    result = runner.invoke(app, ["validate", "-c", str(cb), str(data), "--json"])
+    assert result.exit_code == 0, result.output
+
+
+def test_open_quote_scanner_follows_the_csv_module():
+    import csv
+    import io
+
+    from coderel.io.text_tables import _open_quote_line
+
+    cases = {
+        'a,"b\nc': 1,
+        'a,b\n"c,d\ne\n': 2,
+        'a,"b""c",d\n': None,
+        'a,b"c,d\n': None,
+        '"a\nb",c\n': None,
+        'a;"b\n': 1,
+    }
+    for text, line in cases.items():
+        assert _open_quote_line(text, ";" if ";" in text else ",") == line, text
+        # The csv module in strict mode agrees: it fails at the end of the data exactly then.
+        delimiter = ";" if ";" in text else ","
+        try:
+            list(csv.reader(io.StringIO(text, newline=""), delimiter=delimiter, strict=True))
+            failed = False
+        except csv.Error as exc:
+            failed = "unexpected end of data" in str(exc)
+        assert failed == (line is not None), text
+
+
+# ---- validate on a tab-separated .csv: one column named 'id\ttext\t...' ------------------------
+def test_tab_separated_csv_is_read(tmp_path):
+    cb = _write_codebook(tmp_path)
+    data = tmp_path / "sheets"
+    data.mkdir()
+    (data / "ana.csv").write_text("id\ttext\tmood\tflag\nu1\tx\tpos\t0\n", encoding="utf-8")
+    (data / "ben.csv").write_text("id,text,mood,flag\nu1,x,pos,0\n", encoding="utf-8")
+    result = runner.invoke(app, ["validate", "-c", str(cb), str(data), "--json"])
+    assert result.exit_code == 0, result.output
+    assert json.loads(result.stdout)["problems"] == []
+
+
+# ---- a CSV cell's place read "ana.csv!C3:3", like a range ------------------------------------------
+def test_csv_cell_place_names_cell_and_line():
+    from coderel.problems import make_problem
+
+    p = make_problem("not-a-number", "m", file="ana.csv", cell="C3", line=3)
+    assert p.where() == "ana.csv!C3 (line 3)"
+    assert make_problem("encoding", "m", file="a.csv", line=2).where() == "a.csv:2"
+    assert make_problem("codebook-field", "m", file="cb.yaml", line=7).where() == "cb.yaml:7"

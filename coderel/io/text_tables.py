@@ -77,7 +77,9 @@ def read_csv(path: Path) -> RawTable:
     """Read a CSV file as text cells; problems (``encoding``, ``empty-sheet``) in the table.
 
     The delimiter is a comma, or a semicolon when the header holds semicolons and no comma (as
-    spreadsheet programs in many locales write).
+    spreadsheet programs in many locales write), or a tab when the header holds tabs and neither.
+    A quote that is never closed swallows the rest of the file into one cell; that is reported
+    as ``unclosed-quote`` with the line where the quote opened.
     """
     data = path.read_bytes()
     try:
@@ -95,6 +97,8 @@ def read_csv(path: Path) -> RawTable:
         return RawTable(path.name, None, (), (), (), typed=False, problems=(problem,))
     first_line = text.split("\n", 1)[0]
     delimiter = ";" if ";" in first_line and "," not in first_line else ","
+    if "\t" in first_line and "," not in first_line and ";" not in first_line:
+        delimiter = "\t"
     reader = csv.reader(io.StringIO(text, newline=""), delimiter=delimiter)
     header: tuple[str, ...] | None = None
     header_line: int | None = None
@@ -102,6 +106,7 @@ def read_csv(path: Path) -> RawTable:
     record = 0
     header_row = 1
     previous_end = 0
+    start_line = 1
     for cells in reader:
         record += 1
         start_line = previous_end + 1
@@ -114,6 +119,22 @@ def read_csv(path: Path) -> RawTable:
             header_row = record
             continue
         rows.append(RawRow(number=record, cells=tuple(cells), line=start_line))
+    problems: tuple[Problem, ...] = ()
+    # Only the last record can end inside a quote (it then runs to the end of the file).
+    opened = _open_quote_line("".join(text.splitlines(keepends=True)[start_line - 1 :]), delimiter)
+    if opened is not None:
+        line = start_line + opened - 1
+        problems = (
+            make_problem(
+                "unclosed-quote",
+                f'a quote (") opened on line {line} is never closed: the rest of the file was '
+                "read as one cell, and its rows are missing",
+                hint=f'close the quote on line {line}, or remove it (write "" for a quote '
+                "inside a quoted cell), and save the file again",
+                file=path.name,
+                line=line,
+            ),
+        )
     if header is None:
         return _empty(path.name, None, typed=False)
     width = max([len(header), *(len(r.cells) for r in rows)])
@@ -134,7 +155,37 @@ def read_csv(path: Path) -> RawTable:
         header_row=header_row,
         header_line=header_line,
         typed=False,
+        problems=problems,
     )
+
+
+def _open_quote_line(text: str, delimiter: str) -> int | None:
+    """The line (1-based, within ``text``) of a quote that ``text`` leaves open, else None.
+
+    Follows the :mod:`csv` module's reading: a quote opens a quoted cell only at a cell's start;
+    inside one, ``""`` is a quote and ``"`` ends it.
+    """
+    if '"' not in text:
+        return None
+    in_quotes, at_start, line, opened = False, True, 1, None
+    i, n = 0, len(text)
+    while i < n:
+        ch = text[i]
+        if ch == "\n":
+            line += 1
+        if in_quotes:
+            if ch == '"':
+                if i + 1 < n and text[i + 1] == '"':
+                    i += 2
+                    continue
+                in_quotes = False
+        elif ch == '"' and at_start:
+            in_quotes, opened = True, line
+            at_start = False
+        else:
+            at_start = ch in (delimiter, "\n", "\r")
+        i += 1
+    return opened if in_quotes else None
 
 
 def _empty(file: str, sheet: str | None, *, typed: bool) -> RawTable:
