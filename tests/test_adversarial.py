@@ -412,3 +412,18 @@ def test_csv_cell_place_names_cell_and_line():
     assert p.where() == "ana.csv!C3 (line 3)"
     assert make_problem("encoding", "m", file="a.csv", line=2).where() == "a.csv:2"
     assert make_problem("codebook-field", "m", file="cb.yaml", line=7).where() == "cb.yaml:7"
+
+
+def test_unclosed_quote_line_with_form_feed_and_line_separator_in_cells(tmp_path):
+    # str.splitlines would also break at \x0c and \u2028; the csv reader does not.
+    cb = _write_codebook(tmp_path)
+    data = tmp_path / "sheets"
+    data.mkdir()
+    text = 'id,text,mood,flag\nu1,"a\x0cb\u2028c ""q""",pos,0\nu2,x,neg,1\n'
+    (data / "ana.csv").write_text(text, encoding="utf-8")
+    result = runner.invoke(app, ["validate", "-c", str(cb), str(data), "--json"])
+    assert result.exit_code == 0, result.output
+    (data / "ana.csv").write_text(text + 'u3,"open\x0c,neu,0\n', encoding="utf-8")
+    result = runner.invoke(app, ["validate", "-c", str(cb), str(data), "--json"])
+    problems = json.loads(result.stdout)["problems"]
+    assert [(p["code"], p["line"]) for p in problems] == [("unclosed-quote", 4)]

@@ -121,7 +121,9 @@ def read_csv(path: Path) -> RawTable:
         rows.append(RawRow(number=record, cells=tuple(cells), line=start_line))
     problems: tuple[Problem, ...] = ()
     # Only the last record can end inside a quote (it then runs to the end of the file).
-    opened = _open_quote_line("".join(text.splitlines(keepends=True)[start_line - 1 :]), delimiter)
+    # Lines as the csv reader counts them (``\n``, ``\r`` or ``\r\n``; not ``str.splitlines``).
+    lines = io.StringIO(text, newline="").readlines()
+    opened = _open_quote_line("".join(lines[start_line - 1 :]), delimiter)
     if opened is not None:
         line = start_line + opened - 1
         problems = (
