@@ -427,3 +427,39 @@ def test_unclosed_quote_line_with_form_feed_and_line_separator_in_cells(tmp_path
     result = runner.invoke(app, ["validate", "-c", str(cb), str(data), "--json"])
     problems = json.loads(result.stdout)["problems"]
     assert [(p["code"], p["line"]) for p in problems] == [("unclosed-quote", 4)]
+
+
+# ---- report with thresholds per variable: the methods paragraph and summary named .800/.667 only,
+# ---- and the cautions said ".800 and .667" even when the codebook set .900/.700 for all ----------
+def test_report_names_the_codebooks_own_thresholds(tmp_path):
+    cb = tmp_path / "cb.yaml"
+    cb.write_text(
+        SMALL_CODEBOOK.replace(
+            "  - name: flag\n", "  - name: flag\n    thresholds: {reliable: 0.9, tentative: 0.7}\n"
+        ),
+        encoding="utf-8",
+    )
+    moods = ["pos", "neg", "neu"]
+    a = [(f"u{i}", moods[i % 3], i % 2) for i in range(12)]
+    b = [
+        (u, moods[(i + 1) % 3] if i % 4 == 0 else m, 1 - f if i == 3 else f)
+        for i, (u, m, f) in enumerate(a)
+    ]
+    data = _sheets(tmp_path, {"ana": a, "ben": b})
+    out = tmp_path / "r.md"
+    args = ["report", "-c", str(cb), str(data), "--replicates", "0", "-o", str(out)]
+    assert runner.invoke(app, args).exit_code == 0
+    md = out.read_text("utf-8")
+    assert "(the codebook sets its own thresholds for flag, .900 and .700)" in _methods(md)
+    assert "| Reliable | 0 (α ≥ .800; flag by the codebook's own thresholds) |" in md
+    # Project-wide thresholds of .900/.700: the cautions name them.
+    cb.write_text(
+        SMALL_CODEBOOK.replace(
+            "unit: id\n", "unit: id\nthresholds: {reliable: 0.9, tentative: 0.7}\n"
+        ),
+        encoding="utf-8",
+    )
+    assert runner.invoke(app, args).exit_code == 0
+    md = out.read_text("utf-8")
+    assert "The thresholds .900 and .700 are conventions" in md
+    assert "own thresholds" not in md

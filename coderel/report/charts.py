@@ -18,7 +18,7 @@ from matplotlib import rc_context
 from matplotlib.colors import LinearSegmentedColormap
 from matplotlib.figure import Figure
 
-from coderel.report.methods_text import alpha_phrase, fmt_coef
+from coderel.report.methods_text import alpha_phrase, common_thresholds, fmt_coef
 from coderel.report.model import (
     STATUSES,
     Adjudication,
@@ -247,7 +247,8 @@ def adjudication_chart(adjudication: Adjudication) -> str:
 def report_charts(content: ReportContent) -> dict[str, str]:
     """Every chart of a report as SVG text, by chart id (drawn once, used by HTML and Markdown)."""
     main = [r for r in content.table if r.kind == "variable"] or list(content.table)
-    thresholds = {"reliable": main[0].reliable, "tentative": main[0].tentative} if main else {}
+    base = common_thresholds(main)
+    thresholds = {"reliable": base[0], "tentative": base[1]} if main else {}
     out = {"chart-intervals": interval_chart(content.table, **thresholds)}
     for panel in content.categories:
         if panel.matrix is not None:

@@ -216,7 +216,9 @@ def methods_text(
             "Intercoder reliability could not be assessed: it needs at least two coders coding "
             "the same units."
         )
-        return MethodsText(paragraph=" ".join(s), references=(), cautions=_cautions())
+        return MethodsText(
+            paragraph=" ".join(s), references=(), cautions=_cautions(common_thresholds(rows))
+        )
     s.append(
         "Intercoder reliability was assessed per variable with Krippendorff's alpha "
         "(Krippendorff, 2004, 2011), using the difference function of each variable's level of "
@@ -277,16 +279,29 @@ def methods_text(
         reliable = sum(1 for r in rows if r.verdict == "reliable")
         tentative = sum(1 for r in rows if r.verdict == "tentative")
         below = sum(1 for r in rows if r.verdict == "unreliable")
-        th_r = fmt_coef(rows[0].reliable, 3) if rows else ".800"
-        th_t = fmt_coef(rows[0].tentative, 3) if rows else ".667"
+        base = common_thresholds(rows)
+        th_r, th_t = fmt_coef(base[0], 3), fmt_coef(base[1], 3)
+        own = [r for r in rows if (r.reliable, r.tentative) != base]
+        others = ""
+        if own:
+            others = (
+                " (the codebook sets its own thresholds for "
+                + _join(
+                    [
+                        f"{r.variable}, {fmt_coef(r.reliable, 3)} and {fmt_coef(r.tentative, 3)}"
+                        for r in own
+                    ]
+                )
+                + ")"
+            )
         # APA 7th ed. 6.32: numbers compared with a number of 10 or more are all numerals.
         big = len(rows) >= 10
         s.append(
             f"Of {number_word(len(rows))} variables, {_count(reliable, numerals=big)} reached "
             f"α ≥ {th_r}, {_count(tentative, numerals=big)} reached only α ≥ {th_t} (acceptable "
-            f"for tentative conclusions) and {_count(below, numerals=big)} fell below {th_t}; "
-            "these thresholds are conventions of the field (Krippendorff, 2004), not statistical "
-            "tests."
+            f"for tentative conclusions) and {_count(below, numerals=big)} fell below {th_t}"
+            f"{others}; these thresholds are conventions of the field (Krippendorff, 2004), not "
+            "statistical tests."
         )
         parts = [
             f"{r.variable}, {alpha_phrase(a.estimate, a.ci_low, a.ci_high, level)}"
@@ -316,16 +331,25 @@ def methods_text(
     return MethodsText(
         paragraph=" ".join(s),
         references=tuple(REFERENCES[k] for k in sorted(set(refs), key=REFERENCES_ORDER.index)),
-        cautions=_cautions(),
+        cautions=_cautions(common_thresholds(rows)),
     )
 
 
-def _cautions() -> tuple[str, ...]:
+def common_thresholds(rows: Sequence[VariableRow]) -> tuple[float, float]:
+    """The (reliable, tentative) pair most variables use (the first variable's on a tie)."""
+    pairs = [(r.reliable, r.tentative) for r in rows]
+    if not pairs:
+        return (0.800, 0.667)
+    return max(pairs, key=lambda p: (pairs.count(p), -pairs.index(p)))
+
+
+def _cautions(thresholds: tuple[float, float] = (0.800, 0.667)) -> tuple[str, ...]:
+    th_r, th_t = fmt_coef(thresholds[0], 3), fmt_coef(thresholds[1], 3)
     return (
         "Reliability is not validity: coders can agree on a wrong reading of the text. Check "
         "validity separately (for example against an expert standard or other data).",
-        "The thresholds .800 and .667 are conventions of the field (Krippendorff, 2004), not "
-        "tests; report the interval, not only whether a threshold was passed.",
+        f"The thresholds {th_r} and {th_t} are conventions of the field (Krippendorff, 2004), "
+        "not tests; report the interval, not only whether a threshold was passed.",
         "When you describe or quote the narrative reports, follow your ethics board's approval "
         "and your data-protection rules. This report contains no narrative text.",
     )

@@ -12,7 +12,7 @@ from dataclasses import dataclass
 import pandas as pd
 
 from coderel.report.fmt import coef_interval, coef_value, pct, plain
-from coderel.report.methods_text import fmt_coef, reason_text
+from coderel.report.methods_text import common_thresholds, fmt_coef, reason_text
 from coderel.report.model import COEFFICIENTS, STATUSES, ReportContent, VariableRow
 
 
@@ -120,8 +120,10 @@ def summary_rows(content: ReportContent) -> list[tuple[str, str]]:
     s = content.summary
     main = [r for r in content.table if r.kind == "variable"]
     extra = len(content.table) - len(main)
-    th_r = fmt_coef(main[0].reliable, 3) if main else ".800"
-    th_t = fmt_coef(main[0].tentative, 3) if main else ".667"
+    base = common_thresholds(main)
+    th_r, th_t = fmt_coef(base[0], 3), fmt_coef(base[1], 3)
+    own = [r.variable for r in main if (r.reliable, r.tentative) != base]
+    own_text = f"; {', '.join(own)} by the codebook's own thresholds" if own else ""
     counts = dict(s.verdicts)
     blank = s.cells_total - s.cells_filled - s.cells_not_applicable
     rows = [
@@ -133,9 +135,9 @@ def summary_rows(content: ReportContent) -> list[tuple[str, str]]:
             f"{s.variables}"
             + (f" (and {extra} applicability row{_s(extra)} for skip logic)" if extra else ""),
         ),
-        ("Reliable", f"{counts.get('reliable', 0)} (α ≥ {th_r})"),
-        ("Tentative", f"{counts.get('tentative', 0)} ({th_t} ≤ α < {th_r})"),
-        ("Unreliable", f"{counts.get('unreliable', 0)} (α < {th_t})"),
+        ("Reliable", f"{counts.get('reliable', 0)} (α ≥ {th_r}{own_text})"),
+        ("Tentative", f"{counts.get('tentative', 0)} ({th_t} ≤ α < {th_r}{own_text})"),
+        ("Unreliable", f"{counts.get('unreliable', 0)} (α < {th_t}{own_text})"),
     ]
     if counts.get("undefined"):
         rows.append(("Undefined", f"{counts['undefined']} (alpha has no value; see the table)"))
