@@ -418,6 +418,12 @@ def write_templates(
     folder = Path(out_dir)
     if folder.exists() and not folder.is_dir():
         raise UsageError(f"the output {folder.name!r} is a file, not a folder")
+    if not folder.exists() and folder.suffix.lower() in (".xlsx", ".xlsm", ".csv", ".parquet"):
+        # A name like out/ana.xlsx would become a folder holding out/ana.xlsx/ana.xlsx.
+        raise UsageError(
+            f"the output folder {folder.name!r} looks like a file name; give a folder for the "
+            "workbooks (one <coder>.xlsx each), for example 'templates'"
+        )
     targets = [folder / f"{name}.xlsx" for name in names]
     protected = [*inputs, *([codebook.source] if codebook.source else [])]
     refuse_overwriting_inputs(targets, protected)

@@ -463,3 +463,18 @@ def test_report_names_the_codebooks_own_thresholds(tmp_path):
     md = out.read_text("utf-8")
     assert "The thresholds .900 and .700 are conventions" in md
     assert "own thresholds" not in md
+
+
+# ---- coderel template -o out/ana.xlsx made a folder named ana.xlsx holding the workbooks ---------
+def test_template_output_that_looks_like_a_file_is_refused(tmp_path):
+    cb = _write_codebook(tmp_path)
+    target = tmp_path / "out" / "ana.xlsx"
+    result = runner.invoke(app, ["template", "-c", str(cb), "--coders", "ana", "-o", str(target)])
+    assert result.exit_code == 2
+    assert "looks like a file name" in result.output
+    assert not (tmp_path / "out").exists()
+    ok = runner.invoke(
+        app, ["template", "-c", str(cb), "--coders", "ana", "-o", str(tmp_path / "t")]
+    )
+    assert ok.exit_code == 0
+    assert (tmp_path / "t" / "ana.xlsx").is_file()
