@@ -24,10 +24,11 @@ import pandas as pd
 from coderel.codebook import Variable
 from coderel.codebook.model import Thresholds
 from coderel.codings import Codings
+from coderel.errors import UsageError
 from coderel.stats import undefined as U
 from coderel.stats.bootstrap import Evaluated, evaluate_plans, unit_weights
 from coderel.stats.counts import confusion_table, value_counts
-from coderel.stats.intervals import interval, share_below
+from coderel.stats.intervals import INTERVAL_METHODS, interval, share_below
 from coderel.stats.kappa import (
     cohen_kappa_table,
     fleiss_category_kappas,
@@ -641,6 +642,24 @@ def _row(
     )
 
 
+def _check_settings(replicates: Any, seed: Any, ci_level: Any, interval_method: Any) -> None:
+    """Refuse bootstrap settings that would give no interval, a wrong one, or a numpy error."""
+    if isinstance(replicates, bool) or not isinstance(replicates, int | np.integer):
+        raise UsageError(f"replicates must be a whole number, not {replicates!r}")
+    if replicates < 0:
+        raise UsageError(f"replicates must be 0 (no intervals) or more, not {replicates}")
+    if isinstance(seed, bool) or not isinstance(seed, int | np.integer) or seed < 0:
+        raise UsageError(f"seed must be a whole number of 0 or more, not {seed!r}")
+    if isinstance(ci_level, bool) or not isinstance(ci_level, int | float):
+        raise UsageError(f"ci_level must be a number between 0 and 1, not {ci_level!r}")
+    if not 0 < ci_level < 1:
+        raise UsageError(f"ci_level must lie between 0 and 1 (for example 0.95), not {ci_level}")
+    if interval_method not in INTERVAL_METHODS:
+        raise UsageError(
+            f"interval_method must be one of {', '.join(INTERVAL_METHODS)}, not {interval_method!r}"
+        )
+
+
 def agreement(
     codings: Codings,
     *,
@@ -679,6 +698,7 @@ def agreement(
     variance of kappa in the case of different sets of raters. *Psychological Bulletin*, 86(5),
     974-977.
     """
+    _check_settings(replicates, seed, ci_level, interval_method)
     cb = codings.codebook
     coders = codings.coders
     units = codings.units

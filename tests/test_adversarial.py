@@ -478,3 +478,46 @@ def test_template_output_that_looks_like_a_file_is_refused(tmp_path):
     )
     assert ok.exit_code == 0
     assert (tmp_path / "t" / "ana.xlsx").is_file()
+
+
+# ---- coderel agree --seed -5: internal error (numpy's ValueError), exit 4 -------------------------
+def test_negative_seed_is_a_usage_error(tmp_path):
+    cb = _write_codebook(tmp_path)
+    data = _sheets(tmp_path, {"ana": [("u1", "pos", 0)], "ben": [("u1", "neg", 0)]})
+    for command in ("agree", "report"):
+        args = [command, "-c", str(cb), str(data), "--seed", "-5", "-o", str(tmp_path / "r.md")]
+        result = runner.invoke(app, args[:-2] if command == "agree" else args)
+        assert result.exit_code == 2, result.output
+        assert "--seed" in result.output
+        assert "bug in coderel" not in result.output
+
+
+# ---- Python API: agreement() took replicates=-1, interval_method="foo"; ci_level=1 divided by zero;
+# ---- read_codings(cb, "sheets") read the folders 's', 'h', 'e', ... -----------------------------
+def test_agreement_settings_are_checked_and_one_path_is_read(tmp_path):
+    import pytest
+
+    import coderel
+    from coderel.agree import agreement
+    from coderel.errors import UsageError
+
+    cb_path = _write_codebook(tmp_path)
+    rows = [(f"u{i}", "pos", i % 2) for i in range(3)]
+    data = _sheets(tmp_path, {"ana": rows, "ben": rows})
+    cb = coderel.load_codebook(cb_path)
+    codings = coderel.read_codings(cb, str(data))
+    assert list(codings.coders) == ["ana", "ben"]
+    assert list(coderel.read_codings(cb, data / "ana.csv").coders) == ["ana"]
+    bad = [
+        {"replicates": -1},
+        {"replicates": 2.5},
+        {"seed": -5},
+        {"ci_level": 1.0},
+        {"ci_level": 0},
+        {"ci_level": 95},
+        {"interval_method": "normal"},
+    ]
+    for kwargs in bad:
+        with pytest.raises(UsageError):
+            agreement(codings, **{"replicates": 10, **kwargs})
+    assert agreement(codings, replicates=0, ci_level=0.9).ci_level == 0.9

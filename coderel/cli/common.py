@@ -44,7 +44,9 @@ DataArgument = Annotated[
 JsonOption = Annotated[
     bool, typer.Option("--json", help="Print machine-readable JSON on stdout instead of a table.")
 ]
-SeedOption = Annotated[int, typer.Option("--seed", help="Seed of the bootstrap (reproducible).")]
+SeedOption = Annotated[
+    int, typer.Option("--seed", min=0, help="Seed of the bootstrap (reproducible).")
+]
 ReplicatesOption = Annotated[
     int, typer.Option("--replicates", min=0, help="Bootstrap replicates (0: no intervals).")
 ]

@@ -24,6 +24,7 @@ import difflib
 import re
 from collections.abc import Iterable, Sequence
 from dataclasses import dataclass, field
+from os import PathLike
 from pathlib import Path
 from typing import Any
 
@@ -59,14 +60,18 @@ LONG_HEADER: tuple[str, ...] = ("unit", "coder", "variable", "value")
 CODER_COLUMN = "coder"
 
 
-def collect_files(paths: Sequence[str | Path]) -> list[Path]:
+def collect_files(paths: Sequence[str | Path] | str | Path) -> list[Path]:
     """Expand folders into their data files (sorted, not recursive); keep files as given.
+
+    One path may be given as it is (``"sheets"``), not only in a list.
 
     Raises
     ------
     UsageError
         When no path is given, a path does not exist, or a folder holds no data file.
     """
+    if isinstance(paths, str | PathLike):  # one path, not a sequence of one-letter paths
+        paths = [paths]
     if not paths:
         raise UsageError("give at least one coding sheet or folder (DATA)")
     files: list[Path] = []
@@ -839,7 +844,7 @@ def _read_file(reader: _Reader, path: Path, limits: Limits) -> bool:
 
 
 def read_codings(
-    codebook: Codebook, paths: Sequence[str | Path], *, limits: Limits = DEFAULT_LIMITS
+    codebook: Codebook, paths: Sequence[str | Path] | str | Path, *, limits: Limits = DEFAULT_LIMITS
 ) -> Codings:
     """Read coders' sheets (files or folders) into one long table, collecting every problem.
 
@@ -848,7 +853,8 @@ def read_codings(
     codebook
         The codebook that defines variables, codes, the unit column and text columns.
     paths
-        Files (``.xlsx``, ``.csv``, ``.parquet``) or folders holding them.
+        Files (``.xlsx``, ``.csv``, ``.parquet``) or folders holding them; one path may be
+        given alone.
     limits
         Safety limits applied before a file is parsed.
 
