@@ -712,8 +712,14 @@ def agreement(
 
     # ONE seeded matrix of unit weights over the project's units, reused for every variable and
     # coefficient: a unit without values for a variable contributes nothing to its sums.
-    weights = unit_weights(len(units), replicates, seed)
-    evaluated_all = evaluate_plans(plans, weights, progress=step)
+    try:
+        weights = unit_weights(len(units), replicates, seed)
+        evaluated_all = evaluate_plans(plans, weights, progress=step)
+    except MemoryError:
+        raise UsageError(
+            f"not enough memory for {replicates:,} bootstrap replicates over {len(units):,} "
+            "units; use fewer replicates (2,000 are usual; 0 gives no intervals)"
+        ) from None
     rows = []
     for t, evaluated in zip(targets, evaluated_all, strict=True):
         rows.append(_row(t, evaluated, coders, ci_level, interval_method))

@@ -521,3 +521,19 @@ def test_agreement_settings_are_checked_and_one_path_is_read(tmp_path):
         with pytest.raises(UsageError):
             agreement(codings, **{"replicates": 10, **kwargs})
     assert agreement(codings, replicates=0, ci_level=0.9).ci_level == 0.9
+
+
+# ---- coderel agree --replicates 2000000 on a small machine: MemoryError, "a bug in coderel", exit 4
+def test_out_of_memory_bootstrap_is_a_usage_error(tmp_path, monkeypatch):
+    import coderel.agree
+
+    def no_memory(*_args, **_kwargs):
+        raise MemoryError
+
+    monkeypatch.setattr(coderel.agree, "unit_weights", no_memory)
+    cb = _write_codebook(tmp_path)
+    data = _sheets(tmp_path, {"ana": [("u1", "pos", 0)], "ben": [("u1", "neg", 0)]})
+    result = runner.invoke(app, ["agree", "-c", str(cb), str(data), "--replicates", "2000000"])
+    assert result.exit_code == 2, result.output
+    assert "not enough memory for 2,000,000 bootstrap replicates" in result.output
+    assert "bug in coderel" not in result.output
