@@ -537,3 +537,25 @@ def test_out_of_memory_bootstrap_is_a_usage_error(tmp_path, monkeypatch):
     assert result.exit_code == 2, result.output
     assert "not enough memory for 2,000,000 bootstrap replicates" in result.output
     assert "bug in coderel" not in result.output
+
+
+# ---- coderel merge ... -o notes.txt/m.csv where notes.txt is a file: FileExistsError, exit 4 -------
+def test_output_under_a_file_or_onto_a_folder_is_a_usage_error(tmp_path):
+    cb = _write_codebook(tmp_path)
+    data = _sheets(tmp_path, {"ana": [("u1", "pos", 0)], "ben": [("u1", "pos", 0)]})
+    (tmp_path / "notes.txt").write_text("mine\n", encoding="utf-8")
+    (tmp_path / "folder.csv").mkdir()
+    cases = [
+        ["merge", "-o", str(tmp_path / "notes.txt" / "m.csv")],
+        ["merge", "-o", str(tmp_path / "folder.csv")],
+        ["adjudicate", "-o", str(tmp_path / "notes.txt" / "a.xlsx")],
+        ["validate", "-o", str(tmp_path / "notes.txt" / "p.csv")],
+        ["report", "--replicates", "0", "-o", str(tmp_path / "notes.txt" / "r.html")],
+    ]
+    for command, *options in cases:
+        result = runner.invoke(app, [command, "-c", str(cb), str(data), *options])
+        assert result.exit_code == 2, (command, result.output)
+        assert "cannot write" in result.output
+        assert "bug in coderel" not in result.output
+    assert (tmp_path / "notes.txt").read_text("utf-8") == "mine\n"
+    assert list((tmp_path / "folder.csv").iterdir()) == []

@@ -36,8 +36,13 @@ def atomic_path(target: str | os.PathLike[str]) -> Iterator[Path]:
     the old target untouched.
     """
     target = Path(target)
-    target.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp_name = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=target.parent)
+    if target.is_dir():
+        raise UsageError(f"cannot write {str(target)!r}: it is a folder; name a file")
+    try:
+        target.parent.mkdir(parents=True, exist_ok=True)
+        fd, tmp_name = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=target.parent)
+    except OSError as exc:
+        raise _cannot_write(target, exc) from None
     os.close(fd)
     tmp = Path(tmp_name)
     try:
@@ -45,10 +50,21 @@ def atomic_path(target: str | os.PathLike[str]) -> Iterator[Path]:
         with open(tmp, "rb") as fh:
             os.fsync(fh.fileno())
         os.chmod(tmp, _mode_for(target))
-        os.replace(tmp, target)
+        try:
+            os.replace(tmp, target)
+        except OSError as exc:
+            raise _cannot_write(target, exc) from None
     finally:
         if tmp.exists():
             tmp.unlink()
+
+
+def _cannot_write(target: Path, exc: OSError) -> UsageError:
+    """A write the file system refused (a folder in the path is a file, no permission, ...)."""
+    why = exc.strerror or type(exc).__name__
+    if isinstance(exc, FileExistsError | NotADirectoryError):
+        why = "a part of the folder path is a file, not a folder"
+    return UsageError(f"cannot write {str(target)!r}: {why}; choose another output path or folder")
 
 
 def write_bytes(target: str | os.PathLike[str], data: bytes) -> None:
