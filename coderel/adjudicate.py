@@ -710,7 +710,12 @@ def _read_tables(path: Path) -> dict[str, tuple[list[str], list[list[Any]], list
             text = path.read_text(encoding="utf-8-sig")
         except (OSError, UnicodeDecodeError) as exc:
             raise InputRefused(f"cannot read {path.name!r} as UTF-8 CSV") from exc
-        reader = list(csv.reader(io.StringIO(text)))
+        # A list edited in a spreadsheet program may come back with semicolons (or tabs).
+        first_line = text.split("\n", 1)[0]
+        delimiter = ";" if ";" in first_line and "," not in first_line else ","
+        if "\t" in first_line and "," not in first_line and ";" not in first_line:
+            delimiter = "\t"
+        reader = list(csv.reader(io.StringIO(text, newline=""), delimiter=delimiter))
         if not reader:
             return {MAIN_SHEET: ([], [], [])}
         header, body = reader[0], reader[1:]
@@ -812,6 +817,13 @@ def read_adjudication(path: str | os.PathLike[str], codebook: Codebook) -> Adjud
     tables = _read_tables(path)
     known_text = _known_text(tables, codebook)
     header, body, _ = tables[MAIN_SHEET]
+    if body and not {"unit", "variable", "decision"} <= set(header):
+        # Rows we cannot read: treating the file as empty would write over its decisions.
+        raise InputRefused(
+            f"{path.name!r} holds rows but no unit, variable and decision columns, so its "
+            "decisions cannot be read; nothing was written - restore the header row or choose "
+            "another output"
+        )
     rows = _rows_from(header, body, known_text)
     retired: list[AdjudicationRow] = []
     if RETIRED_SHEET in tables:

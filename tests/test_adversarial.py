@@ -559,3 +559,67 @@ def test_output_under_a_file_or_onto_a_folder_is_a_usage_error(tmp_path):
         assert "bug in coderel" not in result.output
     assert (tmp_path / "notes.txt").read_text("utf-8") == "mine\n"
     assert list((tmp_path / "folder.csv").iterdir()) == []
+
+
+def _decided_csv_list(tmp_path: Path) -> tuple[Path, Path, Path]:
+    """A two-coder project with one disagreement and a CSV list whose decision is filled in."""
+    import csv
+
+    cb = _write_codebook(tmp_path)
+    data = _sheets(
+        tmp_path,
+        {"ana": [("u1", "pos", 0), ("u2", "neg", 1)], "ben": [("u1", "neg", 0), ("u2", "neg", 1)]},
+    )
+    listing = tmp_path / "adj.csv"
+    result = runner.invoke(app, ["adjudicate", "-c", str(cb), str(data), "-o", str(listing)])
+    assert result.exit_code == 0, result.output
+    with listing.open(encoding="utf-8-sig", newline="") as fh:
+        rows = list(csv.reader(fh))
+    rows[1][rows[0].index("decision")] = "neg"
+    return cb, data, rows
+
+
+# ---- the adjudication list as CSV, saved again by a spreadsheet program with semicolons: merge
+# ---- found "no unit, variable or decision column", and adjudicate kept 0 decisions and wrote over
+# ---- the adjudicator's file ------------------------------------------------------------------------
+def test_semicolon_adjudication_list_keeps_its_decisions(tmp_path):
+    import csv
+
+    cb, data, rows = _decided_csv_list(tmp_path)
+    listing = tmp_path / "adj.csv"
+    with listing.open("w", encoding="utf-8-sig", newline="") as fh:
+        csv.writer(fh, delimiter=";", lineterminator="\r\n").writerows(rows)
+    out = tmp_path / "m.csv"
+    merged = runner.invoke(
+        app,
+        [
+            "merge",
+            "-c",
+            str(cb),
+            str(data),
+            "--decisions",
+            str(listing),
+            "-o",
+            str(out),
+            "--strict",
+        ],
+    )
+    assert merged.exit_code == 0, merged.output
+    assert "u1,neg,adjudicated" in out.read_text("utf-8")
+    again = runner.invoke(
+        app, ["adjudicate", "-c", str(cb), str(data), "-o", str(listing), "--json"]
+    )
+    assert again.exit_code == 0, again.output
+    summary = json.loads(again.stdout)
+    assert (summary["kept"], summary["decided"]) == (1, 1)
+
+
+def test_adjudicate_refuses_to_replace_a_list_it_cannot_read(tmp_path):
+    cb, data, _ = _decided_csv_list(tmp_path)
+    listing = tmp_path / "adj.csv"
+    listing.write_text("foo;bar\n1;2\n", encoding="utf-8")  # header lost, decisions unreadable
+    before = _sha(listing)
+    result = runner.invoke(app, ["adjudicate", "-c", str(cb), str(data), "-o", str(listing)])
+    assert result.exit_code == 3, result.output
+    assert "nothing was written" in result.output
+    assert _sha(listing) == before
