@@ -153,6 +153,7 @@ def test_methods_paragraph_with_one_coder(tmp_path):
     assert "could not be assessed" in text
     assert "confidence intervals" not in text
     assert "coders independently" not in text
+    assert "· 1 coder ·" in out.read_text("utf-8").split("\n\n", 2)[1]
 
 
 # ---- report --replicates 2: the paragraph claimed bootstrap intervals that were not given -------

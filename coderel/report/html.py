@@ -194,7 +194,7 @@ def _summary(content: ReportContent) -> str:
     counts = dict(s.verdicts)
     cards = [
         ("units", f"{s.units:,}", "units"),
-        ("coders", str(len(s.coders)), "coders"),
+        ("coders", str(len(s.coders)), "coder" if len(s.coders) == 1 else "coders"),
         ("variables", str(s.variables), "variables"),
     ]
     for verdict in ("reliable", "tentative", "unreliable", "undefined"):
@@ -460,7 +460,8 @@ def render_html(content: ReportContent, charts: Mapping[str, str] | None = None)
     nav = "".join(f'<li><a href="#{x.key}">{_e(x.title)}</a></li>' for x in present)
     body = "".join(_section(x, parts[x.key]()) for x in present)
     meta = (
-        f"Codebook version {r.codebook_version} · {s.units:,} units · {len(s.coders)} coders · "
+        f"Codebook version {r.codebook_version} · {s.units:,} units · {len(s.coders)} "
+        f"{'coder' if len(s.coders) == 1 else 'coders'} · "
         f"{r.generated_utc} · coderel {r.coderel_version}"
     )
     return (

@@ -252,7 +252,8 @@ def render_markdown(
     blocks = [
         f"# Reliability report: {md(s.title)}",
         md(
-            f"Codebook version {r.codebook_version} · {s.units:,} units · {len(s.coders)} coders "
+            f"Codebook version {r.codebook_version} · {s.units:,} units · {len(s.coders)} "
+            f"{'coder' if len(s.coders) == 1 else 'coders'} "
             f"· {r.generated_utc} · coderel {r.coderel_version}"
         ),
     ]
