@@ -624,3 +624,39 @@ def test_adjudicate_refuses_to_replace_a_list_it_cannot_read(tmp_path):
     assert result.exit_code == 3, result.output
     assert "nothing was written" in result.output
     assert _sha(listing) == before
+
+
+# ---- coderel adjudicate ... -o adj.xlsx with a narrative holding control characters (a bell, a
+# ---- vertical tab from a word processor): openpyxl's IllegalCharacterError, exit 4; and a narrative
+# ---- over 32,767 characters was cut without a word ----------------------------------------------
+def test_adjudication_workbook_takes_control_characters_and_long_text(tmp_path):
+    from openpyxl import load_workbook
+
+    from coderel.io.tables import MAX_CELL_TEXT
+
+    cb = _write_codebook(tmp_path)
+    data = tmp_path / "sheets"
+    data.mkdir()
+    long_text = "word " * 10000  # 50,000 characters
+    (data / "ana.csv").write_text(
+        f'id,text,mood,flag\nu1,"bell\x07 line\x0bbreak\x00",pos,0\nu2,"{long_text}",pos,0\n',
+        encoding="utf-8",
+    )
+    (data / "ben.csv").write_text("id,text,mood,flag\nu1,x,neg,0\nu2,y,neg,0\n", encoding="utf-8")
+    out = tmp_path / "adj.xlsx"
+    result = runner.invoke(app, ["adjudicate", "-c", str(cb), str(data), "-o", str(out)])
+    assert result.exit_code == 0, result.output
+    ws = load_workbook(out)["to decide"]
+    header = [c.value for c in ws[1]]
+    texts = [ws.cell(r, header.index("text") + 1).value for r in (2, 3)]
+    assert texts[0] == "bell\ufffd line\nbreak\ufffd"
+    assert len(texts[1]) == MAX_CELL_TEXT
+    assert texts[1].startswith("word word")
+    assert texts[1].endswith("the full text is in the input]")
+    # The CSV form keeps the whole text.
+    csv_out = tmp_path / "adj.csv"
+    assert (
+        runner.invoke(app, ["adjudicate", "-c", str(cb), str(data), "-o", str(csv_out)]).exit_code
+        == 0
+    )
+    assert long_text.strip() in csv_out.read_text("utf-8")

@@ -81,7 +81,26 @@ def cell_value(value: Any) -> Any:
         value = ";".join(str(v) for v in value)
     if isinstance(value, bool | int | float):
         return value
-    return neutralise(str(value))
+    return _fit_cell(neutralise(str(value)))
+
+
+#: The most characters a spreadsheet cell holds (Excel's limit; openpyxl cuts longer text).
+MAX_CELL_TEXT = 32767
+_CUT_NOTE = (
+    " … [cut: the spreadsheet cell limit is 32,767 characters; the full text is in the input]"
+)
+#: Control characters that XML 1.0, and so xlsx, cannot hold (openpyxl raises on them).
+_XML_ILLEGAL = re.compile(r"[\x00-\x08\x0e-\x1f]")
+
+
+def _fit_cell(text: str) -> str:
+    """Text an xlsx cell can hold: a line break for vertical tab and form feed (as word
+    processors export line and page breaks), U+FFFD for other control characters, and a
+    visible note where text is cut to :data:`MAX_CELL_TEXT` characters."""
+    text = _XML_ILLEGAL.sub("\ufffd", text.replace("\x0b", "\n").replace("\x0c", "\n"))
+    if len(text) > MAX_CELL_TEXT:
+        text = text[: MAX_CELL_TEXT - len(_CUT_NOTE)] + _CUT_NOTE
+    return text
 
 
 def fill_sheet(ws: Any, frame: pd.DataFrame, *, freeze: str = "A2", width: int = 60) -> None:
