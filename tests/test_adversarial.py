@@ -660,3 +660,37 @@ def test_adjudication_workbook_takes_control_characters_and_long_text(tmp_path):
         == 0
     )
     assert long_text.strip() in csv_out.read_text("utf-8")
+
+
+# ---- coderel agree --json with a refused sheet or a missing codebook: stdout was empty, so a script
+# ---- reading the JSON had nothing to parse -----------------------------------------------------------
+def test_json_on_stdout_when_a_command_stops(tmp_path):
+    cb = _write_codebook(tmp_path)
+    data = _sheets(tmp_path, {"ana": [("u1", "pos", 0)]})
+    (data / "ben.xlsx").write_bytes(b"not a zip archive")
+    result = runner.invoke(app, ["agree", "-c", str(cb), str(data), "--json"])
+    assert result.exit_code == 3
+    doc = json.loads(result.stdout)
+    assert doc["exit_code"] == 3
+    assert [p["code"] for p in doc["problems"]] == ["input-refused"]
+    assert doc["problems"][0]["file"] == "ben.xlsx"
+    result = runner.invoke(
+        app,
+        [
+            "merge",
+            "-c",
+            str(tmp_path / "nope.yaml"),
+            str(data),
+            "-o",
+            str(tmp_path / "m.csv"),
+            "--json",
+        ],
+    )
+    assert result.exit_code == 2
+    doc = json.loads(result.stdout)
+    assert doc["exit_code"] == 2
+    assert "nope.yaml" in doc["error"]
+    # Without --json, stdout stays empty (messages go to stderr).
+    result = runner.invoke(app, ["agree", "-c", str(cb), str(data)])
+    assert result.exit_code == 3
+    assert result.stdout == ""

@@ -195,6 +195,17 @@ def handle_errors(func: F) -> F:
 
     @functools.wraps(func)
     def wrapper(*args: Any, **kwargs: Any) -> Any:
+        def json_error(exc: CoderelError, code: ExitCode, problems: Problems | None) -> None:
+            # With --json, stdout still holds JSON when the command stops: scripts read it.
+            if kwargs.get("json_out"):
+                emit_json(
+                    {
+                        "error": str(exc),
+                        "exit_code": int(code),
+                        **(problems or Problems()).to_dict(),
+                    }
+                )
+
         try:
             code = func(*args, **kwargs)
         except (typer.Exit, typer.Abort):
@@ -202,14 +213,17 @@ def handle_errors(func: F) -> F:
         except (CodebookError, DataProblems) as exc:
             print_problems(exc.problems)
             say(f"[red]{exc}[/red]")
+            json_error(exc, exc.exit_code, exc.problems)
             raise typer.Exit(int(exc.exit_code)) from None
         except InputRefused as exc:
             if exc.problems:
                 print_problems(exc.problems)
             say(f"[red]input refused:[/red] {exc}")
+            json_error(exc, ExitCode.INPUT_REFUSED, exc.problems)
             raise typer.Exit(int(ExitCode.INPUT_REFUSED)) from None
         except CoderelError as exc:
             say(f"[red]error:[/red] {exc}")
+            json_error(exc, exc.exit_code, None)
             raise typer.Exit(int(exc.exit_code)) from None
         except KeyboardInterrupt:
             say("interrupted; no output was changed")
