@@ -471,6 +471,11 @@ def _verdict(alpha: Estimate | None, th: Thresholds) -> str:
     return "tentative" if a >= th.tentative else "unreliable"
 
 
+def _share(x: float) -> str:
+    """A share in words: one decimal below 10% (``1.5%``), whole percent above (``25%``)."""
+    return f"{x:.1%}" if x < 0.1 else f"{x:.0%}"
+
+
 def _notes(
     t: _Target,
     coefs: dict[str, Estimate | None],
@@ -495,7 +500,7 @@ def _notes(
             f"the coders agreed on every one of the {pairable_units} units: every bootstrap "
             "resample agrees too, so no interval is given (it would be [1, 1] and claim "
             "certainty); even so, up to about "
-            f"{min(1.0, 3 / pairable_units):.0%} of units could be disagreements in a larger "
+            f"{_share(min(1.0, 3 / pairable_units))} of units could be disagreements in a larger "
             "sample (rule of three, 95%)"
         )
     if TOO_FEW_REPLICATES in withheld:

@@ -104,6 +104,9 @@ def test_perfect_agreement_gives_no_collapsed_interval_and_says_why():
     assert v.alpha_below_min is None
     # Rule of three (Hanley & Lippman-Hand 1983, JAMA 249(13)): 0 events in n=12 -> 3/12 = 25%.
     assert any("agreed on every one of the 12 units" in n and "25%" in n for n in v.notes)
+    # 3/200 = 1.5%, with one decimal below 10%.
+    big = agreement(_codings({"f": [(0, 0)] * 150 + [(1, 1)] * 50}), replicates=50).variable("f")
+    assert any("up to about 1.5% of units" in n for n in big.notes)
     # One disagreement: an ordinary interval again.
     rows[0] = (0, 1)
     v = agreement(_codings({"f": rows}), replicates=200).variable("f")
