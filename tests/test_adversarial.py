@@ -697,3 +697,12 @@ def test_json_on_stdout_when_a_command_stops(tmp_path):
     result = runner.invoke(app, ["agree", "-c", str(cb), str(data)])
     assert result.exit_code == 3
     assert result.stdout == ""
+
+
+# ---- coderel agree with one coder: eleven "only 0 units" notes and no word on the reason ----------
+def test_agree_with_one_coder_says_why_in_one_line(tmp_path):
+    cb = _write_codebook(tmp_path)
+    data = _sheets(tmp_path, {"ana": [(f"u{i}", "pos", i % 2) for i in range(5)]})
+    result = runner.invoke(app, ["agree", "-c", str(cb), str(data), "--replicates", "0"])
+    assert result.exit_code == 0, result.output
+    assert "only 1 coder(s) (ana): agreement needs at least two coders" in result.output

@@ -115,6 +115,11 @@ def agree_command(
             write_table(result.pairs_frame(), pairs_path, sheet="pairs")
             say(f"pairs written to {pairs_path}")
         say(f"table written to {out}")
+    if len(result.coders) < 2:
+        say(
+            f"only {len(result.coders)} coder(s) ({', '.join(result.coders) or 'none'}): agreement "
+            "needs at least two coders coding the same units, so every coefficient is undefined"
+        )
     if json_out:
         emit_json(result.to_dict(pairs=pairs))
         return ExitCode.OK
