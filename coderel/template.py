@@ -71,11 +71,20 @@ _BAD_NAME = re.compile(r'[<>:"/\\|?*\x00-\x1f]')
 
 
 # ---- inputs ----------------------------------------------------------------------------------
+#: Names Windows reserves for devices, even with an extension (``con.xlsx`` cannot be made there).
+_RESERVED_NAMES = frozenset(
+    ["con", "prn", "aux", "nul"]
+    + [f"com{i}" for i in range(1, 10)]
+    + [f"lpt{i}" for i in range(1, 10)]
+)
+
+
 def check_coder_names(coders: Sequence[str]) -> list[str]:
     """Return the coder names stripped; :class:`UsageError` when one cannot name a file.
 
     A coder's name becomes the workbook's file name (``<coder>.xlsx``), which is where the
-    reader takes the coder from; so a name must be a valid, unique file name.
+    reader takes the coder from; so a name must be a valid, unique file name on every common
+    system (no Windows device name such as ``con``, no trailing dot).
     """
     names = [c.strip() for c in coders]
     if not names or not any(names):
@@ -84,7 +93,13 @@ def check_coder_names(coders: Sequence[str]) -> list[str]:
     for name in names:
         if not name:
             raise UsageError("a coder name is empty (check the commas in --coders)")
-        if _BAD_NAME.search(name) or name.startswith((".", "~$")) or len(name) > 100:
+        if (
+            _BAD_NAME.search(name)
+            or name.startswith((".", "~$"))
+            or name.endswith(".")
+            or name.casefold() in _RESERVED_NAMES
+            or len(name) > 100
+        ):
             raise UsageError(
                 f"the coder name {name!r} cannot be a file name; use letters, digits, '_' or '-'"
             )

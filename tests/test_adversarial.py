@@ -706,3 +706,20 @@ def test_agree_with_one_coder_says_why_in_one_line(tmp_path):
     result = runner.invoke(app, ["agree", "-c", str(cb), str(data), "--replicates", "0"])
     assert result.exit_code == 0, result.output
     assert "only 1 coder(s) (ana): agreement needs at least two coders" in result.output
+
+
+# ---- coderel template --coders con,ana. wrote con.xlsx and ana..xlsx: Windows cannot create the first
+# ---- (a device name) and drops the trailing dot of the second, so the coder's name would change ----
+def test_template_refuses_names_windows_cannot_hold(tmp_path):
+    cb = _write_codebook(tmp_path)
+    for name in ("con", "NUL", "com1", "ana."):
+        result = runner.invoke(
+            app, ["template", "-c", str(cb), "--coders", name, "-o", str(tmp_path / "t")]
+        )
+        assert result.exit_code == 2, name
+        assert "cannot be a file name" in result.output
+    assert not (tmp_path / "t").exists()
+    ok = runner.invoke(
+        app, ["template", "-c", str(cb), "--coders", "console,nula", "-o", str(tmp_path / "t")]
+    )
+    assert ok.exit_code == 0, ok.output
