@@ -723,3 +723,27 @@ def test_template_refuses_names_windows_cannot_hold(tmp_path):
         app, ["template", "-c", str(cb), "--coders", "console,nula", "-o", str(tmp_path / "t")]
     )
     assert ok.exit_code == 0, ok.output
+
+
+# ---- template with unit IDs like -002 or +3 (neutralised to '-002 in the workbook) read back as
+# ---- "'-002", so the template's units matched no other sheet -----------------------------------------
+def test_template_unit_ids_that_look_like_formulas_read_back_unchanged(tmp_path):
+    from openpyxl import load_workbook
+
+    cb = _write_codebook(tmp_path)
+    units = tmp_path / "units.txt"
+    units.write_bytes("\ufeffu1\r\n-002\r\n+3\r\n@x\r\n=A1\r\n".encode())
+    t = tmp_path / "t"
+    args = ["template", "-c", str(cb), "--coders", "ana", "-o", str(t), "--units", str(units)]
+    assert runner.invoke(app, args).exit_code == 0
+    wb = load_workbook(t / "ana.xlsx")
+    ws = wb["coding"]
+    for r in range(2, 7):
+        ws.cell(r, 3).value = "pos"
+        ws.cell(r, 4).value = 0
+    wb.save(t / "ana.xlsx")
+    lines = ["id,text,mood,flag", *(f"{u},x,pos,0" for u in ["u1", "-002", "+3", "@x", "=A1"])]
+    (t / "ben.csv").write_text("\n".join(lines) + "\n", encoding="utf-8")
+    result = runner.invoke(app, ["validate", "-c", str(cb), str(t), "--json"])
+    assert result.exit_code == 0, result.output
+    assert json.loads(result.stdout)["problems"] == []

@@ -44,6 +44,7 @@ from coderel.io.archive import (
     describe_ole2,
 )
 from coderel.io.atomic import sha256_file
+from coderel.io.safe_text import DANGEROUS_PREFIXES
 from coderel.io.text_tables import RawRow, RawTable, read_csv, read_parquet
 from coderel.normalise import (
     CellError,
@@ -112,6 +113,8 @@ def _text_of(raw: Any) -> str | None:
     if isinstance(raw, dt.datetime | dt.date):
         return raw.isoformat()
     text = str(raw).strip()
+    if text.startswith("'") and text[1:].startswith(DANGEROUS_PREFIXES):
+        text = text[1:]  # neutralised when coderel wrote it (a template's unit '-002)
     return text or None
 
 
