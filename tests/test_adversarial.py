@@ -747,3 +747,31 @@ def test_template_unit_ids_that_look_like_formulas_read_back_unchanged(tmp_path)
     result = runner.invoke(app, ["validate", "-c", str(cb), str(t), "--json"])
     assert result.exit_code == 0, result.output
     assert json.loads(result.stdout)["problems"] == []
+
+
+# ---- a unit ID typed as 1-3 and turned into a date by the spreadsheet read silently as
+# ---- "2026-01-03T00:00:00", matching neither the text "1-3" nor the date typed as text -------------
+def test_unit_id_held_as_a_date_is_pointed_out(tmp_path):
+    import datetime as dt
+
+    from openpyxl import Workbook
+
+    cb = _write_codebook(tmp_path)
+    data = tmp_path / "sheets"
+    data.mkdir()
+    wb = Workbook()
+    ws = wb.active
+    ws.append(["id", "text", "mood", "flag"])
+    ws.append([dt.datetime(2026, 1, 3), "x", "pos", 0])
+    ws.append(["u2", "x", "pos", 0])
+    wb.save(data / "ana.xlsx")
+    (data / "ben.csv").write_text(
+        "id,text,mood,flag\n2026-01-03,x,pos,0\nu2,x,pos,0\n", encoding="utf-8"
+    )
+    result = runner.invoke(app, ["validate", "-c", str(cb), str(data), "--json"])
+    assert result.exit_code == 0, result.output
+    problems = json.loads(result.stdout)["problems"]
+    assert [(p["code"], p["unit"], p["cell"]) for p in problems] == [
+        ("date-unit-id", "2026-01-03", "A2")
+    ]
+    assert problems[0]["severity"] == "warning"

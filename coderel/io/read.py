@@ -110,7 +110,9 @@ def _text_of(raw: Any) -> str | None:
             return None
         if raw.is_integer():
             return str(int(raw))
-    if isinstance(raw, dt.datetime | dt.date):
+    if isinstance(raw, dt.datetime) and raw.time() == dt.time(0):
+        return raw.date().isoformat()  # a date cell, as the same date typed as text reads
+    if isinstance(raw, dt.datetime | dt.date | dt.time):
         return raw.isoformat()
     text = str(raw).strip()
     if text.startswith("'") and text[1:].startswith(DANGEROUS_PREFIXES):
@@ -442,6 +444,16 @@ class _Reader:
                     **unit_place,
                 )
             return None
+        if isinstance(raw_unit, dt.datetime | dt.date | dt.time):
+            self.problems.add(
+                "date-unit-id",
+                f"the unit ID cell holds a date or time, read as {unit}",
+                hint="if the ID is not a date (a spreadsheet turns IDs like 1-3 into dates), "
+                "format the column as Text and type the IDs again; if it is, write it the same "
+                "way in every sheet",
+                unit=unit,
+                **unit_place,
+            )
         coder = default_coder
         if coder_pos is not None:
             coder_text = _text_of(cells[coder_pos])
