@@ -75,6 +75,10 @@ PROBLEM_CODES: dict[str, tuple[Severity, str]] = {
     "bad-decision": ("error", "an adjudication decision is not a valid code for its variable"),
     # warnings
     "partial-unit": ("warning", "a unit is coded by only some of the coders"),
+    "own-output": (
+        "warning",
+        "a file written by coderel (merged dataset, list, report) was not read",
+    ),
     "date-unit-id": ("warning", "a unit ID cell holds a date or time (perhaps a converted ID)"),
     "blank-variable": ("warning", "a coder left a variable blank on every unit where it applies"),
     "normalised-number": ("warning", "a number stored as text was read as a number"),

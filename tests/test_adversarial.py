@@ -775,3 +775,45 @@ def test_unit_id_held_as_a_date_is_pointed_out(tmp_path):
         ("date-unit-id", "2026-01-03", "A2")
     ]
     assert problems[0]["severity"] == "warning"
+
+
+# ---- merge -o sheets/merged.xlsx, then agree on sheets/: the merged dataset (and its labels sheet)
+# ---- were read as two more coders, and alpha rose (species .957 -> .974 on the demo) ------------------
+def test_own_outputs_in_the_sheets_folder_are_not_read_as_coders(tmp_path):
+    cb = _write_codebook(tmp_path)
+    moods = ["pos", "neg", "neu"]
+    a = [(f"u{i}", moods[i % 3], i % 2) for i in range(12)]
+    b = [(u, moods[(i + 1) % 3] if i % 4 == 0 else m, f) for i, (u, m, f) in enumerate(a)]
+    data = _sheets(tmp_path, {"ana": a, "ben": b})
+    base = json.loads(
+        runner.invoke(
+            app, ["agree", "-c", str(cb), str(data), "--replicates", "0", "--json"]
+        ).stdout
+    )
+    outputs = [
+        ["merge", "-o", "merged.xlsx"],
+        ["merge", "-o", "merged.csv"],
+        ["merge", "-o", "merged.parquet"],
+        ["adjudicate", "-o", "adj.xlsx"],
+        ["adjudicate", "-o", "adj.csv"],
+        ["agree", "--replicates", "0", "-o", "agreement.xlsx"],
+        ["agree", "--replicates", "0", "-o", "agreement.csv"],
+        ["validate", "-o", "problems.csv"],
+        ["report", "--replicates", "0", "-o", "report.xlsx"],
+    ]
+    for command, *options in outputs:
+        target = tmp_path / "out" / options[-1]
+        result = runner.invoke(app, [command, "-c", str(cb), str(data), *options[:-1], str(target)])
+        assert result.exit_code in (0, 1), (command, result.output)
+        (data / options[-1]).write_bytes(target.read_bytes())
+    result = runner.invoke(app, ["agree", "-c", str(cb), str(data), "--replicates", "0", "--json"])
+    assert result.exit_code == 0, result.output
+    after = json.loads(result.stdout)
+    assert after["coders"] == ["ana", "ben"]
+    assert after["variables"] == base["variables"]
+    assert "not read, written by coderel" in result.output
+    problems = json.loads(
+        runner.invoke(app, ["validate", "-c", str(cb), str(data), "--json"]).stdout
+    )
+    skipped = sorted(p["file"] for p in problems["problems"] if p["code"] == "own-output")
+    assert skipped == sorted(o[-1] for o in outputs)

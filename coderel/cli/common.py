@@ -277,6 +277,12 @@ def read_project(codebook: Path, data: list[Path], *, errors_note: str) -> Codin
             "be missing",
             problems=Problems(refused),
         )
+    skipped = [p.file for p in codings.problems if p.code == "own-output"]
+    if skipped:
+        say(
+            f"not read, written by coderel (not coders' sheets): {', '.join(map(str, skipped))}; "
+            "keep outputs out of the folder of coders' sheets"
+        )
     errors = len(codings.problems.errors)
     if errors:
         say(f"{errors} cell(s) with errors {errors_note}; run 'coderel validate' to see them")

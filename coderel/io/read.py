@@ -801,14 +801,57 @@ def _short(value: Any) -> str:
     return str(value)
 
 
+def own_output(tables: Sequence[RawTable], codebook: Codebook) -> str | None:
+    """What coderel output a file is (``"a merged dataset"``), or None for anything else.
+
+    Recognised by the headers and sheet names coderel writes: such a file left in the folder of
+    coders' sheets must not be read as one more coder (a merged dataset agrees with everyone).
+    """
+    sheets = {t.sheet for t in tables if t.sheet}
+    if {"methods", "reproducibility"} <= sheets:
+        return "a reliability report"
+    for t in tables:
+        header = [h.casefold() for h in t.header]
+        if {"unit", "variable", "kind", "decision", "key"} <= set(header):
+            return "an adjudication list"
+        if header[:3] == ["code", "severity", "message"]:
+            return "a problem list"
+        if header[:2] == ["variable", "kind"] and "coefficient" in header:
+            return "an agreement table"
+        if (
+            header[:1] == [codebook.unit.casefold()]
+            and codebook.names
+            and all(f"{n}_status".casefold() in header for n in codebook.names)
+        ):
+            return "a merged dataset"
+    return None
+
+
+def _skip_own_output(reader: _Reader, path: Path, tables: Sequence[RawTable]) -> bool:
+    """Add an ``own-output`` warning and return True when ``tables`` are a coderel output."""
+    kind = own_output(tables, reader.codebook)
+    if kind is None:
+        return False
+    reader.problems.add(
+        "own-output",
+        f"{path.name} is {kind} written by coderel, not a coder's sheet; it was not read",
+        hint="keep coderel's outputs out of the folder of coders' sheets, or name the coders' "
+        "files one by one",
+        file=path.name,
+    )
+    return True
+
+
 def _read_file(reader: _Reader, path: Path, limits: Limits) -> bool:
-    """Read one file into ``reader``; return False when it was refused."""
+    """Read one file into ``reader``; return False when it was refused or skipped."""
     from coderel.io.xlsx import read_workbook
 
     suffix = path.suffix.lower()
     try:
         if suffix == ".xlsx":
             workbook = read_workbook(path, limits)
+            if _skip_own_output(reader, path, workbook.tables):
+                return False
             if not workbook.tables:
                 reader.problems.add(
                     "empty-sheet",
@@ -821,7 +864,10 @@ def _read_file(reader: _Reader, path: Path, limits: Limits) -> bool:
                 reader.read_table(table, table.sheet if several and table.sheet else path.stem)
         elif suffix == ".csv":
             check_text(path, limits)
-            reader.read_table(read_csv(path), path.stem)
+            table = read_csv(path)
+            if _skip_own_output(reader, path, [table]):
+                return False
+            reader.read_table(table, path.stem)
         elif suffix == ".parquet":
             check_parquet(path, limits)
             try:
@@ -830,6 +876,8 @@ def _read_file(reader: _Reader, path: Path, limits: Limits) -> bool:
                 raise InputRefused(
                     f"{path.name} cannot be read as Parquet ({type(exc).__name__})"
                 ) from None
+            if _skip_own_output(reader, path, [table]):
+                return False
             reader.read_table(table, path.stem)
         else:
             with open(path, "rb") as fh:
