@@ -462,9 +462,16 @@ def _standard_errors(
     return out
 
 
-def _verdict(alpha: Estimate | None, th: Thresholds) -> str:
+#: The verdict when alpha stands on fewer than :data:`MIN_UNITS_FOR_INTERVAL` pairable units: a
+#: "reliable" on three units would be a confident word for what the data cannot show.
+TOO_FEW_UNITS_VERDICT = "too few units"
+
+
+def _verdict(alpha: Estimate | None, th: Thresholds, pairable_units: int | None = None) -> str:
     if alpha is None or alpha.estimate is None:
         return "undefined"
+    if pairable_units is not None and pairable_units < MIN_UNITS_FOR_INTERVAL:
+        return TOO_FEW_UNITS_VERDICT
     a = alpha.estimate
     if a >= th.reliable:
         return "reliable"
@@ -491,7 +498,7 @@ def _notes(
     if pairable_units < MIN_UNITS_FOR_INTERVAL:
         notes.append(
             f"only {pairable_units} units have two or more values: too few for a "
-            "meaningful interval, none is given"
+            "meaningful interval or a verdict, none is given"
         )
     if PERFECT_AGREEMENT in withheld:
         # Rule of three: with no event in n trials, 3/n is an approximate 95% upper bound of
@@ -634,7 +641,7 @@ def _row(
         pairable_values=pairable_values,
         coefficients=coefs,
         alpha_below_min=below,
-        verdict=_verdict(alpha, t.thresholds),
+        verdict=_verdict(alpha, t.thresholds, pairable_units),
         notes=tuple(
             _notes(t, coefs, pairable_units, fleiss_units, cat_agree, replicates, ci_level)
         ),

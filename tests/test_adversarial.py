@@ -817,3 +817,31 @@ def test_own_outputs_in_the_sheets_folder_are_not_read_as_coders(tmp_path):
     )
     skipped = sorted(p["file"] for p in problems["problems"] if p["code"] == "own-output")
     assert skipped == sorted(o[-1] for o in outputs)
+
+
+# ---- coderel agree on 3 units: no interval, but the verdict said "reliable" (and the report
+# ---- counted it among the reliable variables) -------------------------------------------------------
+def test_no_verdict_on_a_handful_of_units(tmp_path):
+    from coderel.agree import MIN_UNITS_FOR_INTERVAL, agreement
+
+    v = agreement(_codings({"f": [(0, 0), (1, 1), (0, 0)]}), replicates=100).variable("f")
+    assert v.coefficients["krippendorff_alpha"].estimate == 1.0
+    assert v.verdict == "too few units"
+    rows = [(0, 0), (1, 1)] * (MIN_UNITS_FOR_INTERVAL // 2) + [(0, 1)]
+    assert agreement(_codings({"f": rows}), replicates=0).variable("f").verdict != "too few units"
+    cb = _write_codebook(tmp_path)
+    data = _sheets(
+        tmp_path,
+        {"ana": [("u1", "pos", 0), ("u2", "neg", 1)], "ben": [("u1", "pos", 0), ("u2", "neg", 1)]},
+    )
+    out = tmp_path / "r.md"
+    result = runner.invoke(
+        app, ["report", "-c", str(cb), str(data), "--replicates", "0", "-o", str(out)]
+    )
+    assert result.exit_code == 0, result.output
+    md = out.read_text("utf-8")
+    assert "| Reliable | 0 (α ≥ .800) |" in md
+    assert "| Too few units | 2 (" in md
+    text = _methods(md)
+    assert "No verdict is given for mood and flag" in text
+    assert "reached α ≥" not in text

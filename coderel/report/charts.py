@@ -37,6 +37,7 @@ VERDICT_COLOURS: dict[str, str] = {
     "tentative": "#b5832a",
     "unreliable": "#a4473b",
     "undefined": "#8b9098",
+    "too few units": "#8b9098",
 }
 STATUS_COLOURS: dict[str, str] = {
     "agreed": "#2e6f62",

@@ -86,7 +86,7 @@ table.kv th { width: 11rem; background: transparent; font-weight: 600; }
 .verdict.reliable { background: #e1efea; color: var(--good); }
 .verdict.tentative { background: #f6ecd8; color: var(--mid); }
 .verdict.unreliable { background: #f5e1dd; color: var(--bad); }
-.verdict.undefined { background: #ececee; color: var(--none); }
+.verdict.undefined, .verdict.too-few-units { background: #ececee; color: var(--none); }
 td.coef { white-space: nowrap; font-variant-numeric: tabular-nums; padding: .3rem .35rem; }
 table.coefficients { font-size: .8rem; }
 table.coefficients th { padding: .3rem .35rem; }
@@ -197,9 +197,9 @@ def _summary(content: ReportContent) -> str:
         ("coders", str(len(s.coders)), "coder" if len(s.coders) == 1 else "coders"),
         ("variables", str(s.variables), "variables"),
     ]
-    for verdict in ("reliable", "tentative", "unreliable", "undefined"):
-        if verdict != "undefined" or counts.get(verdict):
-            cards.append((verdict, str(counts.get(verdict, 0)), verdict))
+    for verdict in ("reliable", "tentative", "unreliable", "too few units", "undefined"):
+        if verdict in ("reliable", "tentative", "unreliable") or counts.get(verdict):
+            cards.append((verdict.replace(" ", "-"), str(counts.get(verdict, 0)), verdict))
     cards.append(("completeness", pct(s.completeness), "cells with a value"))
     html = ['<div class="cards">']
     for cls, n, what in cards:
@@ -244,7 +244,8 @@ def _agreement(content: ReportContent) -> str:
         if show_se:
             cells.append(f'<td class="num">{_e(r["se"])}</td>')
         cells += [
-            f'<td><span class="verdict {_e(r["verdict"])}">{_e(r["verdict"])}</span></td>',
+            f'<td><span class="verdict {_e(r["verdict"].replace(" ", "-"))}">'
+            f"{_e(r['verdict'])}</span></td>",
             f'<td class="notes">{_e(notes)}</td>',
         ]
         out.append(f'<tr id="{_e(table_row.row_id)}">{"".join(cells)}</tr>')

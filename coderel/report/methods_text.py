@@ -294,15 +294,30 @@ def methods_text(
                 )
                 + ")"
             )
+        few = [r.variable for r in rows if r.verdict == "too few units"]
+        judged = len(rows) - len(few)
         # APA 7th ed. 6.32: numbers compared with a number of 10 or more are all numerals.
         big = len(rows) >= 10
-        s.append(
-            f"Of {number_word(len(rows))} variables, {_count(reliable, numerals=big)} reached "
+        of = (
+            f"Of {number_word(len(rows))} variables"
+            if not few
+            else f"Of the {number_word(judged)} variable{'s' if judged != 1 else ''} with "
+            "enough units"
+        )
+        verdicts = (
+            f"{of}, {_count(reliable, numerals=big)} reached "
             f"α ≥ {th_r}, {_count(tentative, numerals=big)} reached only α ≥ {th_t} (acceptable "
             f"for tentative conclusions) and {_count(below, numerals=big)} fell below {th_t}"
             f"{others}; these thresholds are conventions of the field (Krippendorff, 2004), not "
             "statistical tests."
         )
+        if judged:
+            s.append(verdicts)
+        if few:
+            s.append(
+                f"No verdict is given for {_join(few)}: alpha rests on fewer than ten units "
+                "coded by two or more coders."
+            )
         parts = [
             f"{r.variable}, {alpha_phrase(a.estimate, a.ci_low, a.ci_high, level)}"
             for r, a in defined

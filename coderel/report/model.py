@@ -39,7 +39,7 @@ COEFFICIENTS: dict[str, str] = {
     "gwet_ac2": "Gwet's AC2",
     "pabak": "PABAK",
 }
-VERDICTS: tuple[str, ...] = ("reliable", "tentative", "unreliable", "undefined")
+VERDICTS: tuple[str, ...] = ("reliable", "tentative", "unreliable", "too few units", "undefined")
 STATUSES: tuple[str, ...] = (
     "agreed",
     "majority",

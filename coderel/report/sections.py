@@ -139,6 +139,14 @@ def summary_rows(content: ReportContent) -> list[tuple[str, str]]:
         ("Tentative", f"{counts.get('tentative', 0)} ({th_t} ≤ α < {th_r}{own_text})"),
         ("Unreliable", f"{counts.get('unreliable', 0)} (α < {th_t}{own_text})"),
     ]
+    if counts.get("too few units"):
+        rows.append(
+            (
+                "Too few units",
+                f"{counts['too few units']} (alpha rests on fewer than 10 units: no interval "
+                "and no verdict)",
+            )
+        )
     if counts.get("undefined"):
         rows.append(("Undefined", f"{counts['undefined']} (alpha has no value; see the table)"))
     rows.append(
