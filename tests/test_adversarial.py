@@ -845,3 +845,24 @@ def test_no_verdict_on_a_handful_of_units(tmp_path):
     text = _methods(md)
     assert "No verdict is given for mood and flag" in text
     assert "reached α ≥" not in text
+
+
+def test_no_blank_variable_warning_where_skip_logic_says_it_never_applies(tmp_path):
+    cb = tmp_path / "cb.yaml"
+    cb.write_text(
+        SMALL_CODEBOOK
+        + "  - name: why\n    level: nominal\n    applies_when: {variable: flag, includes: [1]}\n"
+        "    categories: [{code: a, label: A}, {code: b, label: B}]\n",
+        encoding="utf-8",
+    )
+    data = tmp_path / "sheets"
+    data.mkdir()
+    (data / "ana.csv").write_text(
+        "id,text,mood,flag,why\nu1,x,pos,0,\nu2,x,neg,0,\n", encoding="utf-8"
+    )
+    (data / "ben.csv").write_text(
+        "id,text,mood,flag,why\nu1,x,pos,1,a\nu2,x,neg,1,b\n", encoding="utf-8"
+    )
+    result = runner.invoke(app, ["validate", "-c", str(cb), str(data), "--json"])
+    codes = [p["code"] for p in json.loads(result.stdout)["problems"]]
+    assert "blank-variable" not in codes

@@ -699,7 +699,9 @@ class _Reader:
         empty = frame["value"].isna().to_numpy() & frame["missing"].isna().to_numpy()
         blank = empty & ~frame["_invalid"].astype(bool).to_numpy()
         begun = set(frame.loc[~empty, "coder"])
-        applies = frame["applies"].map(lambda a: a is not False).to_numpy(dtype=bool, copy=True)
+        # None: no condition; False (Python's or numpy's): the condition says it does not apply.
+        applies = frame["applies"].map(lambda a: a is None or bool(a))
+        applies = applies.to_numpy(dtype=bool, copy=True)
         applies &= frame["coder"].isin(begun).to_numpy()
         cols = frame.loc[applies, ["coder", "variable"]].assign(_blank=blank[applies])
         if cols.empty:
