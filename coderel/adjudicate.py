@@ -194,11 +194,25 @@ class Decision:
         }
 
 
+def _label_of(var: Variable, code: Any) -> str:
+    for item in (*var.categories, *var.missing):
+        if item.code == code:
+            return str(item.label or "")
+    return ""
+
+
+def _same_label(a: str, b: str) -> bool:
+    return " ".join(a.casefold().split()) == " ".join(b.casefold().split())
+
+
 def _match_code(var: Variable, text: str) -> Any:
     """One code given as ``code``, ``code = label`` or a label; ``None`` when none matches."""
     text = text.strip()
     if " = " in text:
-        text = text.split(" = ", 1)[0].strip()
+        text, label = (t.strip() for t in text.split(" = ", 1))
+        code = _match_code(var, text)
+        # "7 = Moose" when 7 is "Other animal": which one was meant is not clear.
+        return code if code is not None and _same_label(_label_of(var, code), label) else None
     candidates = list(var.codes) + list(var.missing_codes)
     for code in candidates:
         if str(code) == text:
@@ -262,6 +276,13 @@ def parse_decision(var: Variable, raw: Any) -> tuple[Token | None, str | None]:
     codes = []
     for part in parts:
         code = _match_code(var, part)
+        if code is None and " = " in part:
+            alone = _match_code(var, part.split(" = ", 1)[0])
+            if alone is not None:
+                return None, (
+                    f"{part[:40]!r}: code {alone} is {_label_of(var, alone)[:40]!r}, so code and "
+                    "label do not match"
+                )
         if code is None:
             return None, f"{part[:40]!r} is not a code or label of {var.name!r}"
         codes.append(code)

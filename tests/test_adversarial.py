@@ -866,3 +866,23 @@ def test_no_blank_variable_warning_where_skip_logic_says_it_never_applies(tmp_pa
     result = runner.invoke(app, ["validate", "-c", str(cb), str(data), "--json"])
     codes = [p["code"] for p in json.loads(result.stdout)["problems"]]
     assert "blank-variable" not in codes
+
+
+# ---- a decision typed as "7 = Moose" (7 is "Other animal", Moose is 6) was taken as 7 silently ----
+def test_decision_whose_code_and_label_disagree_is_refused():
+    from coderel.adjudicate import parse_decision
+    from coderel.codebook import Category, MissingCode, Variable
+
+    var = Variable(
+        "animal",
+        "nominal",
+        categories=(Category(6, "Moose"), Category(7, "Other animal")),
+        missing=(MissingCode(99, "cannot be coded"),),
+    )
+    token, reason = parse_decision(var, "7 = Moose")
+    assert token is None
+    assert "code 7 is 'Other animal'" in reason
+    assert parse_decision(var, "6 = moose")[0] == ("value", 6)  # case and spaces do not matter
+    assert parse_decision(var, "7 =  Other  Animal")[0] == ("value", 7)
+    assert parse_decision(var, "99 = cannot be coded")[0] == ("missing", 99)
+    assert parse_decision(var, "Moose")[0] == ("value", 6)
