@@ -722,8 +722,8 @@ class _Reader:
                 "blank-variable",
                 f"no coder coded {variable}: it is blank on every unit in every sheet, so it has "
                 "no agreement",
-                hint=f"code {variable}, or check that its column is headed {variable!r} in every "
-                "sheet",
+                hint=f"code {variable}, or check that its column (in a long table, its name) is "
+                f"{variable!r} in every sheet",
                 variable=variable,
             )
         for (coder, variable), row in groups.iterrows():
