@@ -886,3 +886,27 @@ def test_decision_whose_code_and_label_disagree_is_refused():
     assert parse_decision(var, "7 =  Other  Animal")[0] == ("value", 7)
     assert parse_decision(var, "99 = cannot be coded")[0] == ("missing", 99)
     assert parse_decision(var, "Moose")[0] == ("value", 6)
+
+
+# ---- agree -o res.csv --pairs also writes res-pairs.csv: it wrote over a coder's sheet of that name
+def test_agree_pairs_file_never_overwrites_an_input(tmp_path):
+    cb = _write_codebook(tmp_path)
+    data = _sheets(tmp_path, {"res-pairs": [("u1", "pos", 0)], "ben": [("u1", "pos", 0)]})
+    sheet = data / "res-pairs.csv"
+    before = _sha(sheet)
+    args = [
+        "agree",
+        "-c",
+        str(cb),
+        str(data),
+        "--replicates",
+        "0",
+        "--pairs",
+        "-o",
+        str(data / "res.csv"),
+    ]
+    result = runner.invoke(app, args)
+    assert result.exit_code == 2
+    assert "res-pairs.csv" in result.output
+    assert _sha(sheet) == before
+    assert not (data / "res.csv").exists()

@@ -98,6 +98,8 @@ def agree_command(
 ) -> ExitCode:
     """Every agreement coefficient per variable, with seeded bootstrap intervals."""
     check_table_output(out, data, codebook)
+    if out is not None and pairs and table_format(out) != "xlsx":
+        check_table_output(out.with_name(f"{out.stem}-pairs{out.suffix}"), data, codebook)
     codings = read_project(codebook, data, errors_note="were left out")
     with delayed_progress("bootstrap") as progress:
         result = agreement(
