@@ -910,3 +910,23 @@ def test_agree_pairs_file_never_overwrites_an_input(tmp_path):
     assert "res-pairs.csv" in result.output
     assert _sha(sheet) == before
     assert not (data / "res.csv").exists()
+
+
+# ---- a coder's sheet with a title row above the headers: eight errors, none naming the cause -----
+def test_title_row_above_the_headers_is_named(tmp_path):
+    from openpyxl import Workbook
+
+    cb = _write_codebook(tmp_path)
+    wb = Workbook()
+    ws = wb.active
+    ws.append(["Coding sheet of Ana, March"])
+    ws.append([])
+    ws.append(["id", "text", "mood", "flag"])
+    ws.append(["u1", "x", "pos", 0])
+    wb.save(tmp_path / "ana.xlsx")
+    result = runner.invoke(app, ["validate", "-c", str(cb), str(tmp_path / "ana.xlsx"), "--json"])
+    assert result.exit_code == 1
+    (problem,) = [
+        p for p in json.loads(result.stdout)["problems"] if p["code"] == "missing-unit-column"
+    ]
+    assert problem["hint"].startswith("the headers seem to be in row 3: delete the rows above")

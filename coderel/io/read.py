@@ -337,15 +337,32 @@ class _Reader:
         cb = self.codebook
         unit_pos, coder_pos, variables, texts = self._map_columns(table)
         if unit_pos is None:
+            # A title above the header (the header then sits in a lower row) is a common cause.
+            lower = next(
+                (
+                    r.number
+                    for r in table.rows[:20]
+                    if any(
+                        isinstance(c, str) and c.strip().casefold() == cb.unit.casefold()
+                        for c in r.cells
+                    )
+                ),
+                None,
+            )
             self.problems.add(
                 "missing-unit-column",
                 f"no column is headed {cb.unit!r} (the codebook's unit ID column)",
-                hint=f"add a column {cb.unit!r} holding each unit's ID"
-                + (
-                    "; if this sheet holds no coding data, hide it (hidden sheets and a sheet "
-                    "named 'codebook' are not read)"
-                    if table.sheet is not None
-                    else ""
+                hint=(
+                    f"the headers seem to be in row {lower}: delete the rows above them, so that "
+                    "the headers are the first row"
+                    if lower is not None
+                    else f"add a column {cb.unit!r} holding each unit's ID"
+                    + (
+                        "; if this sheet holds no coding data, hide it (hidden sheets and a sheet "
+                        "named 'codebook' are not read)"
+                        if table.sheet is not None
+                        else ""
+                    )
                 ),
                 file=table.file,
                 sheet=table.sheet,
