@@ -86,6 +86,8 @@ def check_coder_names(coders: Sequence[str]) -> list[str]:
     reader takes the coder from; so a name must be a valid, unique file name on every common
     system (no Windows device name such as ``con``, no trailing dot).
     """
+    if isinstance(coders, str):  # one name, not a sequence of one-letter names
+        coders = [coders]
     names = [c.strip() for c in coders]
     if not names or not any(names):
         raise UsageError("give at least one coder name (--coders ana,ben)")

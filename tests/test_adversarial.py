@@ -930,3 +930,12 @@ def test_title_row_above_the_headers_is_named(tmp_path):
         p for p in json.loads(result.stdout)["problems"] if p["code"] == "missing-unit-column"
     ]
     assert problem["hint"].startswith("the headers seem to be in row 3: delete the rows above")
+
+
+# ---- Python API: write_templates(cb, "ana", out) took the name letter by letter ("'a' given twice")
+def test_write_templates_takes_one_name_as_it_is(tmp_path):
+    import coderel
+
+    cb = coderel.load_codebook(_write_codebook(tmp_path))
+    written = coderel.write_templates(cb, "ana", tmp_path / "t", ["u1"])
+    assert [p.name for p in written] == ["ana.xlsx"]
