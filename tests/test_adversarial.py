@@ -239,6 +239,8 @@ def test_loose_unit_id():
     assert _loose_id("100") == "100"
     assert _loose_id("0") == "0"
     assert _loose_id("A 10") == _loose_id("a10")
+    assert _loose_id("12.0") == _loose_id("012") == "12"
+    assert _loose_id("12.5") == "12.5"
 
 
 # ---- adjudicate run twice: invalid decisions ('banana', 77) were counted as "decided" ----------

@@ -782,9 +782,9 @@ class _Reader:
                 if others:
                     hint = (
                         f"the unit ID {', '.join(repr(u) for u in others)} differs only in "
-                        "leading zeros, case or spaces: if it is the same unit, write the ID the "
-                        "same way in every sheet (format the unit column as Text so that leading "
-                        f"zeros stay); otherwise {hint}"
+                        "leading zeros, a .0 ending, case or spaces: if it is the same unit, "
+                        "write the ID the same way in every sheet (format the unit column as Text "
+                        f"so that leading zeros stay); otherwise {hint}"
                     )
                 self.problems.add(
                     "partial-unit",
@@ -796,8 +796,10 @@ class _Reader:
 
 
 def _loose_id(unit: str) -> str:
-    """A unit ID without case, spaces and leading zeros of its numbers (``ENC-007`` ~ ``enc-7``)."""
+    """A unit ID without case, spaces, leading zeros of its numbers and a ``.0`` ending
+    (``ENC-007`` ~ ``enc-7``, ``12.0`` ~ ``12``)."""
     folded = "".join(str(unit).casefold().split())
+    folded = re.sub(r"^([0-9]+)\.0+$", r"\1", folded)  # 12.0, as a float column writes 12
     return re.sub(r"(?<![0-9])0+(?=[0-9])", "", folded)
 
 
