@@ -779,13 +779,42 @@ def _read_tables(path: Path) -> dict[str, tuple[list[str], list[list[Any]], list
     return out
 
 
-def _coder_columns(header: list[str], known_text: set[str]) -> list[tuple[int, str]]:
-    """(column index, coder name) of every coder column of a list's header."""
-    return [
+def _coder_columns(
+    header: list[str], known_text: set[str], coders: set[str] | None = None
+) -> list[tuple[int, str]]:
+    """(column index, coder name) of every coder column of a list's header.
+
+    ``coders``: the coders the list was written for (its ``about`` sheet); a column of another
+    name is then one the adjudicator added, not a coder.
+    """
+    out = [
         (i, h[: -len(" (coder)")] if h.endswith(" (coder)") else h)
         for i, h in enumerate(header)
         if h and h not in FIXED_COLUMNS and h not in known_text
     ]
+    return out if coders is None else [(i, c) for i, c in out if c in coders]
+
+
+def _about_coders(tables: Mapping[str, Any]) -> set[str] | None:
+    """The coders named on a list's ``about`` sheet (None for a list without one, as a CSV)."""
+    if ABOUT_SHEET not in tables:
+        return None
+    names = {str(row[1]) for row in tables[ABOUT_SHEET][1] if len(row) >= 2 and row[0] == "coder"}
+    return names or None
+
+
+def _added_columns(tables: Mapping[str, Any], codebook: Codebook) -> list[str]:
+    """Columns the adjudicator added to the main list that hold something (not kept on rewrite)."""
+    coders = _about_coders(tables)
+    if coders is None:
+        return []
+    header, body, _ = tables[MAIN_SHEET]
+    extra = [
+        (i, header[i])
+        for i, c in _coder_columns(header, _known_text(tables, codebook))
+        if c not in coders
+    ]
+    return [h for i, h in extra if any(i < len(r) and _clean(r[i]) for r in body)]
 
 
 def _known_text(tables: Mapping[str, Any], codebook: Codebook) -> set[str]:
@@ -799,11 +828,14 @@ def _known_text(tables: Mapping[str, Any], codebook: Codebook) -> set[str]:
 
 
 def _rows_from(
-    header: list[str], body: list[list[Any]], known_text: set[str]
+    header: list[str],
+    body: list[list[Any]],
+    known_text: set[str],
+    coders: set[str] | None = None,
 ) -> list[AdjudicationRow]:
     if "unit" not in header or "variable" not in header:
         return []
-    coder_cols = _coder_columns(header, known_text)
+    coder_cols = _coder_columns(header, known_text, coders)
 
     def get(row: list[Any], name: str) -> str | None:
         if name not in header:
@@ -845,11 +877,19 @@ def read_adjudication(path: str | os.PathLike[str], codebook: Codebook) -> Adjud
             "decisions cannot be read; nothing was written - restore the header row or choose "
             "another output"
         )
-    rows = _rows_from(header, body, known_text)
+    added = _added_columns(tables, codebook)
+    if added:
+        raise InputRefused(
+            f"{path.name!r} has column(s) coderel does not keep when it writes the list again: "
+            f"{', '.join(map(repr, added))}; move their content to the 'note' column (or delete "
+            "them) and run again; nothing was written"
+        )
+    coders = _about_coders(tables)
+    rows = _rows_from(header, body, known_text, coders)
     retired: list[AdjudicationRow] = []
     if RETIRED_SHEET in tables:
         rh, rb, _ = tables[RETIRED_SHEET]
-        retired = _rows_from(rh, rb, known_text)
+        retired = _rows_from(rh, rb, known_text)  # may hold coders no longer in the data
     coders = [c for r in rows for c in r.values]
     return Adjudication(
         codebook=codebook,
@@ -881,7 +921,7 @@ def read_decisions(path: str | os.PathLike[str], codebook: Codebook) -> Decision
         source = SourceFile(str(path), sha256_file(path), path.stat().st_size)
         return Decisions({}, problems, source)
     icol = {name: header.index(name) for name in header if name}
-    coder_cols = _coder_columns(header, _known_text(tables, codebook))
+    coder_cols = _coder_columns(header, _known_text(tables, codebook), _about_coders(tables))
     dcol = _letter(icol["decision"] + 1)
     sheet = MAIN_SHEET if path.suffix.lower() == ".xlsx" else None
 

@@ -941,3 +941,51 @@ def test_write_templates_takes_one_name_as_it_is(tmp_path):
     cb = coderel.load_codebook(_write_codebook(tmp_path))
     written = coderel.write_templates(cb, "ana", tmp_path / "t", ["u1"])
     assert [p.name for p in written] == ["ana.xlsx"]
+
+
+# ---- the adjudicator added a column ('my comment') to the list: every decided row was reported as
+# ---- a stale decision, and the next adjudicate run dropped the column with its text ---------------
+def test_column_added_to_the_list_is_neither_a_coder_nor_silently_dropped(tmp_path):
+    from openpyxl import load_workbook
+
+    cb = _write_codebook(tmp_path)
+    data = _sheets(
+        tmp_path,
+        {"ana": [("u1", "pos", 0), ("u2", "neg", 1)], "ben": [("u1", "neg", 0), ("u2", "neg", 0)]},
+    )
+    listing = tmp_path / "adj.xlsx"
+    args = ["adjudicate", "-c", str(cb), str(data), "-o", str(listing), "--json"]
+    assert runner.invoke(app, args).exit_code == 0
+    wb = load_workbook(listing)
+    ws = wb["to decide"]
+    header = [c.value for c in ws[1]]
+    extra = ws.max_column + 1
+    ws.cell(1, extra).value = "my comment"
+    for r in range(2, ws.max_row + 1):
+        ws.cell(r, header.index("decision") + 1).value = ws.cell(r, header.index("ana") + 1).value
+    ws.cell(2, extra).value = "checked twice"
+    wb.save(listing)
+    # merge: the decisions are used, none is called stale because of the added column.
+    out = tmp_path / "m.csv"
+    merged = runner.invoke(
+        app,
+        ["merge", "-c", str(cb), str(data), "--decisions", str(listing), "-o", str(out), "--json"],
+    )
+    assert merged.exit_code == 0, merged.output
+    doc = json.loads(merged.stdout)
+    assert doc["totals"]["adjudicated"] == 2
+    assert [p["code"] for p in doc["problems"]] == []
+    # adjudicate again: refused while the added column holds text (it would be lost), file kept.
+    before = _sha(listing)
+    again = runner.invoke(app, args)
+    assert again.exit_code == 3
+    assert "'my comment'" in again.output
+    assert _sha(listing) == before
+    # With the column emptied, the list is written again; decisions kept, none stale.
+    wb = load_workbook(listing)
+    wb["to decide"].cell(2, extra).value = None
+    wb.save(listing)
+    again = runner.invoke(app, args)
+    assert again.exit_code == 0, again.output
+    doc = json.loads(again.stdout)
+    assert (doc["decided"], doc["problems"]) == (2, [])
