@@ -775,7 +775,10 @@ def _read_tables(path: Path) -> dict[str, tuple[list[str], list[list[Any]], list
     finally:
         wb.close()
     if MAIN_SHEET not in out:
-        raise InputRefused(f"{path.name!r} has no sheet {MAIN_SHEET!r}: not an adjudication list")
+        raise InputRefused(
+            f"{path.name!r} has no sheet {MAIN_SHEET!r}: not an adjudication list (if it is one, "
+            f"name its main sheet {MAIN_SHEET!r} again; nothing was written)"
+        )
     return out
 
 

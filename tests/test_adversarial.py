@@ -989,3 +989,21 @@ def test_column_added_to_the_list_is_neither_a_coder_nor_silently_dropped(tmp_pa
     assert again.exit_code == 0, again.output
     doc = json.loads(again.stdout)
     assert (doc["decided"], doc["problems"]) == (2, [])
+
+
+def test_renamed_main_sheet_of_the_list_says_how_to_recover(tmp_path):
+    from openpyxl import load_workbook
+
+    cb = _write_codebook(tmp_path)
+    data = _sheets(tmp_path, {"ana": [("u1", "pos", 0)], "ben": [("u1", "neg", 0)]})
+    listing = tmp_path / "adj.xlsx"
+    args = ["adjudicate", "-c", str(cb), str(data), "-o", str(listing)]
+    assert runner.invoke(app, args).exit_code == 0
+    wb = load_workbook(listing)
+    wb["to decide"].title = "Decisions"
+    wb.save(listing)
+    before = _sha(listing)
+    result = runner.invoke(app, args)
+    assert result.exit_code == 3
+    assert "name its main sheet 'to decide' again" in result.output
+    assert _sha(listing) == before
