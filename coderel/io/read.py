@@ -21,6 +21,7 @@ from __future__ import annotations
 
 import datetime as dt
 import difflib
+import functools
 import re
 from collections.abc import Iterable, Sequence
 from dataclasses import dataclass, field
@@ -99,8 +100,19 @@ def collect_files(paths: Sequence[str | Path] | str | Path) -> list[Path]:
     return list(unique.values())
 
 
+@functools.lru_cache(maxsize=1 << 16)
+def _str_text(raw: str) -> str | None:
+    """:func:`_text_of` of a string: IDs and names repeat row after row, so it is cached."""
+    text = raw.strip()
+    if text.startswith("'") and text[1:].startswith(DANGEROUS_PREFIXES):
+        text = text[1:]  # neutralised when coderel wrote it (a template's unit '-002)
+    return text or None
+
+
 def _text_of(raw: Any) -> str | None:
     """A unit ID, coder name or long-table name as text (``None`` when blank)."""
+    if type(raw) is str:
+        return _str_text(raw)
     if raw is None or isinstance(raw, CellError | FormulaNoValue):
         return None
     if isinstance(raw, bool):
@@ -114,10 +126,7 @@ def _text_of(raw: Any) -> str | None:
         return raw.date().isoformat()  # a date cell, as the same date typed as text reads
     if isinstance(raw, dt.datetime | dt.date | dt.time):
         return raw.isoformat()
-    text = str(raw).strip()
-    if text.startswith("'") and text[1:].startswith(DANGEROUS_PREFIXES):
-        text = text[1:]  # neutralised when coderel wrote it (a template's unit '-002)
-    return text or None
+    return _str_text(str(raw))
 
 
 def _closest(name: str, options: Iterable[str]) -> str | None:
@@ -145,7 +154,7 @@ class _Reader:
     seen: dict[tuple[str, str, str | None], dict[Any, str]] = field(default_factory=dict)
     #: (variable, typed, type, raw) -> result: a cell's result depends on nothing else, and
     #: coded data repeat the same few values, so each distinct value is normalised once.
-    memo: dict[tuple[Any, ...], Normalised] = field(default_factory=dict)
+    memo: dict[tuple[Any, ...], tuple[Normalised, bool]] = field(default_factory=dict)
 
     # ---- helpers ---------------------------------------------------------------------------
     def claim(self, coder: str, table: RawTable, cell: str | None = None) -> bool:
@@ -205,17 +214,20 @@ class _Reader:
         if present:
             try:
                 key = (variable.name, typed, type(raw), raw)
-                result = self.memo.get(key)
+                hit = self.memo.get(key)
             except TypeError:  # an unhashable cell value: no memo
-                key, result = None, None
-            if result is None:
+                key, hit = None, None
+            if hit is None:
                 result = normalise_cell(variable, raw, typed=typed)
+                hit = (result, result.invalid)
                 if key is not None:
-                    self.memo[key] = result
-            self.add_findings(
-                result.findings, unit=unit, coder=coder, variable=variable.name, **place
-            )
-            value, missing, invalid = result.value, result.missing, result.invalid
+                    self.memo[key] = hit
+            result, invalid = hit
+            if result.findings:
+                self.add_findings(
+                    result.findings, unit=unit, coder=coder, variable=variable.name, **place
+                )
+            value, missing = result.value, result.missing
         else:
             value, missing, invalid = None, None, False
         self.records.append(
@@ -552,6 +564,7 @@ class _Reader:
                 line=table.header_line,
             )
             return
+        source = (table.file, table.sheet)
         for row in table.rows:
             cells = row.cells
             if all(c is None for c in cells[:4]):
@@ -577,9 +590,10 @@ class _Reader:
                     **self.place(table, row, 1),
                 )
                 continue
-            if not self.claim(coder, table, table.cell_ref(1, row.number)):
+            if self.owners.get(coder) != source and not self.claim(
+                coder, table, table.cell_ref(1, row.number)
+            ):
                 continue
-            var_place = self.place(table, row, 2)
             variable_name = by_fold_var.get(name.casefold()) if name else None
             text_name = text_columns.get(name.casefold()) if name else None
             if variable_name is None and text_name is None:
@@ -591,7 +605,7 @@ class _Reader:
                     + "use the variable names of the codebook",
                     unit=unit,
                     coder=coder,
-                    **var_place,
+                    **self.place(table, row, 2),
                 )
                 continue
             key_name = variable_name or text_name or ""
