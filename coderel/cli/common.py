@@ -85,28 +85,26 @@ class _DataConsole(Console):
         raise BrokenPipeError
 
 
-def out_console() -> Console:
-    """Console for data on stdout; plain text when stdout is not a terminal."""
-    plain = not _is_terminal(sys.stdout) or "NO_COLOR" in os.environ
-    return _DataConsole(
-        file=sys.stdout,
+def _console(stream: Any, kind: type[Console] = Console) -> Console:
+    """Plain text, 200 columns wide, when ``stream`` is not a terminal or NO_COLOR is set."""
+    plain = not _is_terminal(stream) or "NO_COLOR" in os.environ
+    return kind(
+        file=stream,
         no_color=plain,
         highlight=False,
         soft_wrap=plain,
         width=200 if plain else None,
     )
+
+
+def out_console() -> Console:
+    """Console for data on stdout."""
+    return _console(sys.stdout, _DataConsole)
 
 
 def err_console() -> Console:
     """Console for messages on stderr."""
-    plain = not _is_terminal(sys.stderr) or "NO_COLOR" in os.environ
-    return Console(
-        file=sys.stderr,
-        no_color=plain,
-        highlight=False,
-        soft_wrap=plain,
-        width=200 if plain else None,
-    )
+    return _console(sys.stderr)
 
 
 def _silence_stdout() -> None:
