@@ -32,6 +32,7 @@ import datetime as dt
 import difflib
 import math
 import re
+from collections.abc import Sequence
 from dataclasses import dataclass
 from typing import Any
 
@@ -134,28 +135,27 @@ def _suggest(variable: Variable, token: str) -> str:
     return f"codes of {variable.name}: {_code_list(variable)}"
 
 
-def _date_hint() -> str:
-    return (
-        "the spreadsheet turned the typed code into a date; format the column as Text "
-        "(Format Cells > Text) and type the code again"
-    )
+DATE_HINT = (
+    "the spreadsheet turned the typed code into a date; format the column as Text "
+    "(Format Cells > Text) and type the code again"
+)
+
+
+def _invalid(
+    code: str, message: str, hint: str | None, before: Sequence[Finding] = ()
+) -> Normalised:
+    """No value: the findings so far (warnings) and one error."""
+    return Normalised(None, None, False, (*before, Finding(code, message, hint)))
 
 
 def _date_text(variable: Variable, raw: Any) -> Normalised | None:
     """A ``date-converted`` error when text that is no value of ``variable`` looks like a date."""
     if not isinstance(raw, str) or not _DATE_TEXT.match(raw):
         return None
-    return Normalised(
-        None,
-        None,
-        False,
-        (
-            Finding(
-                "date-converted",
-                f"{quote(raw)} looks like a date, not a value of {variable.name}",
-                _date_hint(),
-            ),
-        ),
+    return _invalid(
+        "date-converted",
+        f"{quote(raw)} looks like a date, not a value of {variable.name}",
+        DATE_HINT,
     )
 
 
@@ -280,22 +280,11 @@ def _numeric(variable: Variable, raw: Any, *, typed: bool) -> Normalised:
     if number is None and (as_date := _date_text(variable, raw)) is not None:
         return as_date
     if number is None or not math.isfinite(number):
-        return Normalised(
-            None,
-            None,
-            False,
-            (
-                Finding(
-                    "not-a-number",
-                    f"{quote(raw)} is not a number ({variable.name} is {variable.level})",
-                    "type a number with a dot as decimal separator"
-                    + (
-                        f", or a missing code ({_code_list(variable)})"
-                        if variable.missing_codes
-                        else ""
-                    ),
-                ),
-            ),
+        return _invalid(
+            "not-a-number",
+            f"{quote(raw)} is not a number ({variable.name} is {variable.level})",
+            "type a number with a dot as decimal separator"
+            + (f", or a missing code ({_code_list(variable)})" if variable.missing_codes else "",),
         )
     if variable.integer and not number.is_integer():
         findings.append(
@@ -342,45 +331,24 @@ def normalise_cell(variable: Variable, raw: Any, *, typed: bool = True) -> Norma
     if _is_blank(raw):
         return Normalised(None, None, True)
     if isinstance(raw, FormulaNoValue):
-        return Normalised(
-            None,
-            None,
-            False,
-            (
-                Finding(
-                    "formula-no-value",
-                    "the cell holds a formula whose result is not stored in the file",
-                    "open the file in a spreadsheet program, let it calculate, save, or replace "
-                    "the formula with its value",
-                ),
-            ),
+        return _invalid(
+            "formula-no-value",
+            "the cell holds a formula whose result is not stored in the file",
+            "open the file in a spreadsheet program, let it calculate, save, or replace "
+            "the formula with its value",
         )
     if isinstance(raw, CellError) or (isinstance(raw, str) and raw.strip() in EXCEL_ERRORS):
         text = raw.text if isinstance(raw, CellError) else raw.strip()
-        return Normalised(
-            None,
-            None,
-            False,
-            (
-                Finding(
-                    "excel-error",
-                    f"the cell holds the spreadsheet error {text}",
-                    "replace the error by the code (or leave the cell blank)",
-                ),
-            ),
+        return _invalid(
+            "excel-error",
+            f"the cell holds the spreadsheet error {text}",
+            "replace the error by the code (or leave the cell blank)",
         )
     if isinstance(raw, dt.datetime | dt.date | dt.time):
-        return Normalised(
-            None,
-            None,
-            False,
-            (
-                Finding(
-                    "date-converted",
-                    f"the cell holds a date or time, not a value of {variable.name}",
-                    _date_hint(),
-                ),
-            ),
+        return _invalid(
+            "date-converted",
+            f"the cell holds a date or time, not a value of {variable.name}",
+            DATE_HINT,
         )
     findings: list[Finding] = []
     if isinstance(raw, str):
@@ -416,18 +384,11 @@ def _categorical(
         tokens = [t for t in tokens if t]
         if not variable.multiple:
             if len(tokens) > 1:
-                return Normalised(
-                    None,
-                    None,
-                    False,
-                    (
-                        *findings,
-                        Finding(
-                            "multiple-not-allowed",
-                            f"{len(tokens)} codes in one cell, but {variable.name} takes one",
-                            "keep one code; the codebook allows a single choice here",
-                        ),
-                    ),
+                return _invalid(
+                    "multiple-not-allowed",
+                    f"{len(tokens)} codes in one cell, but {variable.name} takes one",
+                    "keep one code; the codebook allows a single choice here",
+                    before=findings,
                 )
             if tokens:
                 return _categorical(variable, tokens[0], typed=typed, findings=findings)
@@ -436,32 +397,18 @@ def _categorical(
         for token in tokens:
             token_code, token_found = matcher.match(token, typed=typed)
             if token_code is None:
-                return Normalised(
-                    None,
-                    None,
-                    False,
-                    (
-                        *findings,
-                        Finding(
-                            "not-in-codebook",
-                            f"{quote(token)} is not a code of {variable.name}",
-                            _suggest(variable, token),
-                        ),
-                    ),
+                return _invalid(
+                    "not-in-codebook",
+                    f"{quote(token)} is not a code of {variable.name}",
+                    _suggest(variable, token),
+                    before=findings,
                 )
             if token_code in matcher.missing:
-                return Normalised(
-                    None,
-                    None,
-                    False,
-                    (
-                        *findings,
-                        Finding(
-                            "not-in-codebook",
-                            f"the missing code {token_code} is combined with other codes",
-                            "give either codes or the missing code, not both",
-                        ),
-                    ),
+                return _invalid(
+                    "not-in-codebook",
+                    f"the missing code {token_code} is combined with other codes",
+                    "give either codes or the missing code, not both",
+                    before=findings,
                 )
             findings.extend(token_found)
             if token_code not in codes:
@@ -473,16 +420,9 @@ def _categorical(
     if as_date is not None:
         return Normalised(None, None, False, (*findings, *as_date.findings))
     token = str(raw)
-    return Normalised(
-        None,
-        None,
-        False,
-        (
-            *findings,
-            Finding(
-                "not-in-codebook",
-                f"{quote(raw if is_text else token)} is not a code of {variable.name}",
-                _suggest(variable, token),
-            ),
-        ),
+    return _invalid(
+        "not-in-codebook",
+        f"{quote(raw if is_text else token)} is not a code of {variable.name}",
+        _suggest(variable, token),
+        before=findings,
     )
