@@ -284,7 +284,7 @@ def _numeric(variable: Variable, raw: Any, *, typed: bool) -> Normalised:
             "not-a-number",
             f"{quote(raw)} is not a number ({variable.name} is {variable.level})",
             "type a number with a dot as decimal separator"
-            + (f", or a missing code ({_code_list(variable)})" if variable.missing_codes else "",),
+            + (f", or a missing code ({_code_list(variable)})" if variable.missing_codes else ""),
         )
     if variable.integer and not number.is_integer():
         findings.append(
