@@ -1,0 +1,205 @@
+"""Building the list from the codings, keeping the decisions of an earlier list."""
+
+from __future__ import annotations
+
+import math
+import os
+from collections.abc import Sequence
+
+from coderel.adjudicate.decisions import hint, parse_decision
+from coderel.adjudicate.model import (
+    MAIN_SHEET,
+    Adjudication,
+    AdjudicationRow,
+    column_letter,
+    main_columns,
+)
+from coderel.adjudicate.read import read_adjudication
+from coderel.adjudicate.tokens import cell_tokens, classify, display_token, unit_sort_key
+from coderel.codings import Codings
+from coderel.problems import Problems
+
+
+def _first_texts(codings: Codings) -> tuple[tuple[str, ...], dict[str, dict[str, str]]]:
+    """Per unit, the first coder's text in each text column (coders in order of appearance)."""
+    texts = codings.texts
+    if texts is None or texts.empty:
+        return (), {}
+    order = {c: i for i, c in enumerate(codings.coders)}
+    columns = list(dict.fromkeys(texts["column"]))
+    out: dict[str, dict[str, tuple[int, str]]] = {}
+    for unit, coder, column, text in zip(
+        texts["unit"], texts["coder"], texts["column"], texts["text"], strict=True
+    ):
+        if text is None or (isinstance(text, float) and math.isnan(text)) or str(text) == "":
+            continue
+        rank = order.get(coder, len(order))
+        slot = out.setdefault(str(unit), {})
+        if column not in slot or rank < slot[column][0]:
+            slot[column] = (rank, str(text))
+    return tuple(columns), {u: {c: t for c, (_, t) in d.items()} for u, d in out.items()}
+
+
+def disagreements(codings: Codings) -> list[AdjudicationRow]:
+    """Rows for every cell that needs a decision, sorted by unit then codebook variable order."""
+    cb = codings.codebook
+    var_order = {name: i for i, name in enumerate(cb.names)}
+    rows = []
+    for (unit, name), tokens in cell_tokens(codings).items():
+        kind = classify(tokens)
+        if kind is None:
+            continue
+        var = cb.variable(name)
+        values = {coder: display_token(var, tok) for coder, tok in tokens.items()}
+        rows.append(AdjudicationRow(unit=unit, variable=name, kind=kind, values=values))
+    rows.sort(key=lambda r: (unit_sort_key(r.unit), r.unit, var_order[r.variable]))
+    return rows
+
+
+def build_adjudication(
+    codings: Codings, previous: Adjudication | str | os.PathLike[str] | None = None
+) -> Adjudication:
+    """Build the adjudication list, keeping the decisions of a previous list.
+
+    Parameters
+    ----------
+    codings
+        The coders' current codings.
+    previous
+        An earlier list (object or path of an earlier ``adjudicate`` output). Its decisions are
+        kept by unit and variable; rows no longer disagreeing move to ``retired``; rows already
+        retired stay retired unless they disagree again, in which case they return with their
+        decision. Nothing is dropped.
+    """
+    current = disagreements(codings)
+    columns, narratives = _first_texts(codings)
+    if previous is not None and not isinstance(previous, Adjudication):
+        previous = read_adjudication(previous, codings.codebook)
+    old_rows: dict[str, AdjudicationRow] = {}
+    old_retired: dict[str, AdjudicationRow] = {}
+    problems = Problems()
+    if previous is not None:
+        old_rows = {r.key: r for r in previous.rows}
+        old_retired = {r.key: r for r in previous.retired}
+        problems.extend(previous.problems)
+    rows: list[AdjudicationRow] = []
+    kept = added = 0
+    changed: list[int] = []
+    for row in current:
+        old = old_rows.get(row.key) or old_retired.get(row.key)
+        if old is not None:
+            kept += 1
+            if old.decided and {c: v for c, v in old.values.items() if v} != dict(row.values):
+                changed.append(len(rows))
+            row = AdjudicationRow(
+                unit=row.unit,
+                variable=row.variable,
+                kind=row.kind,
+                values=row.values,
+                decision=old.decision,
+                note=old.note,
+                adjudicator=old.adjudicator,
+            )
+        else:
+            added += 1
+        rows.append(row)
+    now_keys = {r.key for r in rows}
+    units_now = set(codings.units)
+    retired: list[AdjudicationRow] = [r for k, r in old_retired.items() if k not in now_keys]
+    moved = 0
+    for key, old in old_rows.items():
+        if key in now_keys:
+            continue
+        moved += 1
+        reason = "coders now agree" if old.unit in units_now else "unit no longer in the data"
+        retired.append(
+            AdjudicationRow(
+                unit=old.unit,
+                variable=old.variable,
+                kind=old.kind,
+                values=old.values,
+                decision=old.decision,
+                note=old.note,
+                adjudicator=old.adjudicator,
+                reason=reason,
+            )
+        )
+    var_order = {name: i for i, name in enumerate(codings.codebook.names)}
+    retired.sort(
+        key=lambda r: (unit_sort_key(r.unit), r.unit, var_order.get(r.variable, len(var_order)))
+    )
+    adjudication = Adjudication(
+        codebook=codings.codebook,
+        coders=tuple(codings.coders),
+        rows=tuple(rows),
+        retired=tuple(retired),
+        text_columns=columns,
+        narratives=narratives,
+        problems=problems,
+        kept=kept if previous is not None else 0,
+        added=added,
+        moved=moved,
+    )
+    problems.extend(check_decisions(adjudication))
+    problems.extend(_changed_since_decision(adjudication, changed))
+    return adjudication
+
+
+def _changed_since_decision(adjudication: Adjudication, indexes: Sequence[int]) -> Problems:
+    """``stale-decision`` warnings for kept decisions whose coders' values have changed."""
+    problems = Problems()
+    headers = main_columns(adjudication.coders, adjudication.text_columns)
+    col = column_letter(headers.index("decision") + 1)
+    for i in indexes:
+        row = adjudication.rows[i]
+        problems.add(
+            "stale-decision",
+            "the coders' values changed since this decision was made; it is kept, check it",
+            hint="read the coders' new values on the list; change the decision if it no longer "
+            "holds",
+            sheet=MAIN_SHEET,
+            cell=f"{col}{i + 2}",
+            unit=row.unit,
+            variable=row.variable,
+        )
+    return problems
+
+
+def check_decisions(adjudication: Adjudication, file: str | None = None) -> Problems:
+    """``bad-decision`` problems for decisions on the main list that are not valid.
+
+    Cell references follow the layout :func:`write_adjudication` gives the list (header in row 1);
+    ``file`` names the list, and a ``.csv`` file has no sheet.
+    """
+    problems = Problems()
+    cb = adjudication.codebook
+    sheet = None if file is not None and file.lower().endswith(".csv") else MAIN_SHEET
+    headers = main_columns(adjudication.coders, adjudication.text_columns)
+    col = column_letter(headers.index("decision") + 1)
+    for i, row in enumerate(adjudication.rows, start=2):
+        if not row.decided:
+            continue
+        if row.variable not in cb:
+            problems.add(
+                "bad-decision",
+                "a decision for a variable the codebook lacks",
+                file=file,
+                sheet=sheet,
+                cell=f"{col}{i}",
+                unit=row.unit,
+                variable=row.variable,
+            )
+            continue
+        _, reason = parse_decision(cb.variable(row.variable), row.decision)
+        if reason is not None:
+            problems.add(
+                "bad-decision",
+                f"the decision is not valid for {row.variable!r}: {reason}",
+                file=file,
+                sheet=sheet,
+                cell=f"{col}{i}",
+                unit=row.unit,
+                variable=row.variable,
+                hint=hint(cb.variable(row.variable)),
+            )
+    return problems

@@ -1,0 +1,216 @@
+"""The list: its rows, its sheets and columns, and the list as one table."""
+
+from __future__ import annotations
+
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass, field
+from typing import Any
+
+import pandas as pd
+
+from coderel.adjudicate.decisions import parse_decision
+from coderel.codebook import Codebook
+from coderel.problems import Problems
+
+#: Sheet names of the adjudication workbook.
+MAIN_SHEET = "to decide"
+RETIRED_SHEET = "no longer needed"
+SUMMARY_SHEET = "summary"
+ABOUT_SHEET = "about"
+LISTS_SHEET = "lists"
+
+#: Fixed column names (coder and text columns sit between ``kind`` and ``decision``).
+FIXED_COLUMNS: tuple[str, ...] = (
+    "unit",
+    "variable",
+    "kind",
+    "decision",
+    "note",
+    "adjudicator",
+    "key",
+    "reason",
+    "list",
+)
+KEY_SEPARATOR = "|"
+
+
+@dataclass(frozen=True)
+class AdjudicationRow:
+    """One row of the list: a cell, the coders' values as shown, and what the adjudicator wrote."""
+
+    unit: str
+    variable: str
+    kind: str
+    values: Mapping[str, str]
+    decision: str | None = None
+    note: str | None = None
+    adjudicator: str | None = None
+    reason: str | None = None
+
+    @property
+    def key(self) -> str:
+        return f"{self.unit}{KEY_SEPARATOR}{self.variable}"
+
+    @property
+    def decided(self) -> bool:
+        return bool(self.decision and str(self.decision).strip())
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "unit": self.unit,
+            "variable": self.variable,
+            "kind": self.kind,
+            "values": dict(self.values),
+            "decision": self.decision,
+            "note": self.note,
+            "adjudicator": self.adjudicator,
+            "reason": self.reason,
+        }
+
+
+@dataclass(frozen=True)
+class Adjudication:
+    """The adjudication list: open and decided rows, and rows that are no longer needed."""
+
+    codebook: Codebook
+    coders: tuple[str, ...]
+    rows: tuple[AdjudicationRow, ...]
+    retired: tuple[AdjudicationRow, ...] = ()
+    text_columns: tuple[str, ...] = ()
+    narratives: Mapping[str, Mapping[str, str]] = field(default_factory=dict, repr=False)
+    problems: Problems = field(default_factory=Problems)
+    kept: int = 0
+    added: int = 0
+    moved: int = 0
+
+    def summary(self) -> pd.DataFrame:
+        """Per variable (codebook order): disagreements, decided, open, no longer needed.
+
+        Only valid decisions count as decided; a cell with an invalid decision is still open.
+        """
+        out = []
+        for var in self.codebook.variables:
+            rows = [r for r in self.rows if r.variable == var.name]
+            # A decision that is not a valid value (a bad-decision problem) leaves the cell open.
+            decided = sum(r.decided and parse_decision(var, r.decision)[1] is None for r in rows)
+            out.append(
+                {
+                    "variable": var.name,
+                    "disagreements": len(rows),
+                    "decided": decided,
+                    "open": len(rows) - decided,
+                    "no longer needed": sum(r.variable == var.name for r in self.retired),
+                }
+            )
+        return pd.DataFrame(
+            out, columns=["variable", "disagreements", "decided", "open", "no longer needed"]
+        )
+
+    def to_frame(self) -> pd.DataFrame:
+        """The list as one table (both sheets; ``list`` tells which), without narrative text."""
+        return rows_frame(self.rows, self.retired, self.coders, text_columns=())
+
+    def to_dict(self) -> dict[str, Any]:
+        summary = self.summary()
+        return {
+            "codebook": {"title": self.codebook.title, "version": self.codebook.version},
+            "coders": list(self.coders),
+            "disagreements": len(self.rows),
+            "decided": int(summary["decided"].sum()),
+            "open": int(summary["open"].sum()),
+            "no_longer_needed": len(self.retired),
+            "kept": self.kept,
+            "added": self.added,
+            "moved": self.moved,
+            "per_variable": summary.to_dict(orient="records"),
+            "rows": [r.to_dict() for r in self.rows],
+            **self.problems.to_dict(),
+        }
+
+
+# ---- tables --------------------------------------------------------------------------------
+def coder_column(coder: str) -> str:
+    """The column of a coder: the coder's name, unless it is one of the fixed column names."""
+    return f"{coder} (coder)" if coder in FIXED_COLUMNS else coder
+
+
+def main_columns(coders: Sequence[str], text_columns: Sequence[str]) -> list[str]:
+    return [
+        "unit",
+        "variable",
+        "kind",
+        *[coder_column(c) for c in coders],
+        *text_columns,
+        "decision",
+        "note",
+        "adjudicator",
+        "key",
+    ]
+
+
+def retired_columns(coders: Sequence[str]) -> list[str]:
+    return [
+        "unit",
+        "variable",
+        "kind",
+        *[coder_column(c) for c in coders],
+        "decision",
+        "note",
+        "adjudicator",
+        "reason",
+        "key",
+    ]
+
+
+def row_record(
+    row: AdjudicationRow, coders: Sequence[str], texts: Mapping[str, str] | None = None
+) -> dict[str, Any]:
+    record: dict[str, Any] = {"unit": row.unit, "variable": row.variable, "kind": row.kind}
+    for c in coders:
+        record[coder_column(c)] = row.values.get(c, "")
+    for column, text in (texts or {}).items():
+        record[column] = text
+    record.update(
+        decision=row.decision,
+        note=row.note,
+        adjudicator=row.adjudicator,
+        reason=row.reason,
+        key=row.key,
+    )
+    return record
+
+
+def retired_coders(adjudication: Adjudication) -> list[str]:
+    coders = list(adjudication.coders)
+    for r in adjudication.retired:
+        coders.extend(c for c in r.values if c not in coders)
+    return coders
+
+
+def rows_frame(
+    rows: Sequence[AdjudicationRow],
+    retired: Sequence[AdjudicationRow],
+    coders: Sequence[str],
+    *,
+    text_columns: Sequence[str],
+    narratives: Mapping[str, Mapping[str, str]] | None = None,
+) -> pd.DataFrame:
+    """Both lists in one table (the CSV form): main columns plus ``reason`` and ``list``."""
+    all_coders = list(coders)
+    for r in retired:
+        all_coders.extend(c for c in r.values if c not in all_coders)
+    columns = main_columns(all_coders, text_columns)
+    columns += ["reason", "list"]
+    records = []
+    for r in rows:
+        texts = {c: (narratives or {}).get(r.unit, {}).get(c, "") for c in text_columns}
+        records.append({**row_record(r, all_coders, texts), "list": MAIN_SHEET})
+    for r in retired:
+        records.append({**row_record(r, all_coders), "list": RETIRED_SHEET})
+    return pd.DataFrame(records, columns=columns)
+
+
+def column_letter(index: int) -> str:
+    from openpyxl.utils import get_column_letter
+
+    return get_column_letter(index)

@@ -1,0 +1,121 @@
+"""Tokens: each coder's entry in a cell reduced to something comparable, and how it is shown.
+
+See :mod:`coderel.adjudicate` for the kinds of token and of disagreement.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from collections.abc import Iterable, Mapping, Sequence
+from typing import Any, Literal
+
+import pandas as pd
+
+from coderel.codebook import Variable
+from coderel.codings import Codings
+
+Token = tuple[str, Any]
+TokenKind = Literal["na", "missing", "value", "blank"]
+Kind = Literal["values differ", "applies?", "no value"]
+
+NA_TOKEN: Token = ("na", None)
+BLANK_TOKEN: Token = ("blank", None)
+NOT_APPLICABLE = "not applicable"
+
+
+def _absent(value: Any) -> bool:
+    """``None``, NaN or ``pd.NA``: a column of the long table may turn ``None`` into NaN."""
+    if value is None or value is pd.NA:
+        return True
+    return isinstance(value, float) and math.isnan(value)
+
+
+def token_of(value: Any, missing: Any, applies: Any) -> Token:
+    """Reduce one coder's entry in a cell to a comparable token (see the module docstring)."""
+    if applies is False or (not _absent(applies) and applies is not True and not applies):
+        return NA_TOKEN
+    if not _absent(missing):
+        return ("missing", missing)
+    if not _absent(value):
+        if isinstance(value, list):
+            value = tuple(value)
+        return ("value", value)
+    return BLANK_TOKEN
+
+
+def _as_code(var: Variable, code: Any, known_codes: Sequence[Any]) -> Any:
+    """A code as the codebook writes it (``999.0`` read from a float column -> ``999``)."""
+    for known in known_codes:
+        if known == code and type(known) is not type(code):
+            return known
+    return code
+
+
+def cell_tokens(codings: Codings) -> dict[tuple[str, str], dict[str, Token]]:
+    """Every cell's tokens per coder, for coders who have a row for that unit and variable."""
+    f = codings.frame
+    cb = codings.codebook
+    cells: dict[tuple[str, str], dict[str, Token]] = {}
+    for unit, coder, var, value, missing, applies in zip(
+        f["unit"], f["coder"], f["variable"], f["value"], f["missing"], f["applies"], strict=True
+    ):
+        if var not in cb:
+            continue
+        token = token_of(value, missing, applies)
+        if token[0] == "missing":
+            token = (
+                "missing",
+                _as_code(cb.variable(var), token[1], cb.variable(var).missing_codes),
+            )
+        elif token[0] == "value" and isinstance(token[1], float):
+            variable = cb.variable(var)
+            if variable.is_categorical:
+                token = ("value", _as_code(variable, token[1], variable.codes))
+        cells.setdefault((unit, var), {})[coder] = token
+    return cells
+
+
+def unit_sort_key(unit: str) -> tuple[Any, ...]:
+    """Natural order of unit IDs: ``R2`` before ``R10``; numbers before text."""
+    parts = re.split(r"(\d+)", str(unit))
+    return tuple((0, int(p), "") if p.isdigit() else (1, 0, p) for p in parts if p != "")
+
+
+def sorted_units(units: Iterable[str]) -> list[str]:
+    return sorted(set(units), key=lambda u: (unit_sort_key(u), u))
+
+
+def format_number(var: Variable, number: float) -> str:
+    if var.integer or (isinstance(number, float) and number.is_integer()):
+        return str(int(number))
+    return repr(float(number))
+
+
+def display_token(var: Variable, token: Token) -> str:
+    """A token as a person reads it: ``1 = Backed away; 3 = Used bear spray``, ``(blank)``."""
+    kind, value = token
+    if kind == "na":
+        return NOT_APPLICABLE
+    if kind == "blank":
+        return "(blank)"
+    if kind == "missing":
+        return var.display(value)
+    if var.multiple:
+        return "; ".join(var.display(c) for c in value)
+    if var.is_numeric:
+        return format_number(var, value)
+    return var.display(value)
+
+
+def classify(tokens: Mapping[str, Token]) -> Kind | None:
+    """Kind of disagreement of one cell, ``None`` when the coders agree on a value or on n/a."""
+    distinct = set(tokens.values())
+    if len(distinct) > 1:
+        kinds = {k for k, _ in distinct}
+        if "na" in kinds:
+            return "applies?"
+        return "values differ"
+    if distinct == {BLANK_TOKEN}:
+        return "no value"
+    return None
