@@ -7,8 +7,9 @@ the leading zero (``α = .84, 95% CI [.79, .88]``), negative values take a minus
 from __future__ import annotations
 
 from collections.abc import Sequence
-from dataclasses import dataclass
 from typing import TYPE_CHECKING
+
+from coderel.report.model import MethodsText
 
 if TYPE_CHECKING:
     from coderel.report.model import Reproducibility, Summary, VariableRow
@@ -103,15 +104,6 @@ _CITED: dict[str, tuple[str, str, tuple[str, ...]]] = {
 }
 
 _NUMBER_WORDS = ("zero", "one", "two", "three", "four", "five", "six", "seven", "eight", "nine")
-
-
-@dataclass(frozen=True, slots=True)
-class MethodsText:
-    """The methods paragraph, its reference list and the cautions shown beside it."""
-
-    paragraph: str
-    references: tuple[str, ...]
-    cautions: tuple[str, ...]
 
 
 def fmt_coef(value: float | None, digits: int = 2) -> str:
