@@ -1,0 +1,112 @@
+"""The :func:`agreement` driver: checks the bootstrap settings, builds every variable's matrix,
+draws ONE seeded matrix of unit weights and evaluates every coefficient over it."""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from typing import Any
+
+import numpy as np
+
+from coderel.agree.matrices import build_targets
+from coderel.agree.results import AgreementResult
+from coderel.agree.variable_row import variable_row
+from coderel.codings import Codings
+from coderel.errors import UsageError
+from coderel.stats.bootstrap import evaluate_plans, unit_weights
+from coderel.stats.intervals import INTERVAL_METHODS
+from coderel.stats.plan import build_plan
+
+
+def check_settings(replicates: Any, seed: Any, ci_level: Any, interval_method: Any) -> None:
+    """Refuse bootstrap settings that would give no interval, a wrong one, or a numpy error."""
+    if isinstance(replicates, bool) or not isinstance(replicates, int | np.integer):
+        raise UsageError(f"replicates must be a whole number, not {replicates!r}")
+    if replicates < 0:
+        raise UsageError(f"replicates must be 0 (no intervals) or more, not {replicates}")
+    if isinstance(seed, bool) or not isinstance(seed, int | np.integer) or seed < 0:
+        raise UsageError(f"seed must be a whole number of 0 or more, not {seed!r}")
+    if isinstance(ci_level, bool) or not isinstance(ci_level, int | float):
+        raise UsageError(f"ci_level must be a number between 0 and 1, not {ci_level!r}")
+    if not 0 < ci_level < 1:
+        raise UsageError(f"ci_level must lie between 0 and 1 (for example 0.95), not {ci_level}")
+    if interval_method not in INTERVAL_METHODS:
+        raise UsageError(
+            f"interval_method must be one of {', '.join(INTERVAL_METHODS)}, not {interval_method!r}"
+        )
+
+
+def agreement(
+    codings: Codings,
+    *,
+    replicates: int = 2000,
+    seed: int = 20261202,
+    ci_level: float = 0.95,
+    interval_method: str = "bca",
+    progress: Callable[[int, int], None] | None = None,
+) -> AgreementResult:
+    """Every coefficient of every variable, with bootstrap intervals from one weight matrix.
+
+    Parameters
+    ----------
+    codings
+        The long table (values outside the codebook are already ``None``).
+    replicates, seed
+        Bootstrap replicates and the seed of the one matrix of unit weights.
+    ci_level, interval_method
+        Interval level and ``"bca"`` (Efron 1987) or ``"percentile"``.
+    progress
+        Called as ``progress(done, total)`` while the work advances.
+
+    Returns
+    -------
+    AgreementResult
+        One :class:`VariableAgreement` per variable, plus one per variable with ``applies_when``
+        for agreement on applicability.
+
+    References
+    ----------
+    Krippendorff, K. (2004). *Content Analysis* (2nd ed.). Hayes, A. F., & Krippendorff, K.
+    (2007). Answering the call for a standard reliability measure for coding data.
+    *Communication Methods and Measures*, 1(1), 77-89. Fleiss, J. L., Cohen, J., & Everitt,
+    B. S. (1969). Large sample standard errors of kappa and weighted kappa. *Psychological
+    Bulletin*, 72(5), 323-327. Fleiss, J. L., Nee, J. C. M., & Landis, J. R. (1979). Large sample
+    variance of kappa in the case of different sets of raters. *Psychological Bulletin*, 86(5),
+    974-977.
+    """
+    check_settings(replicates, seed, ci_level, interval_method)
+    cb = codings.codebook
+    coders = codings.coders
+    units = codings.units
+    targets = build_targets(codings, coders, units)
+    plans = [build_plan(t.x, t.scale) for t in targets]
+    total = 2 * len(plans)
+
+    def step(done: int, _total: int) -> None:
+        if progress is not None:
+            progress(done, total)
+
+    # ONE seeded matrix of unit weights over the project's units, reused for every variable and
+    # coefficient: a unit without values for a variable contributes nothing to its sums.
+    try:
+        weights = unit_weights(len(units), replicates, seed)
+        evaluated_all = evaluate_plans(plans, weights, progress=step)
+    except MemoryError:
+        raise UsageError(
+            f"not enough memory for {replicates:,} bootstrap replicates over {len(units):,} "
+            "units; use fewer replicates (2,000 are usual; 0 gives no intervals)"
+        ) from None
+    rows = []
+    for t, evaluated in zip(targets, evaluated_all, strict=True):
+        rows.append(variable_row(t, evaluated, coders, ci_level, interval_method))
+        step(len(plans) + len(rows), total)
+    return AgreementResult(
+        tuple(rows),
+        replicates,
+        seed,
+        interval_method,
+        ci_level,
+        coders=tuple(coders),
+        codebook_title=str(cb.title or ""),
+        codebook_version=str(cb.version or ""),
+    )

@@ -1,0 +1,127 @@
+"""From the long table to one units x coders matrix of value indices per variable (and per
+variable's applicability): the rows to compute."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from coderel.agree.conventions import APPLIES_SUFFIX
+from coderel.codebook import Variable
+from coderel.codebook.model import Thresholds
+from coderel.codings import Codings
+from coderel.stats.plan import Scale
+
+
+@dataclass(frozen=True)
+class Target:
+    """One row to compute: a variable, or a variable's applicability."""
+
+    name: str
+    label: str
+    level: str
+    kind: str
+    x: np.ndarray
+    scale: Scale
+    categories: tuple[Any, ...]
+    thresholds: Thresholds
+    var: Variable
+
+
+@dataclass(frozen=True)
+class UnitIndex:
+    """Row positions of the long table, factorised once: unit and coder index of every row, the
+    rows of each variable, which rows hold a value that counts, and each row's applicability."""
+
+    unit: np.ndarray
+    coder: np.ndarray
+    rows_of: dict[str, np.ndarray]
+    counts: np.ndarray
+    known: np.ndarray
+    applies: np.ndarray
+    values: np.ndarray
+
+
+def build_index(codings: Codings, coders: list[str], units: list[str]) -> UnitIndex:
+    frame = codings.frame
+    unit = pd.Categorical(frame["unit"], categories=units).codes.astype(np.int64)
+    coder = pd.Categorical(frame["coder"], categories=coders).codes.astype(np.int64)
+    var_codes, var_names = pd.factorize(frame["variable"])
+    order = np.argsort(var_codes, kind="stable")
+    bounds = np.searchsorted(var_codes[order], np.arange(len(var_names) + 1))
+    rows_of = {str(name): order[bounds[i] : bounds[i + 1]] for i, name in enumerate(var_names)}
+    applies = frame["applies"].to_numpy(dtype=object)
+    is_true = np.fromiter((a is True for a in applies), dtype=bool, count=len(applies))
+    is_false = np.fromiter((a is False for a in applies), dtype=bool, count=len(applies))
+    values = frame["value"].to_numpy(dtype=object)
+    has_value = ~pd.isna(frame["value"]).to_numpy()
+    return UnitIndex(
+        unit, coder, rows_of, has_value & ~is_false, is_true | is_false, is_true, values
+    )
+
+
+def value_matrix(
+    ix: UnitIndex, var: Variable, n_units: int, n_coders: int
+) -> tuple[np.ndarray, Scale]:
+    """Units x coders value indices over ALL project units (-1: no value), and the scale."""
+    rows = ix.rows_of.get(var.name, np.empty(0, dtype=np.int64))
+    rows = rows[ix.counts[rows]]
+    values = list(ix.values[rows])
+    if var.is_categorical and not var.multiple:
+        domain = {code: i for i, code in enumerate(var.codes)}
+        scale = Scale("categorical", var.level, len(domain))
+    elif var.multiple:
+        values = [frozenset(v) for v in values]
+        sets = tuple(dict.fromkeys(values))
+        domain = {s: i for i, s in enumerate(sets)}
+        scale = Scale("set", "nominal", len(sets), sets=sets)
+    else:
+        values = [float(v) for v in values]
+        distinct = np.array(sorted(set(values)), dtype=float)
+        domain = {v: i for i, v in enumerate(distinct.tolist())}
+        scale = Scale("numeric", var.level, len(distinct), values=distinct)
+    x = np.full((n_units, n_coders), -1, dtype=int)
+    x[ix.unit[rows], ix.coder[rows]] = np.fromiter(
+        (domain[v] for v in values), dtype=int, count=len(values)
+    )
+    return x, scale
+
+
+def applicability_matrix(ix: UnitIndex, var: Variable, n_units: int, n_coders: int) -> np.ndarray:
+    """Units x coders: 1 applies, 0 does not apply, -1 unknown (condition not coded)."""
+    rows = ix.rows_of.get(var.name, np.empty(0, dtype=np.int64))
+    rows = rows[ix.known[rows]]
+    x = np.full((n_units, n_coders), -1, dtype=int)
+    x[ix.unit[rows], ix.coder[rows]] = ix.applies[rows].astype(int)
+    return x
+
+
+def build_targets(codings: Codings, coders: list[str], units: list[str]) -> list[Target]:
+    cb = codings.codebook
+    ix = build_index(codings, coders, units)
+    n_units, n_coders = len(units), len(coders)
+    out: list[Target] = []
+    for var in cb.variables:
+        x, scale = value_matrix(ix, var, n_units, n_coders)
+        cats = tuple(var.codes) if var.is_categorical and not var.multiple else ()
+        th = cb.thresholds_for(var.name)
+        out.append(Target(var.name, var.title, var.level, "variable", x, scale, cats, th, var))
+        if var.applies_when is not None:
+            xa = applicability_matrix(ix, var, n_units, n_coders)
+            out.append(
+                Target(
+                    var.name + APPLIES_SUFFIX,
+                    f"Does '{var.title}' apply?",
+                    "nominal",
+                    "applicability",
+                    xa,
+                    Scale("categorical", "nominal", 2),
+                    ("no", "yes"),
+                    th,
+                    var,
+                )
+            )
+    return out

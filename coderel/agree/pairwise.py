@@ -1,0 +1,112 @@
+"""What sits beside a variable's coefficients: agreement per pair of coders (with confusion
+tables), agreement per category, and the published standard errors with Fleiss' z test."""
+
+from __future__ import annotations
+
+from itertools import combinations
+from typing import Any
+
+import numpy as np
+
+from coderel.agree.matrices import Target
+from coderel.agree.results import Estimate, PairAgreement, finite
+from coderel.stats.counts import confusion_table
+from coderel.stats.kappa import (
+    cohen_kappa_table,
+    fleiss_category_kappas,
+    fleiss_null_se,
+    z_test,
+)
+from coderel.stats.plan import Scale, alpha_point
+
+
+def pair_agreements(t: Target, coders: list[str]) -> tuple[tuple[PairAgreement, ...], dict]:
+    x, k = t.x, t.scale.size
+    categorical = t.scale.kind == "categorical"
+    pairs, confusion = [], {}
+    for i, j in combinations(range(x.shape[1]), 2):
+        both = (x[:, i] >= 0) & (x[:, j] >= 0)
+        n = int(both.sum())
+        if n == 0:
+            continue
+        same = float(np.mean(x[both, i] == x[both, j]))
+        kappa, table = None, None
+        if categorical:
+            table = confusion_table(x[:, i], x[:, j], k)
+            confusion[(coders[i], coders[j])] = table
+            kappa = finite(cohen_kappa_table(table)[0])
+        alpha = finite(alpha_point(x[:, [i, j]], t.scale))
+        pairs.append(
+            PairAgreement(
+                coders[i],
+                coders[j],
+                n,
+                same,
+                kappa,
+                alpha,
+                tuple(tuple(int(c) for c in row) for row in table) if table is not None else None,
+            )
+        )
+    return tuple(pairs), confusion
+
+
+def category_agreement(
+    t: Target, confusion: dict, complete_counts: np.ndarray
+) -> dict[Any, dict[str, float | None]]:
+    """Per category: Fleiss' (1971, eq. 11) kappa on complete units and the proportion of
+    specific agreement pooled over coder pairs (2 n_kk / (n_k. + n_.k)); for multi-select
+    variables, Krippendorff's binary (present/absent) alpha per category."""
+    var = t.var
+    out: dict[Any, dict[str, float | None]] = {}
+    if t.kind == "variable" and var.multiple:
+        sets = t.scale.sets
+        for code in var.codes:
+            has = np.array([code in s for s in sets] + [False], dtype=int)
+            xb = np.where(t.x >= 0, has[t.x], -1)
+            a = alpha_point(xb, Scale("categorical", "nominal", 2))
+            used = int((xb == 1).sum())
+            out[code] = {"binary_alpha": finite(a), "values_with_category": used}
+        return out
+    if t.scale.kind != "categorical":
+        return out
+    k = t.scale.size
+    pooled = np.zeros((k, k))
+    for table in confusion.values():
+        pooled += table + table.T
+    fk = fleiss_category_kappas(complete_counts) if len(complete_counts) else np.full(k, np.nan)
+    diag, marg = np.diag(pooled), pooled.sum(axis=1)
+    for idx, code in enumerate(t.categories):
+        specific = 2 * diag[idx] / (2 * marg[idx]) if marg[idx] > 0 else None
+        out[code] = {
+            "fleiss_kappa": finite(float(fk[idx])),
+            "specific_agreement": finite(specific) if specific is not None else None,
+            "share_of_values": finite(float(marg[idx] / pooled.sum())) if pooled.sum() else None,
+        }
+    return out
+
+
+def standard_errors(
+    t: Target, coefs: dict[str, Estimate | None], confusion: dict, complete_counts: np.ndarray
+) -> dict[str, Estimate | None]:
+    """Published standard errors: Cohen's (weighted) kappa, Fleiss, Cohen & Everitt (1969);
+    Fleiss' kappa under the null, Fleiss, Nee & Landis (1979), with its z test."""
+    out = dict(coefs)
+    if t.scale.kind == "categorical" and t.x.shape[1] == 2 and len(confusion) == 1:
+        table = next(iter(confusion.values()))
+        for key, weights in (
+            ("cohen_kappa", "identity"),
+            ("weighted_kappa_linear", "linear"),
+            ("weighted_kappa_quadratic", "quadratic"),
+        ):
+            est = out.get(key)
+            if est is not None and est.estimate is not None:
+                se = finite(cohen_kappa_table(table, weights)[1])
+                out[key] = Estimate(est.estimate, est.ci, se, est.reason)
+    est = out.get("fleiss_kappa")
+    if est is not None and est.estimate is not None and len(complete_counts):
+        m = int(complete_counts[0].sum())
+        p = complete_counts.sum(axis=0) / complete_counts.sum()
+        se = finite(fleiss_null_se(p, len(complete_counts), m))
+        z, pv = z_test(est.estimate, se)
+        out["fleiss_kappa"] = Estimate(est.estimate, est.ci, se, est.reason, finite(z), finite(pv))
+    return out
