@@ -34,6 +34,9 @@ CANDIDATE_SIZES: tuple[int, ...] = (
     10, 20, 30, 50, 75, 100, 150, 200, 300, 500, 750, 1000, 1500, 2000, 3000, 5000,
 )  # fmt: skip
 ALPHA = "krippendorff_alpha"
+#: Fewer pilot units with two or more values than this and no precision plan is made (as
+#: ``coderel agree`` gives no interval below it; common practice, no source).
+MIN_PILOT_UNITS_FOR_PRECISION = 10
 #: At a size where fewer than this share of replicates give a defined alpha, no width is given.
 MIN_DEFINED_SHARE = 0.9
 
@@ -111,7 +114,9 @@ def precision_plans(
                 out[i] = half_width(ev[ALPHA].replicates, level) if n_pilot else None
         return out
 
-    active = [i for i, pv in enumerate(pilots) if pv.pairable_units >= 2]
+    active = [
+        i for i, pv in enumerate(pilots) if pv.pairable_units >= MIN_PILOT_UNITS_FOR_PRECISION
+    ]
     curves: dict[int, list[tuple[int, float | None]]] = {i: [] for i in range(len(pilots))}
     for step, size in enumerate(sizes, start=1):
         for i, w in widths(active, size).items():
@@ -122,7 +127,10 @@ def precision_plans(
     for i, pv in enumerate(pilots):
         point = plans[i].point(ALPHA) if pv.pairable_units >= 2 else float("nan")
         curve = curves[i]
-        n = _smallest(curve, target, lambda s, i=i: widths([i], s)[i])
+        perfect = bool(np.isfinite(point) and point >= 1.0 - 1e-12)
+        n = None
+        if i in active and not perfect:
+            n = _smallest(curve, target, lambda s, i=i: widths([i], s)[i])
         out.append(
             PrecisionPlan(
                 target,

@@ -33,7 +33,11 @@ import pandas as pd
 from coderel.codebook import Codebook, Variable
 from coderel.errors import UsageError
 from coderel.protocol.pilot import Pilot, PilotVariable
-from coderel.protocol.precision import CANDIDATE_SIZES, precision_plans
+from coderel.protocol.precision import (
+    CANDIDATE_SIZES,
+    MIN_PILOT_UNITS_FOR_PRECISION,
+    precision_plans,
+)
 
 #: One-tailed significance levels of Krippendorff's table (2004, Table 11.2).
 SIGNIFICANCE_LEVELS: tuple[float, ...] = (0.10, 0.05, 0.01, 0.005)
@@ -385,18 +389,26 @@ def _variable_plan(
     if precision is not None and pv is not None:
         n_prec, curve, pilot_alpha = precision.n, precision.curve, precision.pilot_alpha
         pilot_units = pv.pairable_units
-        if pv.pairable_units < MIN_PILOT_UNITS:
+        if MIN_PILOT_UNITS_FOR_PRECISION <= pv.pairable_units < MIN_PILOT_UNITS:
             notes.append(
                 f"only {pv.pairable_units} pilot units with two or more values: the precision "
                 "plan is rough"
             )
-        if n_prec is None and pv.pairable_units >= 2:
+        if pv.pairable_units < MIN_PILOT_UNITS_FOR_PRECISION:
+            notes.append(
+                f"fewer than {MIN_PILOT_UNITS_FOR_PRECISION} pilot units with two or more values: "
+                "no precision plan"
+            )
+        elif pilot_alpha is not None and pilot_alpha >= 1.0 - 1e-12:
+            notes.append(
+                "the pilot's coders agreed on every unit: every resample agrees too, so the "
+                "bootstrap cannot show how wide the interval will be; no precision plan"
+            )
+        elif n_prec is None:
             notes.append(
                 f"even {CANDIDATE_SIZES[-1]:,} units do not bring the expected half-width to "
-                f"{precision.target:g} (or alpha is undefined in the pilot)"
+                f"{precision.target:g} (or alpha is mostly undefined in resamples of the pilot)"
             )
-        if pv.pairable_units < 2:
-            notes.append("no pilot unit has two values: no precision plan")
     return VariablePlan(
         variable=var.name,
         level=var.level + (" (multi-select)" if var.multiple else ""),
