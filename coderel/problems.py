@@ -57,6 +57,10 @@ PROBLEM_CODES: dict[str, tuple[Severity, str]] = {
     "missing-unit-column": ("error", "the unit-ID column is missing"),
     "missing-unit-id": ("error", "a row has values but no unit ID"),
     "duplicate-unit": ("error", "a coder codes the same unit twice"),
+    "duplicate-listed-unit": (
+        "error",
+        "a unit ID appears on more than one row of a population or unit list",
+    ),
     "not-in-codebook": ("error", "a value is not a code of its variable"),
     "not-a-number": ("error", "a numeric variable holds text"),
     "out-of-range": ("error", "a number outside the variable's range"),

@@ -693,6 +693,47 @@ def write_expected(out: Path, expected: list[dict[str, str]]) -> None:
     write_text(out / "messy_expected_problems.csv", buffer.getvalue())
 
 
+# ---------------------------------------------------------------------------------------------
+# The front half of the protocol: a corpus to draw from and a pilot to plan with
+# ---------------------------------------------------------------------------------------------
+CORPUS_REPORTS = 1200
+PILOT_REPORTS = 40
+PILOT_CODERS = ("coder_ana", "coder_ben")
+#: Ranger districts of the invented park and their shares of the season's reports.
+DISTRICTS = (("North Fork", 0.45), ("Lakes", 0.30), ("Ridge", 0.17), ("Canyon", 0.08))
+
+
+def write_protocol_files(
+    out: Path, reports: list[Report], codings: dict[str, dict[str, dict[str, object]]], seed: int
+) -> dict[str, int]:
+    """``corpus.csv``: next season's 1,200 report IDs with their district (the population that
+    ``coderel draw`` samples); ``pilot/``: the first 40 reports as coded by two coders (csv), the
+    pilot that ``coderel plan --pilot`` reads."""
+    rng = np.random.default_rng([seed, 2])
+    names = [d for d, _ in DISTRICTS]
+    shares = [p for _, p in DISTRICTS]
+    buffer = io.StringIO()
+    writer = csv.writer(buffer, lineterminator="\n")
+    writer.writerow([UNIT, "district"])
+    for i in range(1, CORPUS_REPORTS + 1):
+        writer.writerow([f"QH-{i:04d}", names[int(rng.choice(len(names), p=shares))]])
+    write_text(out / "corpus.csv", buffer.getvalue())
+    pilot = reports[:PILOT_REPORTS]
+    for coder in PILOT_CODERS:
+        buffer = io.StringIO()
+        writer = csv.writer(buffer, lineterminator="\n")
+        writer.writerow(list(HEADER))
+        for r in pilot:
+            if r.report_id in codings[coder]:
+                values = codings[coder][r.report_id]
+                writer.writerow(
+                    [r.report_id, neutralise(r.narrative)]
+                    + ["" if values[v] is None else values[v] for v in VARIABLES]
+                )
+        write_text(out / "pilot" / f"{coder}.csv", buffer.getvalue())
+    return {"corpus": CORPUS_REPORTS, "pilot": len(pilot)}
+
+
 def generate(out: Path, seed: int = SEED) -> dict[str, object]:
     """Write the demo files under ``out``; return a short summary (counts only)."""
     rng = np.random.default_rng(seed)
@@ -710,6 +751,7 @@ def generate(out: Path, seed: int = SEED) -> dict[str, object]:
     write_text(out / "units.txt", "".join(f"{r.report_id}\n" for r in reports))
     expected = write_messy_sheet(out, reports)
     write_expected(out, expected)
+    write_protocol_files(out, reports, codings, seed)
     return {
         "reports": len(reports),
         "coded": {c: len(codings[c]) for c in CODERS},
