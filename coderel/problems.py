@@ -79,6 +79,11 @@ PROBLEM_CODES: dict[str, tuple[Severity, str]] = {
     "bad-decision": ("error", "an adjudication decision is not a valid code for its variable"),
     # warnings
     "partial-unit": ("warning", "a unit is coded by only some of the coders"),
+    "uncoded-unit": (
+        "warning",
+        "a coder's row for a unit holds no value for any variable: not coded by that coder",
+    ),
+    "similar-coder-names": ("warning", "two coder names differ only in case or spaces"),
     "own-output": (
         "warning",
         "a file written by coderel (merged dataset, list, report) was not read",

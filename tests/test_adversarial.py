@@ -432,7 +432,13 @@ def test_unclosed_quote_line_with_form_feed_and_line_separator_in_cells(tmp_path
     (data / "ana.csv").write_text(text + 'u3,"open\x0c,neu,0\n', encoding="utf-8")
     result = runner.invoke(app, ["validate", "-c", str(cb), str(data), "--json"])
     problems = json.loads(result.stdout)["problems"]
-    assert [(p["code"], p["line"]) for p in problems] == [("unclosed-quote", 4)]
+    assert [(p["code"], p["line"]) for p in problems if p["severity"] == "error"] == [
+        ("unclosed-quote", 4)
+    ]
+    # the quote swallowed the rest of u3's row, so u3 holds no value: not coded by ana
+    assert [p["message"] for p in problems if p["code"] == "uncoded-unit"] == [
+        "ana left 1 unit blank (no value for any variable): u3; it counts as not coded by ana"
+    ]
 
 
 # ---- report with thresholds per variable: the methods paragraph and summary named .800/.667 only,

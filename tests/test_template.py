@@ -231,9 +231,12 @@ def test_filled_template_passes_validate_with_zero_problems(tmp_path, cb):
 
 def test_blank_template_validates_and_a_wrong_code_is_found_at_its_cell(tmp_path, cb):
     (path,) = write_templates(cb, ["cai"], tmp_path, ["ENC-001", "ENC-002"])
-    assert validate(cb, [path]).problems.codes() == []
+    # no error; one warning that the coder has coded nothing yet (issue 9, item 7)
+    (blank,) = validate(cb, [path]).problems
+    assert (blank.code, blank.severity, blank.coder) == ("uncoded-unit", "warning", "cai")
+    assert "left 2 units blank" in blank.message
     _fill(path, {"ENC-002": {"behaviour": "2 = Unaware"}})  # code and label do not match
-    (problem,) = validate(cb, [path]).problems
+    (problem,) = validate(cb, [path]).problems.errors
     assert (problem.code, problem.cell, problem.unit, problem.variable, problem.coder) == (
         "not-in-codebook",
         "D3",
@@ -315,12 +318,18 @@ def test_cli_json_lists_written_files_and_validate_accepts_them(tmp_path):
     check = runner.invoke(app, ["validate", "--codebook", str(CB_PATH), str(out), "--json"])
     assert check.exit_code == 0
     summary = json.loads(check.stdout)["summary"]
+    # blank templates: no error; nothing is coded yet, one warning per coder (issue 9, item 7)
     assert (summary["coders"], summary["units"], summary["errors"], summary["warnings"]) == (
-        ["ana", "ben", "cai"],
-        200,
+        [],
         0,
         0,
+        3,
     )
+    problems = json.loads(check.stdout)["problems"]
+    assert {(p["code"], p["coder"]) for p in problems} == {
+        ("uncoded-unit", c) for c in ("ana", "ben", "cai")
+    }
+    assert all("left 200 units blank" in p["message"] for p in problems)
 
 
 def test_cli_usage_errors_exit_2(tmp_path):

@@ -45,6 +45,7 @@ from coderel.io.archive import (
     describe_ole2,
 )
 from coderel.io.atomic import sha256_file
+from coderel.io.coverage import did_you_mean, drop_uncoded, warn_alike_coders
 from coderel.io.safe_text import DANGEROUS_PREFIXES
 from coderel.io.text_tables import RawRow, RawTable, read_csv, read_parquet
 from coderel.normalise import (
@@ -793,6 +794,14 @@ class _Reader:
                     "code the unit by every coder, or accept that agreement for it uses fewer "
                     "coders"
                 )
+                meant = [(c, did_you_mean(c, sorted(present))) for c in absent]
+                meant = [(c, m) for c, m in meant if m is not None]
+                if meant:
+                    hint = (
+                        "; ".join(f"did you mean {m!r} for {c!r}?" for c, m in meant)
+                        + " coder names that differ only in case or spaces are two coders; "
+                        + hint
+                    )
                 if others:
                     hint = (
                         f"the unit ID {', '.join(repr(u) for u in others)} differs only in "
@@ -979,7 +988,9 @@ def read_codings(
     frame = pd.DataFrame(reader.records, columns=[*columns, "_line", "_invalid"])
     frame = frame.astype(object)
     frame = frame.where(frame.notna(), None) if len(frame) else frame
+    frame = drop_uncoded(frame, reader.problems)  # one rule for every path: see io/coverage.py
     if len(frame):
+        warn_alike_coders(frame, reader.problems)
         frame = reader.check_skip_logic(frame)
         reader.check_blank_variables(frame)
         reader.check_partial_units(frame)
