@@ -75,6 +75,19 @@ PROBLEM_CODES: dict[str, tuple[Severity, str]] = {
     "missing-coder": ("error", "a row of a table with a coder column has no coder name"),
     "duplicate-column": ("error", "two columns of one sheet share a header"),
     "unknown-variable": ("error", "a long table names a variable the codebook lacks"),
+    # coding protocol: answer key, rounds, codebook revisions
+    "key-not-one-coder": ("error", "the answer key holds more or fewer than one coder"),
+    "key-unit-not-coded": ("error", "a unit of the answer key was coded by no trainee"),
+    "round-name-twice": ("error", "two rounds share one name"),
+    "recode-unknown-code": (
+        "error",
+        "a codebook's recode block maps onto, or from, a code the variable does not have",
+    ),
+    "rename-cycle": ("error", "renamed_from entries of a codebook form a loop"),
+    "version-no-recode": (
+        "warning",
+        "a sheet was made from another codebook version and no recode block leads from it",
+    ),
     # adjudication
     "bad-decision": ("error", "an adjudication decision is not a valid code for its variable"),
     # warnings

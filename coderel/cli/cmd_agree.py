@@ -91,6 +91,14 @@ def agree_command(
     pairs: Annotated[
         bool, typer.Option("--pairs", help="Add the coder-by-coder agreement per variable.")
     ] = False,
+    coders: Annotated[
+        bool,
+        typer.Option(
+            "--coders",
+            help="Add coder diagnostics: alpha without each coder, marginal homogeneity per pair "
+            "of coders, each coder's share of each category.",
+        ),
+    ] = False,
     json_out: JsonOption = False,
     out: Annotated[
         Path | None, typer.Option("--out", "-o", help="Write the table (.csv/.xlsx).")
@@ -109,8 +117,19 @@ def agree_command(
             interval_method=interval_method,
             progress=progress,
         )
+    diagnostics = None
+    if coders:
+        from coderel.agree.coders import coder_diagnostics
+
+        diagnostics = coder_diagnostics(codings)
     if out is not None:
-        extra = {"pairs": result.pairs_frame()} if pairs else None
+        extra = {"pairs": result.pairs_frame()} if pairs else {}
+        if diagnostics is not None:
+            extra.update(
+                drop_one=diagnostics.to_frame(),
+                homogeneity=diagnostics.homogeneity_frame(),
+                shares=diagnostics.shares_frame(),
+            )
         write_table(result.to_frame(), out, sheet="agreement", extra_sheets=extra)
         if pairs and table_format(out) != "xlsx":
             pairs_path = out.with_name(f"{out.stem}-pairs{out.suffix}")
@@ -123,7 +142,10 @@ def agree_command(
             "needs at least two coders coding the same units, so every coefficient is undefined"
         )
     if json_out:
-        emit_json(result.to_dict(pairs=pairs))
+        payload = result.to_dict(pairs=pairs)
+        if diagnostics is not None:
+            payload["coder_diagnostics"] = diagnostics.to_dict()
+        emit_json(payload)
         return ExitCode.OK
     # Two coders: Cohen's kappa; more: Light's mean pairwise kappa (Cohen's is then undefined).
     kappa = "cohen_kappa" if len(result.coders) == 2 else "light_kappa"
@@ -148,6 +170,13 @@ def agree_command(
     if pairs:
         for t in _pairs_tables(result):
             console.print(t)
+    if diagnostics is not None:
+        from coderel.cli.coders_view import coder_tables
+
+        for t in coder_tables(diagnostics):
+            console.print(t)
+        for note in diagnostics.notes:
+            console.print(escape(note))
     say(
         "Verdicts compare alpha with the codebook's thresholds (conventions: Krippendorff 2004). "
         "Reliability is not validity: agreeing coders can still share a wrong reading."

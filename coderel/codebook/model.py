@@ -53,10 +53,18 @@ class Condition:
 
 @dataclass(frozen=True, slots=True)
 class Thresholds:
-    """Smallest acceptable alpha values (conventions of the field, Krippendorff 2004)."""
+    """Smallest acceptable alpha values (conventions of the field, Krippendorff 2004), and the
+    smallest acceptable agreement of a trainee with the answer key (``training``; ``None``: the
+    reliable threshold, a convention of ours)."""
 
     reliable: float = 0.800
     tentative: float = 0.667
+    training: float | None = None
+
+    @property
+    def training_threshold(self) -> float:
+        """The trainee's pass mark: ``training`` when set, else ``reliable``."""
+        return self.reliable if self.training is None else self.training
 
 
 @dataclass(frozen=True, slots=True)

@@ -1,0 +1,144 @@
+"""``coderel trend``: reliability across rounds, with the change between rounds and coder drift."""
+
+from __future__ import annotations
+
+from itertools import pairwise
+from pathlib import Path
+from typing import Annotated
+
+import typer
+from rich.markup import escape
+from rich.table import Table
+
+from coderel.cli.app import app
+from coderel.cli.common import (
+    DEFAULT_REPLICATES,
+    DEFAULT_SEED,
+    CodebookOption,
+    IntervalOption,
+    JsonOption,
+    ReplicatesOption,
+    SeedOption,
+    delayed_progress,
+    emit_json,
+    handle_errors,
+    out_console,
+    say,
+)
+from coderel.errors import ExitCode, UsageError
+
+RoundOption = Annotated[
+    list[str],
+    typer.Option(
+        "--round",
+        "-r",
+        help="A round as NAME=PATH (a file or folder of coders' sheets); repeat in time order.",
+    ),
+]
+
+
+def parse_rounds(specs: list[str]) -> list[tuple[str, Path]]:
+    """``NAME=PATH`` pairs in the order given; a name twice or no ``=`` is a usage error."""
+    from coderel.protocol.trend import check_round_names
+
+    out = []
+    for spec in specs:
+        name, sep, path = spec.partition("=")
+        if not sep or not name.strip() or not path.strip():
+            raise UsageError(f"--round {spec!r}: give NAME=PATH, for example --round pilot=sheets/")
+        out.append((name.strip(), Path(path.strip())))
+    check_round_names([n for n, _ in out])
+    return out
+
+
+def _interval(ci: tuple[float, float] | None) -> str:
+    return f" [{ci[0]:.3f}, {ci[1]:.3f}]" if ci else ""
+
+
+def _signed(x: float | None, ci: tuple[float, float] | None = None) -> str:
+    if x is None:
+        return "-"
+    return f"{x:+.3f}" + (f" [{ci[0]:+.3f}, {ci[1]:+.3f}]" if ci else "")
+
+
+@app.command("trend")
+@handle_errors
+def trend_command(
+    codebook: CodebookOption,
+    rounds: RoundOption,
+    replicates: ReplicatesOption = DEFAULT_REPLICATES,
+    seed: SeedOption = DEFAULT_SEED,
+    interval_method: IntervalOption = "bca",
+    json_out: JsonOption = False,
+    out: Annotated[
+        Path | None,
+        typer.Option("--out", "-o", help="Write alpha per round and variable (.csv/.xlsx)."),
+    ] = None,
+) -> ExitCode:
+    """Alpha per variable per round, its change between rounds, and each coder's drift."""
+    from coderel.cli.common import check_table_output, read_project
+    from coderel.io.tables import write_table
+    from coderel.protocol.trend import trend
+
+    parsed = parse_rounds(rounds)
+    check_table_output(out, [p for _, p in parsed], codebook)
+    read = [
+        (name, read_project(codebook, [path], errors_note=f"of round {name} count as blank"))
+        for name, path in parsed
+    ]
+    with delayed_progress("bootstrap per round") as progress:
+        result = trend(
+            read,
+            replicates=replicates,
+            seed=seed,
+            interval_method=interval_method,
+            progress=progress,
+        )
+    if out is not None:
+        write_table(
+            result.to_frame(), out, sheet="alpha", extra_sheets={"coders": result.coders_frame()}
+        )
+        say(f"table written to {out}")
+    if json_out:
+        emit_json(result.to_dict())
+        return ExitCode.OK
+    console = out_console()
+    table = Table(
+        title=f"Alpha by round ({replicates} bootstrap replicates per round, seed {seed})"
+    )
+    table.add_column("variable")
+    for r in result.rounds:
+        table.add_column(r)
+    for r0, r1 in pairwise(result.rounds):
+        table.add_column(f"change {r0} -> {r1}")
+    for var in result.variables:
+        cells = []
+        for r in result.rounds:
+            a = result.alpha(r, var).alpha
+            cells.append("-" if a.estimate is None else f"{a.estimate:.3f}{_interval(a.ci)}")
+        for c in (c for c in result.changes if c.variable == var):
+            cells.append(_signed(c.change, c.ci))
+        table.add_row(escape(var), *cells)
+    console.print(table)
+    drift = Table(title="Coders: mean pairwise agreement with the others, by round")
+    for col in ("coder", "round", "agreement", "change", "others' change", "flag"):
+        drift.add_column(col)
+    for c in result.coders:
+        drift.add_row(
+            escape(c.coder),
+            escape(c.round),
+            "-" if c.agreement is None else f"{c.agreement:.3f}{_interval(c.ci)}",
+            _signed(c.change, c.change_ci),
+            _signed(c.others_change),
+            "drift" if c.drift else "",
+        )
+    console.print(drift)
+    for c in result.drifting:
+        console.print(
+            f"{escape(c.coder)} in {escape(c.round)}: agreement with the others fell by "
+            f"{-c.change:.3f} (interval {_signed(c.change, c.change_ci)}) while the others "
+            f"changed by {_signed(c.others_change)}"
+        )
+    for note in result.notes:
+        say(note)
+    return ExitCode.OK
