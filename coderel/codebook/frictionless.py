@@ -20,7 +20,7 @@ from typing import Any
 
 import yaml
 
-from coderel.codebook.load import codebook_from_data
+from coderel.codebook.build import codebook_from_data
 from coderel.codebook.model import MULTI_SEPARATOR, Code, Codebook, Thresholds, Variable
 from coderel.errors import CodebookError
 from coderel.io.atomic import write_text
