@@ -172,13 +172,17 @@ def test_cohen_kappa_symmetric_and_uses_units_coded_by_both(data):
 
 @FAST
 @given(many_coders(max_coders=6))
-def test_fleiss_kappa_matches_statsmodels_on_complete_units(data):
+def test_fleiss_kappa_matches_statsmodels_on_units_with_the_modal_number_of_values(data):
+    # Fleiss (1971) needs the same number of ratings per subject, not the same raters: the units
+    # kept are those with the most common number m >= 2 of values (on a tie, the larger m).
     k, x = data
     got = build_plan(x, Scale("categorical", "nominal", k)).point("fleiss_kappa")
-    complete = (x >= 0).all(axis=1)
-    counts = value_counts(x[complete], k)
-    if not complete.any() or (counts.sum(axis=0) == counts.sum()).any():
-        assert not _finite(got)  # no complete unit, or one category only: undefined
+    m = (x >= 0).sum(axis=1)
+    sizes = sorted({int(v) for v in m if v >= 2}, key=lambda v: (int((m == v).sum()), v))
+    kept = m == (sizes[-1] if sizes else -1)
+    counts = value_counts(x[kept], k)
+    if not kept.any() or (counts.sum(axis=0) == counts.sum()).any():
+        assert not _finite(got)  # no unit with two values, or one category only: undefined
         return
     ref = fleiss_kappa(counts, method="fleiss")
     assert got == pytest.approx(ref, abs=TOL)
@@ -255,8 +259,13 @@ def test_chance_corrected_family_matches_hand_formulas(data):
     n = len(a)
     p = np.zeros((k, k))
     np.add.at(p, (a, b), 1.0 / n)
-    r, c = p.sum(axis=1), p.sum(axis=0)
-    pi = (r + c) / 2
+    # Category shares from every coded value, a unit's only value included (Gwet 2014,
+    # *Handbook of Inter-Rater Reliability*, 4th ed., ch. 2, raw-data form; from memory):
+    # pi_k = mean over units with a value of r_ik / r_i. With no missing value this is Scott's
+    # (1955) mean of the two coders' margins.
+    coded = (x >= 0).any(axis=1)
+    per_unit = value_counts(x[coded], k)
+    pi = (per_unit / per_unit.sum(axis=1, keepdims=True)).mean(axis=0)
     p_o = float(np.trace(p))
 
     def cc(p_obs: float, p_e: float) -> float:

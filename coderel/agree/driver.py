@@ -98,7 +98,7 @@ def agreement(
         ) from None
     rows = []
     for t, evaluated in zip(targets, evaluated_all, strict=True):
-        rows.append(variable_row(t, evaluated, coders, ci_level, interval_method))
+        rows.append(variable_row(t, evaluated, ci_level, interval_method))
         step(len(plans) + len(rows), total)
     return AgreementResult(
         tuple(rows),

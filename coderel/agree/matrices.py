@@ -29,6 +29,7 @@ class Target:
     categories: tuple[Any, ...]
     thresholds: Thresholds
     var: Variable
+    coders: tuple[str, ...] = ()
 
 
 @dataclass(frozen=True)
@@ -75,7 +76,15 @@ def value_matrix(
         scale = Scale("categorical", var.level, len(domain))
     elif var.multiple:
         values = [frozenset(v) for v in values]
-        sets = tuple(dict.fromkeys(values))
+        # Distinct sets in one canonical order (by the codebook's order of their codes), so the
+        # domain never depends on the order in which rows arrive.
+        position = {code: i for i, code in enumerate(var.codes)}
+        sets = tuple(
+            sorted(
+                set(values),
+                key=lambda c: (len(c), sorted(position.get(v, len(position)) for v in c)),
+            )
+        )
         domain = {s: i for i, s in enumerate(sets)}
         scale = Scale("set", "nominal", len(sets), sets=sets)
     else:
@@ -99,6 +108,17 @@ def applicability_matrix(ix: UnitIndex, var: Variable, n_units: int, n_coders: i
     return x
 
 
+def coders_of(x: np.ndarray, coders: list[str]) -> tuple[np.ndarray, tuple[str, ...]]:
+    """Keep the coders who gave the variable at least one value.
+
+    A coder with no value for a variable is not a coder of it: which formulas apply (Cohen's
+    kappa for two coders, Light's for more) and every coefficient depend only on the coders who
+    coded the variable, never on the coders of other variables.
+    """
+    keep = np.flatnonzero((x >= 0).any(axis=0))
+    return x[:, keep], tuple(coders[i] for i in keep)
+
+
 def build_targets(codings: Codings, coders: list[str], units: list[str]) -> list[Target]:
     cb = codings.codebook
     ix = build_index(codings, coders, units)
@@ -106,11 +126,12 @@ def build_targets(codings: Codings, coders: list[str], units: list[str]) -> list
     out: list[Target] = []
     for var in cb.variables:
         x, scale = value_matrix(ix, var, n_units, n_coders)
+        x, own = coders_of(x, coders)
         cats = tuple(var.codes) if var.is_categorical and not var.multiple else ()
         th = cb.thresholds_for(var.name)
-        out.append(Target(var.name, var.title, var.level, "variable", x, scale, cats, th, var))
+        out.append(Target(var.name, var.title, var.level, "variable", x, scale, cats, th, var, own))
         if var.applies_when is not None:
-            xa = applicability_matrix(ix, var, n_units, n_coders)
+            xa, own_a = coders_of(applicability_matrix(ix, var, n_units, n_coders), coders)
             out.append(
                 Target(
                     var.name + APPLIES_SUFFIX,
@@ -122,6 +143,7 @@ def build_targets(codings: Codings, coders: list[str], units: list[str]) -> list
                     ("no", "yes"),
                     th,
                     var,
+                    own_a,
                 )
             )
     return out

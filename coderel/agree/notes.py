@@ -1,5 +1,6 @@
 """A variable's verdict (thresholds are conventions of the field) and its notes in plain words:
-thin data, perfect agreement, the prevalence paradox, rare categories, Fleiss' complete units."""
+thin data, perfect agreement, the prevalence paradox, rare categories, the units Fleiss' kappa
+uses."""
 
 from __future__ import annotations
 
@@ -39,7 +40,7 @@ def notes_for(
     t: Target,
     coefs: dict[str, Estimate | None],
     pairable_units: int,
-    fleiss_units: int,
+    fleiss: tuple[int, int],
     cat_agree: dict,
     replicates: int = 0,
     ci_level: float = 0.95,
@@ -101,10 +102,13 @@ def notes_for(
             "them rests on very few units"
         )
     fk = coefs.get("fleiss_kappa")
+    fleiss_units, fleiss_m = fleiss
     if fk is not None and fk.estimate is not None and fleiss_units < pairable_units:
+        left = pairable_units - fleiss_units
         notes.append(
-            f"Fleiss' kappa: the {fleiss_units} of {pairable_units} units coded by every coder; "
-            "its SE holds under kappa = 0 only (for the z test)"
+            f"Fleiss' kappa: the {fleiss_units} of {pairable_units} units with {fleiss_m} values "
+            f"each (the most common number of values); {left} unit(s) with another number left "
+            "out. Its SE holds under kappa = 0 only (for the z test)"
         )
     if t.kind == "variable" and t.var.multiple:
         notes.append(

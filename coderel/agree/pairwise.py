@@ -20,8 +20,8 @@ from coderel.stats.kappa import (
 from coderel.stats.plan import Scale, alpha_point
 
 
-def pair_agreements(t: Target, coders: list[str]) -> tuple[tuple[PairAgreement, ...], dict]:
-    x, k = t.x, t.scale.size
+def pair_agreements(t: Target) -> tuple[tuple[PairAgreement, ...], dict]:
+    x, k, coders = t.x, t.scale.size, t.coders
     categorical = t.scale.kind == "categorical"
     pairs, confusion = [], {}
     for i, j in combinations(range(x.shape[1]), 2):
@@ -51,11 +51,12 @@ def pair_agreements(t: Target, coders: list[str]) -> tuple[tuple[PairAgreement, 
 
 
 def category_agreement(
-    t: Target, confusion: dict, complete_counts: np.ndarray
+    t: Target, confusion: dict, fleiss_counts: np.ndarray
 ) -> dict[Any, dict[str, float | None]]:
-    """Per category: Fleiss' (1971, eq. 11) kappa on complete units and the proportion of
-    specific agreement pooled over coder pairs (2 n_kk / (n_k. + n_.k)); for multi-select
-    variables, Krippendorff's binary (present/absent) alpha per category."""
+    """Per category: Fleiss' (1971, eq. 11) kappa on the units with the most common number of
+    values and the proportion of specific agreement pooled over coder pairs
+    (2 n_kk / (n_k. + n_.k)); for multi-select variables, Krippendorff's binary (present/absent)
+    alpha per category."""
     var = t.var
     out: dict[Any, dict[str, float | None]] = {}
     if t.kind == "variable" and var.multiple:
@@ -73,7 +74,7 @@ def category_agreement(
     pooled = np.zeros((k, k))
     for table in confusion.values():
         pooled += table + table.T
-    fk = fleiss_category_kappas(complete_counts) if len(complete_counts) else np.full(k, np.nan)
+    fk = fleiss_category_kappas(fleiss_counts) if len(fleiss_counts) else np.full(k, np.nan)
     diag, marg = np.diag(pooled), pooled.sum(axis=1)
     for idx, code in enumerate(t.categories):
         specific = 2 * diag[idx] / (2 * marg[idx]) if marg[idx] > 0 else None
@@ -86,7 +87,7 @@ def category_agreement(
 
 
 def standard_errors(
-    t: Target, coefs: dict[str, Estimate | None], confusion: dict, complete_counts: np.ndarray
+    t: Target, coefs: dict[str, Estimate | None], confusion: dict, fleiss_counts: np.ndarray
 ) -> dict[str, Estimate | None]:
     """Published standard errors: Cohen's (weighted) kappa, Fleiss, Cohen & Everitt (1969);
     Fleiss' kappa under the null, Fleiss, Nee & Landis (1979), with its z test."""
@@ -103,10 +104,10 @@ def standard_errors(
                 se = finite(cohen_kappa_table(table, weights)[1])
                 out[key] = Estimate(est.estimate, est.ci, se, est.reason)
     est = out.get("fleiss_kappa")
-    if est is not None and est.estimate is not None and len(complete_counts):
-        m = int(complete_counts[0].sum())
-        p = complete_counts.sum(axis=0) / complete_counts.sum()
-        se = finite(fleiss_null_se(p, len(complete_counts), m))
+    if est is not None and est.estimate is not None and len(fleiss_counts):
+        m = int(fleiss_counts[0].sum())
+        p = fleiss_counts.sum(axis=0) / fleiss_counts.sum()
+        se = finite(fleiss_null_se(p, len(fleiss_counts), m))
         z, pv = z_test(est.estimate, se)
         out["fleiss_kappa"] = Estimate(est.estimate, est.ci, se, est.reason, finite(z), finite(pv))
     return out

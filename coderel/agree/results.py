@@ -85,6 +85,7 @@ class VariableAgreement:
     notes: tuple[str, ...]
     kind: str = "variable"
     fleiss_units: int = 0
+    fleiss_values_per_unit: int = 0
     categories: tuple[Any, ...] = ()
     confusion: dict[tuple[str, str], np.ndarray] = field(default_factory=dict)
     category_agreement: dict[Any, dict[str, float | None]] = field(default_factory=dict)
@@ -100,6 +101,7 @@ class VariableAgreement:
             "coders": self.coders,
             "pairable_values": self.pairable_values,
             "fleiss_units": self.fleiss_units,
+            "fleiss_values_per_unit": self.fleiss_values_per_unit,
         }
         for key in COEFFICIENTS:
             est = self.coefficients.get(key)

@@ -20,16 +20,15 @@ from coderel.agree.pairwise import category_agreement, pair_agreements, standard
 from coderel.agree.results import Estimate, VariableAgreement, finite
 from coderel.stats import undefined as U
 from coderel.stats.bootstrap import Evaluated
+from coderel.stats.counts import fleiss_units as fleiss_units_of
 from coderel.stats.counts import value_counts
 from coderel.stats.intervals import interval, share_below
 
 
-def undefined_reason(key: str, t: Target, pairable_values: int, fleiss_units: int) -> str:
+def undefined_reason(key: str, t: Target, pairable_values: int) -> str:
     """Why a coefficient has no value on these data (a slug of :mod:`coderel.stats.undefined`)."""
     if pairable_values < 2:
         return U.TOO_FEW_PAIRABLE
-    if key == "fleiss_kappa" and fleiss_units == 0:
-        return U.NO_COMPLETE_UNITS
     if key == "brennan_prediger" and t.scale.size < 2:
         return U.ONE_CATEGORY
     return U.NO_VARIATION
@@ -38,7 +37,6 @@ def undefined_reason(key: str, t: Target, pairable_values: int, fleiss_units: in
 def variable_row(
     t: Target,
     evaluated: dict[str, Evaluated],
-    coders: list[str],
     ci_level: float,
     interval_method: str,
 ) -> VariableAgreement:
@@ -46,8 +44,9 @@ def variable_row(
     per_unit = (x >= 0).sum(axis=1)
     pairable_units = int((per_unit >= 2).sum())
     pairable_values = int(per_unit[per_unit >= 2].sum())
-    complete = (per_unit == x.shape[1]) & (x.shape[1] >= 2)
-    fleiss_units = int(complete.sum()) if t.scale.kind == "categorical" else 0
+    categorical = t.scale.kind == "categorical"
+    modal, fleiss_m = fleiss_units_of(x) if categorical else (np.zeros(len(x), bool), 0)
+    fleiss_units = int(modal.sum())
     pairable_x = x[per_unit >= 2]
     used = int(np.unique(pairable_x[pairable_x >= 0]).size)
     one_value = used == 1
@@ -82,20 +81,16 @@ def variable_row(
             continue
         point = finite(ev.point)
         if point is None:
-            coefs[key] = Estimate(
-                None, reason=undefined_reason(key, t, pairable_values, fleiss_units)
-            )
+            coefs[key] = Estimate(None, reason=undefined_reason(key, t, pairable_values))
             continue
         ci = None
         if not thin and ev.replicates.size:
             ci = interval(ev.replicates, ev.point, ev.jackknife, ci_level, interval_method)
         coefs[key] = Estimate(point, ci, None, thin_reason if thin else None)
-    pairs, confusion = pair_agreements(t, coders)
-    complete_counts = (
-        value_counts(x[complete], t.scale.size) if t.scale.kind == "categorical" else np.empty(0)
-    )
-    coefs = standard_errors(t, coefs, confusion, complete_counts)
-    cat_agree = category_agreement(t, confusion, complete_counts)
+    pairs, confusion = pair_agreements(t)
+    fleiss_counts = value_counts(x[modal], t.scale.size) if categorical else np.empty(0)
+    coefs = standard_errors(t, coefs, confusion, fleiss_counts)
+    cat_agree = category_agreement(t, confusion, fleiss_counts)
     alpha = coefs.get("krippendorff_alpha")
     below = None
     if alpha is not None and alpha.estimate is not None and not thin:
@@ -111,10 +106,19 @@ def variable_row(
         alpha_below_min=below,
         verdict=verdict(alpha, t.thresholds, pairable_units),
         notes=tuple(
-            notes_for(t, coefs, pairable_units, fleiss_units, cat_agree, replicates, ci_level)
+            notes_for(
+                t,
+                coefs,
+                pairable_units,
+                (fleiss_units, fleiss_m),
+                cat_agree,
+                replicates,
+                ci_level,
+            )
         ),
         kind=t.kind,
         fleiss_units=fleiss_units,
+        fleiss_values_per_unit=fleiss_m,
         categories=t.categories,
         confusion=confusion,
         category_agreement=cat_agree,

@@ -3,9 +3,9 @@
 All share the form (p_o - p_e) / (1 - p_e) and differ in chance agreement p_e. With ``pi_k`` the
 mean of the coders' proportions of category k and q the number of categories in the codebook:
 
-* Scott (1955): p_e = sum pi_k^2. For more than two coders the Fleiss-type generalisation of
-  Gwet (2014, ch. 2), which allows units not coded by everyone, reduces to Fleiss' kappa when
-  every coder codes every unit.
+* Scott (1955): p_e = sum pi_k^2. coderel uses Gwet's (2014, ch. 2) raw-data form for any
+  number of coders (pi_k from every coded value, also a unit's only value), which is Scott's pi
+  with two coders and no missing value and Fleiss' kappa when every coder codes every unit.
 * Bennett, Alpert & Goldstein (1954); Brennan & Prediger (1981): p_e = 1 / q (weighted: T_w / q^2).
 * Gwet (2008) AC1: p_e = sum pi_k (1 - pi_k) / (q - 1); AC2 (Gwet 2014) with weights w:
   p_e = T_w / (q (q - 1)) * sum pi_k (1 - pi_k), T_w the sum of all weights.

@@ -32,6 +32,29 @@ def values_per_unit(x: np.ndarray) -> np.ndarray:
     return (x >= 0).sum(axis=1).astype(float)
 
 
+def fleiss_units(x: np.ndarray) -> tuple[np.ndarray, int]:
+    """The units Fleiss' kappa uses and their number of values m.
+
+    Fleiss (1971) needs the same number of ratings m for every unit, not the same raters: with
+    rotating coders (each unit coded by 2 of 3) every unit counts. Units are kept when their
+    number of values is the most common one among units with two or more values; on a tie, the
+    larger number (more ratings per unit). Returns a boolean mask over units and m (0 when no
+    unit has two values).
+
+    >>> x = np.array([[0, 1, -1], [-1, 0, 0], [1, 1, 1], [0, -1, -1]])
+    >>> mask, m = fleiss_units(x)
+    >>> mask.tolist(), m
+    ([True, True, False, False], 2)
+    """
+    per_unit = (x >= 0).sum(axis=1)
+    rated = per_unit[per_unit >= 2]
+    if rated.size == 0:
+        return np.zeros(x.shape[0], dtype=bool), 0
+    sizes, freq = np.unique(rated, return_counts=True)
+    m = int(sizes[freq == freq.max()].max())
+    return per_unit == m, m
+
+
 def coder_pairs(n_coders: int) -> list[tuple[int, int]]:
     """All pairs (i, j) of coder columns with i < j."""
     return list(combinations(range(n_coders), 2))

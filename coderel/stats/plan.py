@@ -8,12 +8,15 @@ multinomial counts gives a replicate, a leave-one-out vector gives a jackknife v
 formula maps a matrix of sums (R x M) to R coefficient values, so a coefficient is never
 re-computed in a Python loop over replicates.
 
-Multi-coder definitions (more than two coders) follow Gwet (2014, *Handbook of Inter-Rater
-Reliability*, 4th ed., ch. 2-3): observed agreement p_a averages, over units with two or more
-values, sum_k r_ik (r_ik - 1) / (r_i (r_i - 1)); category proportions pi_k average r_ik / r_i over
-units with at least one value. Scott's pi becomes Fleiss' kappa generalised to missing values;
-Brennan-Prediger, AC1/AC2 and PABAK use the same p_a. Light's kappa is the mean of Cohen's kappa
-over coder pairs (Light 1971). Fleiss' kappa proper uses the units coded by every coder.
+Scott's pi, Brennan-Prediger, AC1/AC2 and PABAK follow one missing-data rule for two coders and
+for more, the raw-data form of Gwet (2014, *Handbook of Inter-Rater Reliability*, 4th ed.,
+ch. 2-3): observed agreement p_a averages, over units with two or more values,
+sum_k r_ik (r_ik - 1) / (r_i (r_i - 1)); category proportions pi_k average r_ik / r_i over
+units with at least one value (every coded value counts, also a unit's only value). With two
+coders and no missing values these are the usual two-coder formulas. Cohen's (weighted) kappa
+and Light's kappa (the mean of Cohen's kappa over coder pairs, Light 1971) use the units both
+coders of a pair coded. Fleiss' kappa proper uses the units with the most common number of
+values (:func:`coderel.stats.counts.fleiss_units`).
 """
 
 from __future__ import annotations
@@ -30,6 +33,7 @@ from coderel.stats import kappa as KA
 from coderel.stats.counts import (
     coder_pairs,
     coincidences_upper,
+    fleiss_units,
     one_hot,
     unit_agreeing_pairs,
     unit_disagreement,
@@ -222,46 +226,35 @@ def categorical_plan(x: np.ndarray, scale: Scale) -> Plan:
         weights = {
             "linear": KA.agreement_weights(k, "linear"),
             "quadratic": KA.agreement_weights(k, "quadratic"),
-            "gwet": w_gwet,
         }
     pairs = coder_pairs(n_coders)
     counts = value_counts(x, k)
     m = counts.sum(axis=1)
 
-    # Fleiss (1971) on units coded by every coder.
-    complete = (m == n_coders) & (n_coders >= 2)
-    s_fc = b.add(complete.astype(float))
-    s_fn = b.add(counts * complete[:, None])
-    s_fq = b.add((counts**2).sum(axis=1) * complete)
-    f["fleiss_kappa"] = lambda s: KA.fleiss_from_sums(s[:, s_fc], s[:, s_fn], s[:, s_fq], n_coders)
+    # Fleiss (1971) on the units with the most common number of values (same m, any coders).
+    modal, m_fleiss = fleiss_units(x)
+    s_fc = b.add(modal.astype(float))
+    s_fn = b.add(counts * modal[:, None])
+    s_fq = b.add((counts**2).sum(axis=1) * modal)
+    f["fleiss_kappa"] = lambda s: KA.fleiss_from_sums(s[:, s_fc], s[:, s_fn], s[:, s_fq], m_fleiss)
 
+    # Pairwise coefficients: units coded by both coders of a pair.
     if n_coders == 2:
         p = _add_pair(b, x[:, 0], x[:, 1], k, weights)
         f["cohen_kappa"] = f["light_kappa"] = _cohen(p)
-
-        def parts(s: np.ndarray, p: _PairSlices = p):
-            p_o, r, c = _pair_parts(s, p)
-            return p_o, r, c, (r + c) / 2.0
-
-        f["scott_pi"] = lambda s: CH.scott_pi(parts(s)[0], parts(s)[3])
-        f["brennan_prediger"] = lambda s: CH.brennan_prediger(parts(s)[0], k)
-        f["gwet_ac1"] = lambda s: CH.gwet_ac(parts(s)[0], parts(s)[3])
-        if k == 2:
-            f["pabak"] = lambda s: CH.pabak(parts(s)[0])
         if scale.ordinal:
             for name in ("linear", "quadratic"):
                 w, col = weights[name], p.weighted[name]
-                f[f"weighted_kappa_{name}"] = lambda s, w=w, col=col: KA.weighted_from_margins(
-                    _div(s[:, col], s[:, p.both]), parts(s)[1], parts(s)[2], w
+                f[f"weighted_kappa_{name}"] = lambda s, w=w, col=col, p=p: KA.weighted_from_margins(
+                    _div(s[:, col], s[:, p.both]), *_pair_parts(s, p)[1:], w
                 )
-            g = p.weighted["gwet"]
-            f["gwet_ac2"] = lambda s: CH.gwet_ac(_div(s[:, g], s[:, p.both]), parts(s)[3], w_gwet)
-        return Plan(b.contributions(), f)
-
-    if n_coders > 2:
+    elif n_coders > 2:
         slices = [_add_pair(b, x[:, i], x[:, j], k, {}) for i, j in pairs]
         cohens = [_cohen(p) for p in slices]
         f["light_kappa"] = lambda s: _nanmean_rows(np.stack([g(s) for g in cohens]))
+
+    # One missing-data rule for any number of coders (Gwet 2014, raw-data form): p_a over units
+    # with two or more values, category shares pi_k over every unit with a value.
     pairable = m >= 2
     denom = np.where(pairable, m * (m - 1.0), 1.0)
     pa = np.where(pairable, (counts * (counts - 1.0)).sum(axis=1) / denom, 0.0)

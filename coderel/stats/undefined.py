@@ -20,8 +20,6 @@ NOT_BINARY: Final = "not-binary"
 """PABAK is defined for two categories only."""
 ONE_CATEGORY: Final = "one-category"
 """The codebook lists a single category, so chance agreement over q - 1 categories is 0/0."""
-NO_COMPLETE_UNITS: Final = "no-complete-units"
-"""Fleiss' kappa needs units coded by every coder; there are none."""
 
 REASONS: Final[dict[str, str]] = {
     NO_VARIATION: "every pairable value is the same, so agreement beyond chance is undefined",
@@ -30,7 +28,6 @@ REASONS: Final[dict[str, str]] = {
     NOT_ORDINAL: "weighted coefficients need an ordinal variable",
     NOT_BINARY: "defined for variables with exactly two categories",
     ONE_CATEGORY: "the codebook lists one category only",
-    NO_COMPLETE_UNITS: "no unit was coded by every coder",
 }
 
 
