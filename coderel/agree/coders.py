@@ -214,9 +214,12 @@ def coder_diagnostics(codings: Codings) -> CoderDiagnostics:
     """
     coders, units = codings.coders, codings.units
     out = []
-    for t in build_targets(codings, coders, units):
-        if t.kind != "variable":
+    for target in build_targets(codings, coders, units):
+        if target.kind != "variable":
             continue
+        # The variable's own coders (those who gave it a value) are the columns of t.x.
+        t = target.own()
+        own_coders = list(t.coders)
         alpha = _num(alpha_point(t.x, t.scale))
         without = drop_one_alpha(t.x, t.scale)
         drop = tuple(
@@ -225,20 +228,22 @@ def coder_diagnostics(codings: Codings) -> CoderDiagnostics:
                 _num(without[c]),
                 None if alpha is None or not np.isfinite(without[c]) else float(without[c] - alpha),
             )
-            for c, coder in enumerate(coders)
-            if len(coders) >= 3
+            for c, coder in enumerate(own_coders)
+            if len(own_coders) >= 3
         )
         pairs: list[PairHomogeneity] = []
         shares: list[CategoryShare] = []
         if t.categories:
             k = t.scale.size
-            for i in range(len(coders)):
-                for j in range(i + 1, len(coders)):
+            for i in range(len(own_coders)):
+                for j in range(i + 1, len(own_coders)):
                     table = confusion_table(t.x[:, i], t.x[:, j], k)
                     n = int(table.sum())
                     if n == 0:
                         continue
-                    pairs.append(PairHomogeneity(coders[i], coders[j], n, _pair_tests(table, k)))
+                    pairs.append(
+                        PairHomogeneity(own_coders[i], own_coders[j], n, _pair_tests(table, k))
+                    )
             own, pooled, _ = category_shares(t.x, k)
             for idx, code in enumerate(t.categories):
                 shares.append(
@@ -246,7 +251,7 @@ def coder_diagnostics(codings: Codings) -> CoderDiagnostics:
                         code,
                         t.var.label_of(code) or str(code),
                         _num(pooled[idx]),
-                        {c: _num(own[ci, idx]) for ci, c in enumerate(coders)},
+                        {c: _num(own[ci, idx]) for ci, c in enumerate(own_coders)},
                     )
                 )
         out.append(VariableCoders(t.name, t.level, alpha, drop, tuple(pairs), tuple(shares)))

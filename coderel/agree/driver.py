@@ -78,7 +78,8 @@ def agreement(
     cb = codings.codebook
     coders = codings.coders
     units = codings.units
-    targets = build_targets(codings, coders, units)
+    # Each row over the coders who coded it (a coder of other variables is not one of them).
+    targets = [t.own() for t in build_targets(codings, coders, units)]
     plans = [build_plan(t.x, t.scale) for t in targets]
     total = 2 * len(plans)
 

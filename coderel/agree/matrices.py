@@ -3,7 +3,7 @@ variable's applicability): the rows to compute."""
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Any
 
 import numpy as np
@@ -30,6 +30,16 @@ class Target:
     thresholds: Thresholds
     var: Variable
     coders: tuple[str, ...] = ()
+
+    def own(self) -> Target:
+        """This row with only the coders who gave it at least one value.
+
+        A coder with no value for a variable is not a coder of it: which formulas apply (Cohen's
+        kappa for two coders, Light's for more) and every coefficient depend only on the coders
+        who coded the variable, never on the coders of other variables.
+        """
+        keep = np.flatnonzero((self.x >= 0).any(axis=0))
+        return replace(self, x=self.x[:, keep], coders=tuple(self.coders[i] for i in keep))
 
 
 @dataclass(frozen=True)
@@ -108,17 +118,6 @@ def applicability_matrix(ix: UnitIndex, var: Variable, n_units: int, n_coders: i
     return x
 
 
-def coders_of(x: np.ndarray, coders: list[str]) -> tuple[np.ndarray, tuple[str, ...]]:
-    """Keep the coders who gave the variable at least one value.
-
-    A coder with no value for a variable is not a coder of it: which formulas apply (Cohen's
-    kappa for two coders, Light's for more) and every coefficient depend only on the coders who
-    coded the variable, never on the coders of other variables.
-    """
-    keep = np.flatnonzero((x >= 0).any(axis=0))
-    return x[:, keep], tuple(coders[i] for i in keep)
-
-
 def build_targets(codings: Codings, coders: list[str], units: list[str]) -> list[Target]:
     cb = codings.codebook
     ix = build_index(codings, coders, units)
@@ -126,12 +125,15 @@ def build_targets(codings: Codings, coders: list[str], units: list[str]) -> list
     out: list[Target] = []
     for var in cb.variables:
         x, scale = value_matrix(ix, var, n_units, n_coders)
-        x, own = coders_of(x, coders)
         cats = tuple(var.codes) if var.is_categorical and not var.multiple else ()
         th = cb.thresholds_for(var.name)
-        out.append(Target(var.name, var.title, var.level, "variable", x, scale, cats, th, var, own))
+        out.append(
+            Target(
+                var.name, var.title, var.level, "variable", x, scale, cats, th, var, tuple(coders)
+            )
+        )
         if var.applies_when is not None:
-            xa, own_a = coders_of(applicability_matrix(ix, var, n_units, n_coders), coders)
+            xa = applicability_matrix(ix, var, n_units, n_coders)
             out.append(
                 Target(
                     var.name + APPLIES_SUFFIX,
@@ -143,7 +145,7 @@ def build_targets(codings: Codings, coders: list[str], units: list[str]) -> list
                     ("no", "yes"),
                     th,
                     var,
-                    own_a,
+                    tuple(coders),
                 )
             )
     return out
