@@ -26,7 +26,7 @@ from coderel.io.read import read_codings
 from coderel.report import build_report, write_report
 from coderel.report.html import CSP, render_html
 from coderel.report.markdown import render_markdown
-from coderel.report.sections import SECTIONS, section_frames
+from coderel.report.sections import SECTIONS, section_frames, sections
 
 ROOT = Path(__file__).resolve().parents[1]
 CB = ROOT / "sample_codebooks" / "wildlife_encounters.yaml"
@@ -67,7 +67,9 @@ def demo_html(demo):
 
 def test_html_has_every_section_and_every_variable(demo, demo_html):
     _, content = demo
-    for section in SECTIONS:
+    # Every section but those of the protocol (training, rounds: only with --key, --round).
+    assert {s.key for s in SECTIONS} - {s.key for s in sections(content)} == {"training", "rounds"}
+    for section in sections(content):
         assert f'<section id="{section.key}"' in demo_html, section.key
     assert content.adjudication is not None  # the demo's decisions file gives the progress part
     for row in content.table:
@@ -170,7 +172,7 @@ def test_markdown_has_sections_and_svg_files_beside_it(demo, tmp_path):
     md_path = tmp_path / "report.md"
     assert written[0] == md_path
     md = md_path.read_text(encoding="utf-8")
-    for section in SECTIONS:
+    for section in sections(content):
         assert f"## {section.title}" in md, section.key
     links = re.findall(r"!\[[^\]]*\]\(([^)]+)\)", md)
     assert "report-charts/chart-intervals.svg" in links
@@ -189,7 +191,7 @@ def test_xlsx_has_one_sheet_per_section(demo, tmp_path):
     out = tmp_path / "report.xlsx"
     write_report(content, out)
     wb = load_workbook(out)
-    expected = [sheet for s in SECTIONS for sheet in s.sheets]
+    expected = [sheet for s in sections(content) for sheet in s.sheets]
     assert wb.sheetnames == expected
     ws = wb["agreement"]
     header = [c.value for c in ws[1]]

@@ -76,6 +76,50 @@ def _command_line(
     return " ".join([*parts, *options])
 
 
+#: Coder diagnostics (alpha without each coder: one alpha per coder and variable) are left out of
+#: the report above this many coders; ``agree --coders`` still gives them.
+MAX_DIAGNOSED_CODERS = 30
+
+
+def _with_protocol(
+    content, codings, codebook, key_files, round_specs, replicates, seed, interval_method
+):
+    """The report's content with the coder diagnostics and, when asked, training and rounds."""
+    import dataclasses
+
+    from coderel.agree.coders import coder_diagnostics
+    from coderel.report.protocol import protocol_parts
+
+    diagnostics = None
+    if 2 <= len(codings.coders) <= MAX_DIAGNOSED_CODERS:
+        diagnostics = coder_diagnostics(codings)
+    elif len(codings.coders) > MAX_DIAGNOSED_CODERS:
+        say(
+            f"{len(codings.coders)} coders: coder diagnostics left out of the report (more than "
+            f"{MAX_DIAGNOSED_CODERS}); 'coderel agree --coders' gives them"
+        )
+    scored = trended = None
+    settings = {"replicates": replicates, "seed": seed, "interval_method": interval_method}
+    if key_files:
+        from coderel.errors import InputRefused
+        from coderel.io.read import read_codings
+        from coderel.protocol.score import key_codebook, score
+
+        key_codings = read_codings(key_codebook(codings.codebook), sorted(key_files))
+        if key_codings.problems.refused:
+            raise InputRefused("the answer key was refused", problems=key_codings.problems)
+        scored = score(key_codings, codings, **settings)
+    if round_specs:
+        from coderel.protocol.trend import trend
+
+        read = [
+            (name, read_project(codebook, [path], errors_note=f"of round {name} count as blank"))
+            for name, path in round_specs
+        ]
+        trended = trend(read, **settings)
+    return dataclasses.replace(content, protocol=protocol_parts(diagnostics, scored, trended))
+
+
 @app.command("report")
 @handle_errors
 def report_command(
@@ -101,6 +145,21 @@ def report_command(
     seed: SeedOption = DEFAULT_SEED,
     interval_method: IntervalOption = "bca",
     date: DateOption = None,
+    key: Annotated[
+        Path | None,
+        typer.Option(
+            "--key",
+            help="An answer key: adds 'Training against the key' (DATA's coders scored "
+            "against it).",
+        ),
+    ] = None,
+    rounds: Annotated[
+        list[str] | None,
+        typer.Option(
+            "--round",
+            help="NAME=PATH of a round (repeat in time order): adds 'Reliability across rounds'.",
+        ),
+    ] = None,
     json_out: JsonOption = False,
 ) -> ExitCode:
     """The reliability report: summary, agreement table, charts, coders, methods paragraph."""
@@ -116,7 +175,16 @@ def report_command(
     targets = report_paths(out, forms) if out is not None else []
     if decisions is not None and not decisions.is_file():
         raise UsageError(f"the decisions file {decisions.name!r} does not exist")
+    round_specs = []
+    if rounds:
+        from coderel.cli.cmd_trend import parse_rounds
+
+        round_specs = parse_rounds(rounds)
+    if key is not None and not key.exists():
+        raise UsageError(f"the answer key {key.name!r} does not exist")
+    key_files = set(collect_files([key])) if key is not None else set()
     inputs = [*collect_files(data), codebook, *([decisions] if decisions else [])]
+    inputs += [*key_files, *(f for _, p in round_specs for f in collect_files([p]))]
     refuse_overwriting_inputs(targets, inputs)
     when = report_time(date)
 
@@ -157,6 +225,9 @@ def report_command(
         decisions_source=decisions_source,
         codebook_source=SourceFile(str(codebook), sha256_file(codebook), codebook.stat().st_size),
         generated=when,
+    )
+    content = _with_protocol(
+        content, codings, codebook, key_files, round_specs, replicates, seed, interval_method
     )
     written = write_report(content, out, forms) if out is not None else []
     reports = [p for p in written if p in targets]

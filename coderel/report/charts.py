@@ -256,4 +256,6 @@ def report_charts(content: ReportContent) -> dict[str, str]:
             out[panel.heatmap_id] = confusion_chart(panel)
     if content.adjudication is not None and content.adjudication.by_variable:
         out["chart-adjudication"] = adjudication_chart(content.adjudication)
+    if content.protocol is not None:
+        out.update(content.protocol.charts)
     return out

@@ -13,6 +13,7 @@ import re
 from collections.abc import Iterable, Mapping
 from html import escape
 
+from coderel.report.blocks import Block
 from coderel.report.charts import report_charts
 from coderel.report.fmt import pct
 from coderel.report.methods_text import fmt_coef
@@ -179,6 +180,24 @@ def _table(
         body.append(f"<tr>{cells}</tr>")
     attr = f' class="{cls}"' if cls else ""
     return f"<table{attr}><thead><tr>{head}</tr></thead><tbody>{''.join(body)}</tbody></table>"
+
+
+def _blocks(blocks: Iterable[Block], charts: Mapping[str, str]) -> str:
+    """Generic blocks (:mod:`coderel.report.blocks`): heading, chart, table, note."""
+    out = []
+    for b in blocks:
+        out.append(f'<h3 id="{_e(b.block_id)}">{_e(b.title)}</h3>' if b.block_id else "")
+        if b.chart and b.chart in charts:
+            out.append(
+                f"<figure>{_inline(charts[b.chart])}<figcaption>{_e(b.caption)}</figcaption>"
+                "</figure>"
+            )
+        if b.headers:
+            table = _table(b.headers, b.rows, numeric=b.numeric, row_headers=True)
+            out.append(f'<div class="scroll">{table}</div>')
+        if b.note:
+            out.append(f'<p class="about">{_e(b.note)}</p>')
+    return "".join(out)
 
 
 def _section(section: Section, body: str) -> str:
@@ -451,7 +470,12 @@ def render_html(content: ReportContent, charts: Mapping[str, str] | None = None)
         "agreement": lambda: _agreement(content),
         "intervals": lambda: _intervals(content, charts),
         "categories": lambda: _categories(content, charts),
-        "coders": lambda: _coders(content),
+        "coders": lambda: (
+            _coders(content)
+            + (_blocks(content.protocol.coders, charts) if content.protocol else "")
+        ),
+        "training": lambda: _blocks(content.protocol.training, charts),
+        "rounds": lambda: _blocks(content.protocol.rounds, charts),
         "adjudication": lambda: _adjudication(content, charts),
         "methods": lambda: _methods(content),
         "ethics": lambda: _ethics(content),

@@ -10,6 +10,7 @@ from __future__ import annotations
 from collections.abc import Iterable, Mapping, Sequence
 from urllib.parse import quote
 
+from coderel.report.blocks import Block
 from coderel.report.fmt import pct
 from coderel.report.methods_text import fmt_coef
 from coderel.report.model import COEFFICIENTS, STATUSES, ReportContent
@@ -141,7 +142,33 @@ def _categories(content: ReportContent, charts: Mapping[str, str]) -> list[str]:
     return out
 
 
-def _coders(content: ReportContent, _charts: Mapping[str, str]) -> list[str]:
+def _blocks(blocks: Iterable[Block], charts: Mapping[str, str]) -> list[str]:
+    """Generic blocks (:mod:`coderel.report.blocks`): heading, chart link, table, note."""
+    out: list[str] = []
+    for b in blocks:
+        out.append(f"### {md(b.title)}")
+        if b.chart and b.chart in charts:
+            out.append(f"![{md(b.caption)}]({_link(charts, b.chart)})")
+        if b.headers:
+            out.append(md_table(b.headers, b.rows, right=b.numeric))
+        if b.note:
+            out.append(md(b.note))
+    return out
+
+
+def _protocol(name: str):
+    def part(content: ReportContent, charts: Mapping[str, str]) -> list[str]:
+        parts = content.protocol
+        return _blocks(getattr(parts, name), charts) if parts is not None else []
+
+    return part
+
+
+def _coders(content: ReportContent, charts: Mapping[str, str]) -> list[str]:
+    return _pairs(content, charts) + _protocol("coders")(content, charts)
+
+
+def _pairs(content: ReportContent, _charts: Mapping[str, str]) -> list[str]:
     c = content.coders
     out = ["### Pairs of coders"]
     if len(c.coders) < 2:
@@ -219,6 +246,8 @@ _PARTS = {
     "intervals": _intervals,
     "categories": _categories,
     "coders": _coders,
+    "training": _protocol("training"),
+    "rounds": _protocol("rounds"),
     "adjudication": _adjudication,
     "methods": _methods,
     "ethics": _ethics,

@@ -14,6 +14,8 @@ from typing import Any
 
 import pandas as pd
 
+from coderel.report.blocks import ProtocolParts
+
 #: Coefficient keys of the engine in the order the report shows them, with display names.
 COEFFICIENTS: dict[str, str] = {
     "krippendorff_alpha": "Krippendorff's α",
@@ -244,6 +246,8 @@ class ReportContent:
     methods: MethodsText
     reproducibility: Reproducibility
     extra: Mapping[str, Any] = field(default_factory=dict)
+    #: Coder diagnostics, training against the key, rounds (:mod:`coderel.report.protocol`).
+    protocol: ProtocolParts | None = None
 
     def to_dict(self) -> dict[str, Any]:
         """JSON-ready content (summary, table, categories, coders, adjudication, methods, ...)."""
@@ -266,6 +270,8 @@ class ReportContent:
             "methods": asdict(self.methods),
             "reproducibility": asdict(self.reproducibility),
         }
+        if self.protocol is not None:
+            out.update(self.protocol.data)
         if self.adjudication is not None:
             out["adjudication"] = {
                 **asdict(self.adjudication),

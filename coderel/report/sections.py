@@ -63,6 +63,21 @@ SECTIONS: tuple[Section, ...] = (
         ("coders",),
     ),
     Section(
+        "training",
+        "Training against the key",
+        "Each trainee's agreement with the answer key per variable, and pass or fail against "
+        "the training threshold (a convention). Agreement with a key is not proof that the key "
+        "is right.",
+        ("training",),
+    ),
+    Section(
+        "rounds",
+        "Reliability across rounds",
+        "Alpha per variable in each round (pilot, training, production) with its interval and "
+        "the change between rounds, and each coder's agreement with the others by round.",
+        ("rounds", "rounds_coders"),
+    ),
+    Section(
         "adjudication",
         "Adjudication progress",
         "How each cell of the final dataset was settled, by variable.",
@@ -99,8 +114,15 @@ ETHICS_NOTES: tuple[str, ...] = (
 
 
 def sections(content: ReportContent) -> tuple[Section, ...]:
-    """The sections this report has (adjudication only with a decisions file)."""
-    return tuple(s for s in SECTIONS if s.key != "adjudication" or content.adjudication is not None)
+    """The sections this report has (adjudication only with a decisions file; training and
+    rounds only with their results)."""
+    protocol = content.protocol
+    present = {
+        "adjudication": content.adjudication is not None,
+        "training": protocol is not None and bool(protocol.training),
+        "rounds": protocol is not None and bool(protocol.rounds),
+    }
+    return tuple(s for s in SECTIONS if present.get(s.key, True))
 
 
 def _s(n: int) -> str:
@@ -516,4 +538,11 @@ def section_frames(content: ReportContent) -> dict[str, pd.DataFrame]:
         "ethics": ethics_frame,
         "reproducibility": reproducibility_frame,
     }
-    return {sheet: builders[sheet](content) for s in sections(content) for sheet in s.sheets}
+    extra = dict(content.protocol.frames) if content.protocol is not None else {}
+    frames: dict[str, pd.DataFrame] = {}
+    for s in sections(content):
+        for sheet in s.sheets:
+            frames[sheet] = extra[sheet] if sheet in extra else builders[sheet](content)
+        if s.key == "coders":
+            frames.update({k: v for k, v in extra.items() if k.startswith("coders_")})
+    return frames
