@@ -30,7 +30,8 @@ column, text) and never appear in messages or logs.
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+import re
+from collections.abc import Iterable, Sequence
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -51,6 +52,25 @@ CODING_COLUMNS: tuple[str, ...] = (
     "cell",
 )
 TEXT_COLUMNS: tuple[str, ...] = ("unit", "coder", "column", "text")
+_DIGITS = re.compile(r"(\d+)")
+
+
+def natural_key(text: str) -> tuple[tuple[str | int, ...], str]:
+    """Sort key of a unit ID or coder name in natural order: ``u2`` before ``u10``.
+
+    Runs of digits compare as numbers, the rest without regard to case; the text itself breaks
+    ties (``u01`` and ``u1``), so the order is total and never depends on input order.
+
+    >>> sorted(["u10", "U2", "u1", "u01", "b"], key=natural_key)
+    ['b', 'u01', 'u1', 'U2', 'u10']
+    """
+    parts = _DIGITS.split(text)
+    return tuple(int(p) if i % 2 else p.casefold() for i, p in enumerate(parts)), text
+
+
+def natural_order(names: Iterable[Any]) -> list[str]:
+    """Distinct names as text, in :func:`natural_key` order."""
+    return sorted({str(n) for n in names}, key=natural_key)
 
 
 @dataclass(frozen=True, slots=True)
@@ -122,13 +142,18 @@ class Codings:
 
     @property
     def coders(self) -> list[str]:
-        """Coder names in order of first appearance."""
-        return [str(c) for c in pd.unique(self.frame["coder"])]
+        """Coder names in natural order (:func:`natural_key`), whatever the order of the input."""
+        return natural_order(pd.unique(self.frame["coder"]))
 
     @property
     def units(self) -> list[str]:
-        """Unit IDs in order of first appearance."""
-        return [str(u) for u in pd.unique(self.frame["unit"])]
+        """Unit IDs in natural order (:func:`natural_key`), whatever the order of files and rows.
+
+        This is the one unit index of the project: the rows of every agreement matrix and the
+        columns of the bootstrap's unit weights follow it, so intervals never depend on the order
+        in which units first appear.
+        """
+        return natural_order(pd.unique(self.frame["unit"]))
 
     def for_variable(self, name: str) -> pd.DataFrame:
         """Rows of one variable."""
