@@ -23,6 +23,10 @@ adjudication, merge, report) reads only this table. Columns of :attr:`Codings.fr
 ``file``, ``sheet``, ``cell`` (str or None)
     Where the value came from, e.g. ``coder_a.xlsx``, ``Sheet1``, ``C14``.
 
+A coder's second coding occasion (test-retest) is kept apart in :attr:`Codings.occasions`: the
+same columns plus ``occasion`` (its label) and ``first_occasion`` (the label of the first, ``""``
+when it had none); agreement between coders never sees it.
+
 A coder who skipped a unit has no rows for it; a unit row with a blank cell has a row whose
 ``value`` is ``None``. Narrative text columns are kept apart in :attr:`Codings.texts` (unit, coder,
 column, text) and never appear in messages or logs.
@@ -52,6 +56,7 @@ CODING_COLUMNS: tuple[str, ...] = (
     "cell",
 )
 TEXT_COLUMNS: tuple[str, ...] = ("unit", "coder", "column", "text")
+OCCASION_COLUMNS: tuple[str, ...] = (*CODING_COLUMNS, "occasion", "first_occasion")
 _DIGITS = re.compile(r"(\d+)")
 
 
@@ -91,6 +96,9 @@ class Codings:
     texts: pd.DataFrame = field(default_factory=lambda: pd.DataFrame(columns=list(TEXT_COLUMNS)))
     problems: Problems = field(default_factory=Problems)
     sources: tuple[SourceFile, ...] = ()
+    occasions: pd.DataFrame = field(
+        default_factory=lambda: pd.DataFrame(columns=list(OCCASION_COLUMNS))
+    )
 
     @classmethod
     def from_records(
@@ -101,6 +109,7 @@ class Codings:
         texts: pd.DataFrame | None = None,
         problems: Problems | None = None,
         sources: Sequence[SourceFile] = (),
+        occasions: pd.DataFrame | None = None,
     ) -> Codings:
         """Build from rows holding at least unit, coder, variable, value (already normalised).
 
@@ -138,6 +147,11 @@ class Codings:
             texts=texts if texts is not None else pd.DataFrame(columns=list(TEXT_COLUMNS)),
             problems=problems if problems is not None else Problems(),
             sources=tuple(sources),
+            occasions=(
+                occasions.reindex(columns=list(OCCASION_COLUMNS)).reset_index(drop=True)
+                if occasions is not None
+                else pd.DataFrame(columns=list(OCCASION_COLUMNS))
+            ),
         )
 
     @property

@@ -75,6 +75,7 @@ PROBLEM_CODES: dict[str, tuple[Severity, str]] = {
     "missing-coder": ("error", "a row of a table with a coder column has no coder name"),
     "duplicate-column": ("error", "two columns of one sheet share a header"),
     "unknown-variable": ("error", "a long table names a variable the codebook lacks"),
+    "too-many-occasions": ("error", "a coder has more than two coding occasions"),
     # coding protocol: answer key, rounds, codebook revisions
     "key-not-one-coder": ("error", "the answer key holds more or fewer than one coder"),
     "key-unit-not-coded": ("error", "a unit of the answer key was coded by no trainee"),

@@ -34,8 +34,11 @@ step "5. The adjudication list: one row per cell where the coders disagree"
 step "6. The reconciled dataset, with the demo's decisions (sample_decisions/)"
 "$CODEREL" merge --codebook "$CB" "$SHEETS" --decisions "$DECISIONS" --strict -o "$OUT/merged.xlsx"
 
-step "7. The reliability report"
-"$CODEREL" report --codebook "$CB" "$SHEETS" --decisions "$DECISIONS" -o "$OUT/report.html" --format html,md,xlsx
+step "7. Stability: coder_ana recoded 40 reports two weeks later (test-retest)"
+"$CODEREL" stability --codebook "$CB" "$SHEETS" --occasion coder_ana=demo/retest/coder_ana.csv --out "$OUT/stability.csv"
+
+step "8. The reliability report (with the Stability section)"
+"$CODEREL" report --codebook "$CB" "$SHEETS" --decisions "$DECISIONS" --occasion coder_ana=demo/retest/coder_ana.csv -o "$OUT/report.html" --format html,md,xlsx
 
 cat >&2 <<MSG
 
@@ -45,6 +48,7 @@ Demo finished. Outputs in $OUT/:
   agreement.csv             coefficients with intervals, one row per variable and coefficient
   adjudication.xlsx         one row per disagreement, for the adjudicator ("to decide" sheet)
   merged.xlsx               one row per unit: final value and status per variable (+ audit log)
+  stability.csv             each coder against their own recoding, per variable and coefficient
   report.html, report.md, report.xlsx   the reliability report
 MSG
 printf '%s\n' "$OUT/report.html"

@@ -734,6 +734,51 @@ def write_protocol_files(
     return {"corpus": CORPUS_REPORTS, "pilot": len(pilot)}
 
 
+# ---------------------------------------------------------------------------------------------
+# Stability: coder_ana recodes a subset two weeks later (test-retest)
+# ---------------------------------------------------------------------------------------------
+RETEST_CODER = "coder_ana"
+RETEST_UNITS = 40
+RETEST_FIRST = "2026-03-03"
+RETEST_SECOND = "2026-03-17"
+#: Chance that a recoded value is the coder's first value (else a fresh coding of the report).
+RETEST_KEEP = 0.5
+
+
+def write_retest(
+    out: Path, reports: list[Report], first: dict[str, dict[str, object]], seed: int
+) -> int:
+    """``retest/coder_ana.csv``: a long table (unit, coder, variable, value, occasion) holding
+    coder_ana's first coding of 40 reports (dated 2026-03-03) and her recoding of them two weeks
+    later (2026-03-17). Its own seeded generator leaves the other demo files unchanged."""
+    rng = np.random.default_rng([seed, 13])
+    by_id = {r.report_id: r for r in reports}
+    ids = sorted(rng.choice(sorted(first), size=RETEST_UNITS, replace=False).tolist())
+    buffer = io.StringIO()
+    writer = csv.writer(buffer, lineterminator="\n")
+    writer.writerow(["unit", "coder", "variable", "value", "occasion"])
+    rows: list[tuple[str, str, object, str]] = []
+    for unit in ids:
+        before = first[unit]
+        fresh = code_report(rng, by_id[unit], HABITS[RETEST_CODER])
+        after = {
+            name: before[name] if rng.random() < RETEST_KEEP else fresh[name]
+            for name in VARIABLES
+            if name not in ("actions", "spray_worked")
+        }
+        # spray_worked applies only with action 3: it is recoded together with actions.
+        source = before if rng.random() < RETEST_KEEP else fresh
+        after["actions"], after["spray_worked"] = source["actions"], source["spray_worked"]
+        for name in VARIABLES:
+            rows.append((unit, name, before[name], RETEST_FIRST))
+        for name in VARIABLES:
+            rows.append((unit, name, after[name], RETEST_SECOND))
+    for unit, name, value, when in rows:
+        writer.writerow([unit, RETEST_CODER, name, "" if value is None else value, when])
+    write_text(out / "retest" / f"{RETEST_CODER}.csv", buffer.getvalue())
+    return len(ids)
+
+
 def generate(out: Path, seed: int = SEED) -> dict[str, object]:
     """Write the demo files under ``out``; return a short summary (counts only)."""
     rng = np.random.default_rng(seed)
@@ -752,10 +797,12 @@ def generate(out: Path, seed: int = SEED) -> dict[str, object]:
     expected = write_messy_sheet(out, reports)
     write_expected(out, expected)
     write_protocol_files(out, reports, codings, seed)
+    recoded = write_retest(out, reports, codings[RETEST_CODER], seed)
     return {
         "reports": len(reports),
         "coded": {c: len(codings[c]) for c in CODERS},
         "messy_problems": len(expected),
+        "recoded": recoded,
     }
 
 

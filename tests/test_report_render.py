@@ -67,8 +67,13 @@ def demo_html(demo):
 
 def test_html_has_every_section_and_every_variable(demo, demo_html):
     _, content = demo
-    # Every section but those of the protocol (training, rounds: only with --key, --round).
-    assert {s.key for s in SECTIONS} - {s.key for s in sections(content)} == {"training", "rounds"}
+    # Every section but those of the protocol (training, rounds: only with --key, --round) and
+    # Stability (only with a second occasion; tests/test_numeric_cli.py has one).
+    assert {s.key for s in SECTIONS} - {s.key for s in sections(content)} == {
+        "training",
+        "rounds",
+        "stability",
+    }
     for section in sections(content):
         assert f'<section id="{section.key}"' in demo_html, section.key
     assert content.adjudication is not None  # the demo's decisions file gives the progress part

@@ -13,8 +13,9 @@ The package, by what its modules hold: :mod:`~coderel.agree.conventions` (coeffi
 thresholds, slugs), :mod:`~coderel.agree.results` (result dataclasses),
 :mod:`~coderel.agree.matrices` (units x coders matrices from the long table),
 :mod:`~coderel.agree.pairwise` (pairs, per-category agreement, standard errors),
-:mod:`~coderel.agree.notes` (verdicts and notes), :mod:`~coderel.agree.variable_row` (one row)
-and :mod:`~coderel.agree.driver` (:func:`agreement`).
+:mod:`~coderel.agree.notes` (verdicts and notes), :mod:`~coderel.agree.numeric` (ICC table,
+Lin's coefficient and limits of agreement of numeric variables),
+:mod:`~coderel.agree.variable_row` (one row) and :mod:`~coderel.agree.driver` (:func:`agreement`).
 """
 
 from coderel.agree.conventions import (

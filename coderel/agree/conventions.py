@@ -5,6 +5,8 @@ from __future__ import annotations
 
 import math
 
+from coderel.stats.numeric_plan import NUMERIC_COEFFICIENTS
+
 COEFFICIENTS: tuple[str, ...] = (
     "percent_agreement",
     "cohen_kappa",
@@ -18,6 +20,7 @@ COEFFICIENTS: tuple[str, ...] = (
     "gwet_ac1",
     "gwet_ac2",
     "pabak",
+    *NUMERIC_COEFFICIENTS,
 )
 #: Fewer pairable units than this and no interval is given (common practice, no source).
 MIN_UNITS_FOR_INTERVAL = 10

@@ -8,7 +8,9 @@ from typing import Any
 
 import numpy as np
 
+from coderel.agree.conventions import MIN_UNITS_FOR_INTERVAL, THIN_DATA
 from coderel.agree.matrices import build_targets
+from coderel.agree.numeric import attach as attach_numeric
 from coderel.agree.results import AgreementResult
 from coderel.agree.variable_row import variable_row
 from coderel.codings import Codings
@@ -43,6 +45,7 @@ def agreement(
     seed: int = 20261202,
     ci_level: float = 0.95,
     interval_method: str = "bca",
+    icc_ordinal: bool = False,
     progress: Callable[[int, int], None] | None = None,
 ) -> AgreementResult:
     """Every coefficient of every variable, with bootstrap intervals from one weight matrix.
@@ -55,6 +58,9 @@ def agreement(
         Bootstrap replicates and the seed of the one matrix of unit weights.
     ci_level, interval_method
         Interval level and ``"bca"`` (Efron 1987) or ``"percentile"``.
+    icc_ordinal
+        Also give ordinal variables the intraclass correlations, Lin's coefficient and limits of
+        agreement, on their category positions (interval and ratio variables always get them).
     progress
         Called as ``progress(done, total)`` while the work advances.
 
@@ -80,7 +86,7 @@ def agreement(
     units = codings.units
     # Each row over the coders who coded it (a coder of other variables is not one of them).
     targets = [t.own() for t in build_targets(codings, coders, units)]
-    plans = [build_plan(t.x, t.scale) for t in targets]
+    plans = [build_plan(t.x, t.scale, icc_ordinal=icc_ordinal) for t in targets]
     total = 2 * len(plans)
 
     def step(done: int, _total: int) -> None:
@@ -99,7 +105,19 @@ def agreement(
         ) from None
     rows = []
     for t, evaluated in zip(targets, evaluated_all, strict=True):
-        rows.append(variable_row(t, evaluated, ci_level, interval_method))
+        row = variable_row(t, evaluated, ci_level, interval_method)
+        if t.kind == "variable":
+            row = attach_numeric(
+                row,
+                t.x,
+                t.scale,
+                list(t.coders),
+                ci_level,
+                icc_ordinal=icc_ordinal,
+                min_units=MIN_UNITS_FOR_INTERVAL,
+                thin_reason=THIN_DATA,
+            )
+        rows.append(row)
         step(len(plans) + len(rows), total)
     return AgreementResult(
         tuple(rows),

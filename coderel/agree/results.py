@@ -90,6 +90,9 @@ class VariableAgreement:
     confusion: dict[tuple[str, str], np.ndarray] = field(default_factory=dict)
     category_agreement: dict[Any, dict[str, float | None]] = field(default_factory=dict)
     pairs: tuple[PairAgreement, ...] = ()
+    #: ICC table, Lin's coefficient and limits of agreement per pair (numeric variables;
+    #: :class:`coderel.agree.numeric.NumericDetail`).
+    numeric: Any = None
 
     def to_dict(self, *, pairs: bool = False) -> dict[str, Any]:
         out: dict[str, Any] = {
@@ -114,6 +117,8 @@ class VariableAgreement:
                 {"code": code, **stats} for code, stats in self.category_agreement.items()
             ],
         )
+        if self.numeric is not None:
+            out.update(self.numeric.to_dict())
         if pairs:
             out["pairs"] = [p.to_dict() for p in self.pairs]
         return out

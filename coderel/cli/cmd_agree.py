@@ -28,6 +28,8 @@ from coderel.cli.common import (
     read_project,
     say,
 )
+from coderel.cli.numeric_tables import numeric_tables
+from coderel.cli.occasions import IccOrdinalOption
 from coderel.errors import ExitCode
 from coderel.io.tables import table_format, write_table
 
@@ -99,6 +101,7 @@ def agree_command(
             "of coders, each coder's share of each category.",
         ),
     ] = False,
+    icc_ordinal: IccOrdinalOption = False,
     json_out: JsonOption = False,
     out: Annotated[
         Path | None, typer.Option("--out", "-o", help="Write the table (.csv/.xlsx).")
@@ -115,6 +118,7 @@ def agree_command(
             replicates=replicates,
             seed=seed,
             interval_method=interval_method,
+            icc_ordinal=icc_ordinal,
             progress=progress,
         )
     diagnostics = None
@@ -167,6 +171,8 @@ def agree_command(
     for v in result.variables:
         for note in v.notes:
             console.print(escape(f"{v.variable}: {note}"))
+    for t in numeric_tables(result):
+        console.print(t)
     if pairs:
         for t in _pairs_tables(result):
             console.print(t)

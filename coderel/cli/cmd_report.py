@@ -27,6 +27,7 @@ from coderel.cli.common import (
     read_project,
     say,
 )
+from coderel.cli.occasions import IccOrdinalOption, OccasionOption, attach_occasions
 from coderel.errors import ExitCode, UsageError
 
 DateOption = Annotated[
@@ -160,6 +161,8 @@ def report_command(
             help="NAME=PATH of a round (repeat in time order): adds 'Reliability across rounds'.",
         ),
     ] = None,
+    occasion: OccasionOption = None,
+    icc_ordinal: IccOrdinalOption = False,
     json_out: JsonOption = False,
 ) -> ExitCode:
     """The reliability report: summary, agreement table, charts, coders, methods paragraph."""
@@ -189,6 +192,7 @@ def report_command(
     when = report_time(date)
 
     codings = read_project(codebook, data, errors_note="were left out")
+    codings = attach_occasions(codings, occasion, codebook)
     cb = codings.codebook
     with delayed_progress("agreement per variable") as step:
         result = agreement(
@@ -196,8 +200,22 @@ def report_command(
             replicates=replicates,
             seed=seed,
             interval_method=interval_method,
+            icc_ordinal=icc_ordinal,
             progress=step,
         )
+    stable = None
+    if not codings.occasions.empty:
+        from coderel.stability import stability
+
+        with delayed_progress("stability") as step:
+            stable = stability(
+                codings,
+                replicates=replicates,
+                seed=seed,
+                interval_method=interval_method,
+                icc_ordinal=icc_ordinal,
+                progress=step,
+            )
     merged = None
     decisions_source = None
     if decisions is not None:
@@ -217,6 +235,9 @@ def report_command(
     options = [f"--replicates {replicates}", f"--seed {seed}", f"--interval {interval_method}"]
     if decisions is not None:
         options.append(f"--rule {rule}")
+    options += [f"--occasion {spec}" for spec in occasion or []]
+    if icc_ordinal:
+        options.append("--icc-ordinal")
     content = build_report(
         codings,
         result,
@@ -225,6 +246,7 @@ def report_command(
         decisions_source=decisions_source,
         codebook_source=SourceFile(str(codebook), sha256_file(codebook), codebook.stat().st_size),
         generated=when,
+        stability=stable,
     )
     content = _with_protocol(
         content, codings, codebook, key_files, round_specs, replicates, seed, interval_method

@@ -6,7 +6,8 @@ name order, skipping hidden files and ``~$`` lock files):
 * **wide sheets**: one row per unit, one column per variable, plus the codebook's unit column and
   its text columns, as ``.xlsx``, ``.csv`` or ``.parquet``. The coder is the file's stem; or, in a
   workbook with several non-empty sheets, each sheet's name; or a ``coder`` column;
-* **long tables** whose header is exactly ``unit, coder, variable, value``.
+* **long tables** whose header is exactly ``unit, coder, variable, value``, optionally with a fifth
+  column ``occasion`` for a coder's second coding (test-retest; :mod:`coderel.io.occasions`).
 
 Every cell goes through :func:`coderel.normalise.normalise_cell`; every problem is collected with
 its file, sheet, cell, unit, coder and variable, never raised, and an invalid cell gets the value
@@ -46,6 +47,7 @@ from coderel.io.archive import (
 )
 from coderel.io.atomic import sha256_file
 from coderel.io.coverage import did_you_mean, drop_uncoded, warn_alike_coders
+from coderel.io.occasions import OCCASION_COLUMN, split_occasions, tag_occasions
 from coderel.io.safe_text import DANGEROUS_PREFIXES
 from coderel.io.text_tables import RawRow, RawTable, read_csv, read_parquet
 from coderel.normalise import (
@@ -261,6 +263,9 @@ class _Reader:
             folded.pop()
         if tuple(folded) == LONG_HEADER:
             self.read_long(table)
+            return
+        if tuple(folded) == (*LONG_HEADER, OCCASION_COLUMN):
+            self.read_long(tag_occasions(table))
             return
         names = {v.casefold() for v in self.codebook.names}
         looks_long = {"variable", "value"} <= set(folded) and not {"variable", "value"} & names
@@ -989,9 +994,11 @@ def read_codings(
     frame = frame.astype(object)
     frame = frame.where(frame.notna(), None) if len(frame) else frame
     frame = drop_uncoded(frame, reader.problems)  # one rule for every path: see io/coverage.py
+    occasions = None
     if len(frame):
-        warn_alike_coders(frame, reader.problems)
         frame = reader.check_skip_logic(frame)
+        frame, occasions = split_occasions(frame, reader.problems)
+        warn_alike_coders(frame, reader.problems)
         reader.check_blank_variables(frame)
         reader.check_partial_units(frame)
     else:
@@ -1001,6 +1008,7 @@ def read_codings(
         codebook,
         frame.drop(columns=["_line", "_invalid"]),
         texts=texts,
+        occasions=occasions.drop(columns=["_line", "_invalid"]) if occasions is not None else None,
         problems=reader.problems,
         sources=sources,
     )

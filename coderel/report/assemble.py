@@ -38,6 +38,7 @@ from coderel.report.model import (
     VariableRow,
     number_or_none,
 )
+from coderel.report.numeric import methods_sentences, numeric_panels, stability_panel
 
 
 def _coefficients(va: Any) -> tuple[Coefficient, ...]:
@@ -397,6 +398,7 @@ def build_report(
     decisions_source: Any | None = None,
     codebook_source: Any | None = None,
     generated: dt.datetime | None = None,
+    stability: Any | None = None,
 ) -> ReportContent:
     """Assemble the report's content from an agreement result (and a merge result).
 
@@ -417,6 +419,8 @@ def build_report(
         The codebook file as a :class:`coderel.codings.SourceFile`.
     generated
         Time stamp of the report (UTC); now by default.
+    stability
+        A :class:`coderel.stability.StabilityResult`: adds the Stability section.
 
     Returns
     -------
@@ -454,7 +458,10 @@ def build_report(
         decisions_file=_source_row(decisions_source) if decisions_source is not None else None,
         codebook_file=_source_row(codebook_source) if codebook_source is not None else None,
     )
-    methods = methods_text(summary=summary, table=table, repro=repro)
+    numeric = numeric_panels(result)
+    stable = stability_panel(stability)
+    extra = methods_sentences(numeric, stable, round(repro.ci_level * 100))
+    methods = methods_text(summary=summary, table=table, repro=repro, extra=extra)
     return ReportContent(
         summary=summary,
         table=table,
@@ -463,4 +470,6 @@ def build_report(
         adjudication=adjudication,
         methods=methods,
         reproducibility=repro,
+        numeric=numeric,
+        stability=stable,
     )

@@ -27,6 +27,7 @@ from coderel.report.model import (
     VariableRow,
     _slug,
 )
+from coderel.report.numeric import LimitsRow
 
 #: A calm palette of our own.
 INK = "#26313b"
@@ -245,6 +246,68 @@ def adjudication_chart(adjudication: Adjudication) -> str:
         return _to_svg(fig, "chart-adjudication")
 
 
+LIMIT_COLOUR = "#a4473b"
+BIAS_COLOUR = "#2e6f62"
+
+
+def bland_altman_chart(row: LimitsRow) -> str:
+    """One Bland-Altman plot; the SVG's id is ``row.chart_id``.
+
+    Difference (coder a minus coder b) against the mean of the two values, one point per unit,
+    with the mean difference and the limits of agreement as lines and their confidence intervals
+    as shaded bands (Bland & Altman 1986, Lancet 327, 307-310, Figure 2); with a proportional
+    bias, the regression line of differences on means is drawn too (Bland & Altman 1999).
+    """
+    fig = _figure(5.6, 3.4)
+    ax = fig.add_subplot()
+    means = np.asarray(row.means, dtype=float)
+    diffs = np.asarray(row.differences, dtype=float)
+    ax.scatter(
+        means, diffs, s=12, color=INK, alpha=0.55, linewidths=0, gid=f"{row.chart_id}-points"
+    )
+    lines = (
+        ("mean difference", row.bias, row.bias_ci, BIAS_COLOUR, "-"),
+        ("lower limit", row.lower, row.lower_ci, LIMIT_COLOUR, "--"),
+        ("upper limit", row.upper, row.upper_ci, LIMIT_COLOUR, "--"),
+    )
+    for (name, value, ci, colour, style), part in zip(
+        lines, ("bias", "lower", "upper"), strict=True
+    ):
+        if value is None:
+            continue
+        ax.axhline(
+            value, color=colour, linestyle=style, linewidth=1.1, gid=f"{row.chart_id}-{part}"
+        )
+        if ci is not None:
+            ax.axhspan(ci[0], ci[1], color=colour, alpha=0.10, linewidth=0)
+        ax.text(
+            1.01,
+            value,
+            f"{name} {value:.1f}".replace("-", "\u2212"),
+            transform=ax.get_yaxis_transform(),
+            va="center",
+            fontsize=7.5,
+            color=colour,
+        )
+    ax.axhline(0, color=GRID, linewidth=0.8)
+    ax.set_xlabel(_text(f"mean of {row.coder_a} and {row.coder_b} ({row.variable})", 70))
+    ax.set_ylabel(_text(f"{row.coder_a} − {row.coder_b}", 40))
+    if row.proportional and row.slope is not None and len(means) > 1:
+        xs = np.array([means.min(), means.max()])
+        intercept = float(np.mean(diffs) - row.slope * np.mean(means))
+        ax.plot(xs, intercept + row.slope * xs, color=MUTED, linewidth=0.9, linestyle=":")
+        ax.set_title(
+            "differences change with the size of the values (proportional bias)",
+            fontsize=8,
+            color=MUTED,
+        )
+    for side in ("top", "right"):
+        ax.spines[side].set_visible(False)
+    ax.grid(color=GRID, linewidth=0.5)
+    ax.set_axisbelow(True)
+    return _to_svg(fig, row.chart_id)
+
+
 def report_charts(content: ReportContent) -> dict[str, str]:
     """Every chart of a report as SVG text, by chart id (drawn once, used by HTML and Markdown)."""
     main = [r for r in content.table if r.kind == "variable"] or list(content.table)
@@ -258,4 +321,9 @@ def report_charts(content: ReportContent) -> dict[str, str]:
         out["chart-adjudication"] = adjudication_chart(content.adjudication)
     if content.protocol is not None:
         out.update(content.protocol.charts)
+    if content.numeric:
+        for panel in content.numeric:
+            for pair in panel.pairs:
+                if pair.units >= 2:
+                    out[pair.chart_id] = bland_altman_chart(pair)
     return out

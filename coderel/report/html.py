@@ -18,6 +18,16 @@ from coderel.report.charts import report_charts
 from coderel.report.fmt import pct
 from coderel.report.methods_text import fmt_coef
 from coderel.report.model import COEFFICIENTS, STATUSES, ReportContent
+from coderel.report.numeric import (
+    ICC_HEADERS,
+    LIMITS_HEADERS,
+    STABILITY_HEADERS,
+    icc_caption,
+    icc_display,
+    limits_display,
+    recoding_lines,
+    stability_display,
+)
 from coderel.report.sections import (
     CATEGORY_TITLES,
     ETHICS_NOTES,
@@ -452,6 +462,27 @@ def _reproducibility(content: ReportContent) -> str:
     return f'<table class="kv"><tbody>{"".join(rows)}</tbody></table>'
 
 
+def _numeric(content: ReportContent, charts: Mapping[str, str]) -> str:
+    """Per numeric variable: the ICC table, Lin's coefficient and limits per pair, the plots."""
+    parts = []
+    for panel in content.numeric:
+        parts.append(f"<h3>{_e(panel.variable)}</h3><p>{_e(icc_caption(panel))}</p>")
+        parts.append(_table(ICC_HEADERS, icc_display(panel), numeric=(3, 4, 5, 6, 7)))
+        if panel.pairs:
+            parts.append(_table(LIMITS_HEADERS, limits_display(panel), numeric=(1, 2, 3, 4, 5, 6)))
+        for pair in panel.pairs:
+            svg = charts.get(pair.chart_id)
+            if svg:
+                parts.append(f'<figure class="chart">{_inline(svg)}</figure>')
+    return "".join(parts)
+
+
+def _stability(content: ReportContent) -> str:
+    """Units recoded and time between occasions per coder, then agreement per variable."""
+    lines = "".join(f"<p>{_e(x)}</p>" for x in recoding_lines(content.stability))
+    return lines + _table(STABILITY_HEADERS, stability_display(content.stability), numeric=(3,))
+
+
 def render_html(content: ReportContent, charts: Mapping[str, str] | None = None) -> str:
     """The whole report as one HTML document (text).
 
@@ -480,6 +511,8 @@ def render_html(content: ReportContent, charts: Mapping[str, str] | None = None)
         "methods": lambda: _methods(content),
         "ethics": lambda: _ethics(content),
         "reproducibility": lambda: _reproducibility(content),
+        "numeric": lambda: _numeric(content, charts),
+        "stability": lambda: _stability(content),
     }
     present = sections(content)
     nav = "".join(f'<li><a href="#{x.key}">{_e(x.title)}</a></li>' for x in present)

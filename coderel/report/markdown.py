@@ -14,6 +14,16 @@ from coderel.report.blocks import Block
 from coderel.report.fmt import pct
 from coderel.report.methods_text import fmt_coef
 from coderel.report.model import COEFFICIENTS, STATUSES, ReportContent
+from coderel.report.numeric import (
+    ICC_HEADERS,
+    LIMITS_HEADERS,
+    STABILITY_HEADERS,
+    icc_caption,
+    icc_display,
+    limits_display,
+    recoding_lines,
+    stability_display,
+)
 from coderel.report.sections import (
     CATEGORY_TITLES,
     ETHICS_NOTES,
@@ -240,6 +250,29 @@ def _reproducibility(content: ReportContent, _charts: Mapping[str, str]) -> list
     return [md_table(["Item", "Value", "SHA-256"], reproducibility_rows(content))]
 
 
+def _numeric(content: ReportContent, charts: Mapping[str, str]) -> list[str]:
+    out = []
+    for panel in content.numeric:
+        out += [f"### {md(panel.variable)}", md(icc_caption(panel))]
+        out.append(md_table(ICC_HEADERS, icc_display(panel)))
+        if panel.pairs:
+            out.append(md_table(LIMITS_HEADERS, limits_display(panel)))
+        for pair in panel.pairs:
+            if pair.chart_id in charts:
+                out.append(
+                    f"![Bland-Altman plot, {md(pair.coder_a)} − {md(pair.coder_b)}]"
+                    f"({_link(charts, pair.chart_id)})"
+                )
+    return out
+
+
+def _stability(content: ReportContent, _charts: Mapping[str, str]) -> list[str]:
+    return [
+        *(md(x) for x in recoding_lines(content.stability)),
+        md_table(STABILITY_HEADERS, stability_display(content.stability)),
+    ]
+
+
 _PARTS = {
     "summary": _summary,
     "agreement": _agreement,
@@ -252,6 +285,8 @@ _PARTS = {
     "methods": _methods,
     "ethics": _ethics,
     "reproducibility": _reproducibility,
+    "numeric": _numeric,
+    "stability": _stability,
 }
 _FOLDER_KEY = "__folder__"
 

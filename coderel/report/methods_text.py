@@ -70,6 +70,26 @@ REFERENCES: dict[str, str] = {
     "gwet2014": (
         "Gwet, K. L. (2014). Handbook of inter-rater reliability (4th ed.). Advanced Analytics."
     ),
+    "shrout1979": (
+        "Shrout, P. E., & Fleiss, J. L. (1979). Intraclass correlations: Uses in assessing rater "
+        "reliability. Psychological Bulletin, 86(2), 420-428."
+    ),
+    "mcgraw1996": (
+        "McGraw, K. O., & Wong, S. P. (1996). Forming inferences about some intraclass "
+        "correlation coefficients. Psychological Methods, 1(1), 30-46."
+    ),
+    "lin1989": (
+        "Lin, L. I.-K. (1989). A concordance correlation coefficient to evaluate "
+        "reproducibility. Biometrics, 45(1), 255-268."
+    ),
+    "blandaltman1986": (
+        "Bland, J. M., & Altman, D. G. (1986). Statistical methods for assessing agreement "
+        "between two methods of clinical measurement. The Lancet, 327(8476), 307-310."
+    ),
+    "blandaltman1999": (
+        "Bland, J. M., & Altman, D. G. (1999). Measuring agreement in method comparison "
+        "studies. Statistical Methods in Medical Research, 8(2), 135-160."
+    ),
     "byrt1993": (
         "Byrt, T., Bishop, J., & Carlin, J. B. (1993). Bias, prevalence and kappa. Journal of "
         "Clinical Epidemiology, 46(5), 423-429."
@@ -187,9 +207,17 @@ def _join(items: Sequence[str]) -> str:
 
 
 def methods_text(
-    *, summary: Summary, table: Sequence[VariableRow], repro: Reproducibility
+    *,
+    summary: Summary,
+    table: Sequence[VariableRow],
+    repro: Reproducibility,
+    extra: tuple[Sequence[str], Sequence[str]] = ((), ()),
 ) -> MethodsText:
-    """Write the methods paragraph from the report's summary, table and reproducibility block."""
+    """Write the methods paragraph from the report's summary, table and reproducibility block.
+
+    ``extra`` holds further sentences (numeric variables, stability) and their reference keys;
+    they come before the closing sentence on validity.
+    """
     level = round(repro.ci_level * 100)
     rows = [r for r in table if r.kind == "variable"]
     refs = ["krippendorff2004", "krippendorff2011"]
@@ -331,6 +359,8 @@ def methods_text(
             groups.setdefault(reason_text(reason), []).append(r.variable)
         parts = [f"{_join(names)}: {why}" for why, names in groups.items()]
         s.append("Alpha was undefined for " + "; and for ".join(parts) + ".")
+    s.extend(extra[0])
+    refs.extend(k for k in extra[1] if k not in refs)
     s.append(
         "Agreement between coders shows that the codebook was applied consistently; it does not "
         "show that the codes are valid measures of what they are meant to capture."

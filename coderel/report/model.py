@@ -30,6 +30,13 @@ COEFFICIENTS: dict[str, str] = {
     "gwet_ac1": "Gwet's AC1",
     "gwet_ac2": "Gwet's AC2",
     "pabak": "PABAK",
+    "icc_1_1": "ICC(1,1) one-way",
+    "icc_2_1": "ICC(2,1) absolute agreement",
+    "icc_3_1": "ICC(3,1) consistency",
+    "icc_1_k": "ICC(1,k) one-way, mean",
+    "icc_2_k": "ICC(2,k) absolute agreement, mean",
+    "icc_3_k": "ICC(3,k) consistency, mean",
+    "ccc": "Lin's concordance ρc",
 }
 VERDICTS: tuple[str, ...] = ("reliable", "tentative", "unreliable", "too few units", "undefined")
 STATUSES: tuple[str, ...] = (
@@ -248,6 +255,10 @@ class ReportContent:
     extra: Mapping[str, Any] = field(default_factory=dict)
     #: Coder diagnostics, training against the key, rounds (:mod:`coderel.report.protocol`).
     protocol: ProtocolParts | None = None
+    #: :class:`coderel.report.numeric.NumericPanel` per numeric variable (ICC, limits).
+    numeric: tuple[Any, ...] = ()
+    #: :class:`coderel.report.numeric.StabilityPanel` when a second occasion was given.
+    stability: Any = None
 
     def to_dict(self) -> dict[str, Any]:
         """JSON-ready content (summary, table, categories, coders, adjudication, methods, ...)."""
@@ -269,6 +280,8 @@ class ReportContent:
             "adjudication": None,
             "methods": asdict(self.methods),
             "reproducibility": asdict(self.reproducibility),
+            "numeric": [asdict(p) for p in self.numeric],
+            "stability": asdict(self.stability) if self.stability is not None else None,
         }
         if self.protocol is not None:
             out.update(self.protocol.data)

@@ -14,6 +14,7 @@ import pandas as pd
 from coderel.report.fmt import coef_interval, coef_value, pct, plain
 from coderel.report.methods_text import common_thresholds, fmt_coef, reason_text
 from coderel.report.model import COEFFICIENTS, STATUSES, ReportContent, VariableRow
+from coderel.report.numeric import icc_frame, limits_frame, stability_frame
 
 
 @dataclass(frozen=True, slots=True)
@@ -55,6 +56,14 @@ SECTIONS: tuple[Section, ...] = (
         ("categories", "confusion"),
     ),
     Section(
+        "numeric",
+        "Numeric variables",
+        "Intraclass correlations (Shrout & Fleiss, 1979) with F-test and bootstrap intervals, "
+        "Lin's concordance coefficient and Bland-Altman limits of agreement per pair of coders, "
+        "with a plot of differences against means.",
+        ("icc", "limits"),
+    ),
+    Section(
         "coders",
         "Coders",
         "Agreement of each pair of coders over all variables; with decisions, each coder's "
@@ -76,6 +85,14 @@ SECTIONS: tuple[Section, ...] = (
         "Alpha per variable in each round (pilot, training, production) with its interval and "
         "the change between rounds, and each coder's agreement with the others by round.",
         ("rounds", "rounds_coders"),
+    ),
+    Section(
+        "stability",
+        "Stability",
+        "Each coder against their own second coding of the same units (test-retest, "
+        "intra-coder reliability; Krippendorff, 2004): consistency over time, not agreement "
+        "between coders.",
+        ("stability",),
     ),
     Section(
         "adjudication",
@@ -115,12 +132,14 @@ ETHICS_NOTES: tuple[str, ...] = (
 
 def sections(content: ReportContent) -> tuple[Section, ...]:
     """The sections this report has (adjudication only with a decisions file; training and
-    rounds only with their results)."""
+    rounds only with their results; numeric variables and stability only when there are any)."""
     protocol = content.protocol
     present = {
         "adjudication": content.adjudication is not None,
         "training": protocol is not None and bool(protocol.training),
         "rounds": protocol is not None and bool(protocol.rounds),
+        "numeric": bool(content.numeric),
+        "stability": content.stability is not None,
     }
     return tuple(s for s in SECTIONS if present.get(s.key, True))
 
@@ -537,6 +556,9 @@ def section_frames(content: ReportContent) -> dict[str, pd.DataFrame]:
         "methods": methods_frame,
         "ethics": ethics_frame,
         "reproducibility": reproducibility_frame,
+        "icc": lambda c: icc_frame(c.numeric),
+        "limits": lambda c: limits_frame(c.numeric),
+        "stability": lambda c: stability_frame(c.stability),
     }
     extra = dict(content.protocol.frames) if content.protocol is not None else {}
     frames: dict[str, pd.DataFrame] = {}

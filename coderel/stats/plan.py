@@ -39,6 +39,7 @@ from coderel.stats.counts import (
     unit_disagreement,
     value_counts,
 )
+from coderel.stats.numeric_plan import add_numeric, numeric_values
 
 Formula = Callable[[np.ndarray], np.ndarray]
 ScaleKind = Literal["categorical", "numeric", "set"]
@@ -212,14 +213,20 @@ def _cohen(p: _PairSlices) -> Formula:
     return f
 
 
-def categorical_plan(x: np.ndarray, scale: Scale) -> Plan:
-    """All coefficients of a single-choice categorical variable (nominal or ordinal)."""
+def categorical_plan(x: np.ndarray, scale: Scale, *, icc_ordinal: bool = False) -> Plan:
+    """All coefficients of a single-choice categorical variable (nominal or ordinal).
+
+    With ``icc_ordinal`` an ordinal variable also gets the intraclass correlations and Lin's
+    coefficient on its category positions 1, 2, ... in codebook order.
+    """
     b = _Builder(x.shape[0])
     k, n_coders = scale.size, x.shape[1]
     f: dict[str, Formula] = {
         "percent_agreement": add_percent(b, x),
         "krippendorff_alpha": add_alpha(b, x, scale),
     }
+    if icc_ordinal and scale.ordinal:
+        f.update(add_numeric(b, numeric_values(x, np.arange(1.0, k + 1.0))))
     w_gwet = KA.agreement_weights(k, "gwet-ordinal")
     weights: dict[str, np.ndarray] = {}
     if scale.ordinal:
@@ -282,16 +289,19 @@ def categorical_plan(x: np.ndarray, scale: Scale) -> Plan:
 
 
 def value_plan(x: np.ndarray, scale: Scale) -> Plan:
-    """Percent agreement and alpha of a numeric or multi-select variable."""
+    """Percent agreement and alpha of a numeric or multi-select variable; for numbers also the
+    intraclass correlations and Lin's coefficient (:mod:`coderel.stats.numeric_plan`)."""
     b = _Builder(x.shape[0])
     f = {"percent_agreement": add_percent(b, x), "krippendorff_alpha": add_alpha(b, x, scale)}
+    if scale.kind == "numeric":
+        f.update(add_numeric(b, numeric_values(x, np.asarray(scale.values, dtype=float))))
     return Plan(b.contributions(), f)
 
 
-def build_plan(x: np.ndarray, scale: Scale) -> Plan:
+def build_plan(x: np.ndarray, scale: Scale, *, icc_ordinal: bool = False) -> Plan:
     """The plan of every coefficient that applies to a variable of this scale."""
     if scale.kind == "categorical":
-        return categorical_plan(x, scale)
+        return categorical_plan(x, scale, icc_ordinal=icc_ordinal)
     return value_plan(x, scale)
 
 
