@@ -326,3 +326,57 @@ def test_report_has_numeric_and_stability_sections(tmp_path):
     assert {"icc", "limits", "stability"} <= set(sheets)
     keys = [x.split('"')[0] for x in html.split('id="')[1:]]
     assert len(keys) == len(set(keys)), "ids repeat in the HTML"
+
+
+# ---- many coders (crowd data) ----------------------------------------------------------------
+
+
+def _crowd(n_units: int, n_coders: int, per_unit: int | None, seed: int = 1) -> Codings:
+    rng = np.random.default_rng(seed)
+    truth = rng.normal(50, 10, n_units)
+    records = []
+    for u in range(n_units):
+        coders = (
+            rng.choice(n_coders, size=per_unit, replace=False) if per_unit else np.arange(n_coders)
+        )
+        for c in coders:
+            records.append((f"u{u:04d}", f"c{c:02d}", "x", float(truth[u] + rng.normal(0, 3))))
+    return _tiny(records)
+
+
+def test_crowd_data_keep_the_plan_small():
+    """Twenty coders, three per unit: no complete unit, so no ICC columns, and no pairwise
+    columns above ten coders (each pair would add six columns per unit)."""
+    from coderel.agree.matrices import build_targets
+    from coderel.stats.plan import build_plan
+
+    codings = _crowd(400, 20, 3)
+    (target,) = build_targets(codings, codings.coders, codings.units)
+    plan = build_plan(target.own().x, target.scale)
+    assert plan.contributions.shape[1] < 10
+    v = agreement(codings, replicates=50).variable("x")
+    assert v.coefficients["icc_2_1"].reason == "too-few-complete-units"
+    assert v.coefficients["ccc"].reason == "too-many-coders"
+    assert v.numeric.pairs == ()
+    assert any("up to 10 coders" in n for n in v.notes)
+    assert v.coefficients["krippendorff_alpha"].ci is not None
+
+
+def test_six_coders_ccc_mean_without_bootstrap():
+    codings = _crowd(60, 6, None)
+    v = agreement(codings, replicates=50).variable("x")
+    ccc = v.coefficients["ccc"]
+    pairs = [p.ccc.estimate for p in v.numeric.pairs]
+    assert len(pairs) == 15
+    assert ccc.estimate == pytest.approx(float(np.mean(pairs)))
+    assert ccc.ci is None
+    assert ccc.reason == "many-pairs"
+    assert v.coefficients["icc_2_1"].ci is not None  # the ICCs keep their interval
+
+
+def test_left_out_units_are_named():
+    records = [(f"u{i}", c, "x", float(i + (c == "b"))) for i in range(12) for c in ("a", "b")]
+    records = [r for r in records if not (r[0] in ("u3", "u7") and r[1] == "b")]
+    v = agreement(_tiny(records), replicates=0).variable("x")
+    assert v.numeric.icc.units_left_out == 2
+    assert v.to_dict()["icc"]["left_out_units"] == ["u3", "u7"]

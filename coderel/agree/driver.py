@@ -116,6 +116,7 @@ def agreement(
                 icc_ordinal=icc_ordinal,
                 min_units=MIN_UNITS_FOR_INTERVAL,
                 thin_reason=THIN_DATA,
+                units=units,
             )
         rows.append(row)
         step(len(plans) + len(rows), total)

@@ -10,12 +10,13 @@ agreement of Bland & Altman (1986).
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from dataclasses import dataclass, replace
-from itertools import combinations
 from typing import Any
 
 import numpy as np
 
+from coderel.agree.results import Estimate
 from coderel.stats.concordance import Concordance, concordance
 from coderel.stats.icc import (
     ICC_FORMS,
@@ -29,10 +30,22 @@ from coderel.stats.icc import (
     mean_squares,
 )
 from coderel.stats.limits import PROPORTIONAL_BIAS_LEVEL, LimitsOfAgreement, limits_of_agreement
-from coderel.stats.numeric_plan import NUMERIC_COEFFICIENTS
+from coderel.stats.numeric_plan import (
+    MAX_BOOTSTRAP_PAIRS,
+    MAX_PAIR_CODERS,
+    NUMERIC_COEFFICIENTS,
+    pairs_with_common_units,
+)
+from coderel.stats.undefined import TOO_FEW_PAIRABLE
 
 #: Reasons an ICC has no value (besides those of :mod:`coderel.stats.undefined`).
 TOO_FEW_COMPLETE = "too-few-complete-units"
+#: Lin's coefficient: more coder pairs than :data:`MAX_BOOTSTRAP_PAIRS`, so no interval.
+MANY_PAIRS = "many-pairs"
+#: Lin's coefficient and limits of agreement: more coders than :data:`MAX_PAIR_CODERS`.
+TOO_MANY_CODERS = "too-many-coders"
+#: At most this many IDs of units left out of the ICCs are listed in the JSON.
+LISTED_UNITS = 100
 
 
 def _num(value: Any) -> float | None:
@@ -83,6 +96,8 @@ class IccTable:
     values: str
     mean_squares: dict[str, float | None]
     forms: tuple[IccForm, ...]
+    #: IDs of the units left out (some coder gave no value), the first :data:`LISTED_UNITS`.
+    left_out_units: tuple[str, ...] = ()
 
     def form(self, key: str) -> IccForm:
         return next(f for f in self.forms if f.key == key)
@@ -91,6 +106,7 @@ class IccTable:
         return {
             "units_used": self.units_used,
             "units_left_out": self.units_left_out,
+            "left_out_units": list(self.left_out_units),
             "coders": self.coders,
             "values": self.values,
             "mean_squares": dict(self.mean_squares),
@@ -153,6 +169,8 @@ class NumericDetail:
 
     icc: IccTable | None
     pairs: tuple[NumericPair, ...]
+    #: Coders who gave the variable at least one value.
+    coders: int = 0
 
     def to_dict(self) -> dict[str, Any]:
         return {
@@ -171,7 +189,11 @@ def numbers_of(x: np.ndarray, domain: np.ndarray) -> np.ndarray:
 
 
 def numeric_detail(
-    numbers: np.ndarray, coders: list[str], values: str, ci_level: float
+    numbers: np.ndarray,
+    coders: list[str],
+    values: str,
+    ci_level: float,
+    units: Sequence[str] = (),
 ) -> NumericDetail:
     """The ICC table and per-pair results of one variable.
 
@@ -204,12 +226,15 @@ def numeric_detail(
                 "residual": _num(ms.ems[0]),
             },
             forms=tuple(forms),
+            left_out_units=tuple(
+                str(units[u]) for u in np.flatnonzero(any_value & ~complete)[:LISTED_UNITS]
+            )
+            if len(units) == len(x)
+            else (),
         )
     pairs = []
-    for i, j in combinations(range(k), 2):
+    for i, j in pairs_with_common_units(x):
         a, b = x[:, i], x[:, j]
-        if not (np.isfinite(a) & np.isfinite(b)).any():
-            continue
         pairs.append(
             NumericPair(
                 names[i],
@@ -218,7 +243,7 @@ def numeric_detail(
                 limits_of_agreement(a, b, ci_level),
             )
         )
-    return NumericDetail(icc, tuple(pairs))
+    return NumericDetail(icc, tuple(pairs), k)
 
 
 def numeric_notes(detail: NumericDetail, min_units: int) -> list[str]:
@@ -241,6 +266,17 @@ def numeric_notes(detail: NumericDetail, min_units: int) -> list[str]:
                 f"ICC: {icc.units_used} complete units are too few for a bootstrap interval; the "
                 "F-test intervals assume normally distributed values"
             )
+    if detail.coders > MAX_PAIR_CODERS:
+        notes.append(
+            f"Lin's coefficient and limits of agreement are given for up to {MAX_PAIR_CODERS} "
+            f"coders; this variable has {detail.coders} (pairs grow with the square of the "
+            "coders, and each rests on few units): see alpha and the ICCs"
+        )
+    elif len(detail.pairs) > MAX_BOOTSTRAP_PAIRS:
+        notes.append(
+            f"ccc: the mean over {len(detail.pairs)} coder pairs, without a bootstrap interval "
+            f"(given up to {MAX_BOOTSTRAP_PAIRS} pairs); each pair's interval is in ccc_pairs"
+        )
     for p in detail.pairs:
         pb = p.limits.proportional_bias
         if pb is not None and pb.significant:
@@ -263,11 +299,13 @@ def attach(
     icc_ordinal: bool,
     min_units: int,
     thin_reason: str,
+    units: Sequence[str] = (),
 ) -> Any:
     """``row`` (a VariableAgreement) with its numeric detail, notes and ICC reasons; ``row``
     itself for a variable that is neither numeric nor (with ``icc_ordinal``) ordinal.
 
-    ``x`` is the units x coders matrix of value indices into ``scale``'s domain.
+    ``x`` is the units x coders matrix of value indices into ``scale``'s domain, ``units``
+    the unit IDs of its rows (to list the units the ICCs left out).
     """
     if scale.kind == "numeric":
         numbers, values = numbers_of(x, scale.values), "numbers"
@@ -275,8 +313,16 @@ def attach(
         numbers, values = numbers_of(x, np.arange(1.0, scale.size + 1.0)), "positions"
     else:
         return row
-    detail = numeric_detail(numbers, coders, values, ci_level)
+    detail = numeric_detail(numbers, coders, values, ci_level, units)
     coefs = dict(row.coefficients)
+    if coefs.get("ccc") is None:
+        defined = [p.ccc.estimate for p in detail.pairs if p.ccc.estimate is not None]
+        if detail.coders > MAX_PAIR_CODERS:
+            coefs["ccc"] = Estimate(None, reason=TOO_MANY_CODERS)
+        elif defined:
+            coefs["ccc"] = Estimate(float(np.mean(defined)), reason=MANY_PAIRS)
+        else:
+            coefs["ccc"] = Estimate(None, reason=TOO_FEW_PAIRABLE)
     used = detail.icc.units_used if detail.icc else 0
     for key in NUMERIC_COEFFICIENTS:
         est = coefs.get(key)

@@ -18,11 +18,18 @@ from typing import Protocol
 import numpy as np
 
 from coderel.stats.concordance import ccc_contributions, ccc_from_sums, mean_pairwise
-from coderel.stats.icc import ICC_FORMS, icc_contributions, icc_from_sums
+from coderel.stats.icc import ICC_FORMS, complete_rows, icc_contributions, icc_from_sums
 
 Formula = Callable[[np.ndarray], np.ndarray]
 #: The keys of the coefficients this module adds.
 NUMERIC_COEFFICIENTS: tuple[str, ...] = (*ICC_FORMS, "ccc")
+#: Lin's pair-averaged coefficient is bootstrapped only up to this many coder pairs with units in
+#: common: each pair adds six columns per unit to the plan (a bound on memory chosen by coderel,
+#: not a published rule). Above it the estimate is given without an interval.
+MAX_BOOTSTRAP_PAIRS = 10
+#: Above this many coders no pairwise result is computed at all (crowd data: the pairs grow as
+#: k^2 and each rests on few units); a bound chosen by coderel.
+MAX_PAIR_CODERS = 10
 
 
 class _Adds(Protocol):
@@ -56,14 +63,35 @@ def add_numeric(b: _Adds, numbers: np.ndarray) -> dict[str, Formula]:
     """
     k = numbers.shape[1]
     formulas: dict[str, Formula] = {}
-    cols = b.add(icc_contributions(numbers))
-    for form in ICC_FORMS:
-        formulas[form] = lambda s, form=form: icc_from_sums(s[:, cols], k, form)
-    finite = numbers[np.isfinite(numbers)]
-    centre = float(np.mean(finite)) if finite.size else 0.0
-    pair_cols = []
-    for i, j in combinations(range(k), 2):
-        pair_cols.append(b.add(ccc_contributions(numbers[:, i], numbers[:, j], centre)))
-    if pair_cols:
+    if k >= 2 and int(complete_rows(numbers).sum()) >= 2:
+        cols = b.add(icc_contributions(numbers))
+        for form in ICC_FORMS:
+            formulas[form] = lambda s, form=form: icc_from_sums(s[:, cols], k, form)
+    else:
+        # Fewer than two complete units: every form is undefined; no columns are needed.
+        for form in ICC_FORMS:
+            formulas[form] = _undefined
+    pairs = pairs_with_common_units(numbers)
+    if pairs and len(pairs) <= MAX_BOOTSTRAP_PAIRS:
+        finite = numbers[np.isfinite(numbers)]
+        centre = float(np.mean(finite)) if finite.size else 0.0
+        pair_cols = [
+            b.add(ccc_contributions(numbers[:, i], numbers[:, j], centre)) for i, j in pairs
+        ]
         formulas["ccc"] = lambda s: mean_pairwise([ccc_from_sums(s[:, c]) for c in pair_cols])
     return formulas
+
+
+def _undefined(s: np.ndarray) -> np.ndarray:
+    return np.full(s.shape[0], np.nan)
+
+
+def pairs_with_common_units(numbers: np.ndarray) -> list[tuple[int, int]]:
+    """Coder pairs (i < j) with at least two units valued by both; none above
+    :data:`MAX_PAIR_CODERS` coders."""
+    k = numbers.shape[1]
+    if k < 2 or k > MAX_PAIR_CODERS:
+        return []
+    ok = np.isfinite(numbers).astype(np.int64)
+    common = ok.T @ ok
+    return [(i, j) for i, j in combinations(range(k), 2) if common[i, j] >= 2]
