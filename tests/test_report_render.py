@@ -117,6 +117,8 @@ def test_methods_paragraph_in_journal_style(demo, demo_html):
     assert "Three coders" in paragraph
     assert "Krippendorff, 2004" in paragraph
     assert "Hayes & Krippendorff, 2007" in paragraph
+    # Issue 9, item 6: the interval resamples units only; the coders are fixed.
+    assert "coders were treated as fixed" in paragraph
     assert "valid" in paragraph  # reliability is not validity
     # APA 7th ed. 6.32: counts compared with a number of 10 or more are numerals.
     main = [r for r in content.table if r.kind == "variable"]

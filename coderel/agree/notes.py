@@ -74,6 +74,16 @@ def notes_for(
             "agreement, Brennan-Prediger, AC1 and PABAK are 1 by their definitions; this says "
             "nothing about reliability, and no interval is given"
         )
+    gaps = [
+        f"{key} in {e.undefined_replicates:,}"
+        for key, e in coefs.items()
+        if e is not None and e.ci is not None and e.undefined_replicates
+    ]
+    if gaps:
+        notes.append(
+            f"undefined in some of the {replicates:,} bootstrap replicates (a resample can hold "
+            "one category only): " + ", ".join(gaps) + "; each interval rests on the others"
+        )
     alpha = coefs.get("krippendorff_alpha")
     if alpha is not None and alpha.estimate is None and alpha.reason:
         notes.append(f"alpha is undefined: {U.describe(alpha.reason)}")

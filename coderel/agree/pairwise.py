@@ -3,6 +3,7 @@ tables), agreement per category, and the published standard errors with Fleiss' 
 
 from __future__ import annotations
 
+from dataclasses import replace
 from itertools import combinations
 from typing import Any
 
@@ -10,11 +11,13 @@ import numpy as np
 
 from coderel.agree.matrices import Target
 from coderel.agree.results import Estimate, PairAgreement, finite
+from coderel.stats import undefined as U
 from coderel.stats.counts import confusion_table
 from coderel.stats.kappa import (
     cohen_kappa_table,
     fleiss_category_kappas,
     fleiss_null_se,
+    p_value_text,
     z_test,
 )
 from coderel.stats.plan import Scale, alpha_point
@@ -94,20 +97,37 @@ def standard_errors(
     out = dict(coefs)
     if t.scale.kind == "categorical" and t.x.shape[1] == 2 and len(confusion) == 1:
         table = next(iter(confusion.values()))
+        # A coder who used one category only: kappa is 0 by construction and the large-sample
+        # variance degenerates to 0 (or rounding noise of 1e-9); statsmodels gives 0 or NaN.
+        one_sided = min(int((table.sum(axis=1) > 0).sum()), int((table.sum(axis=0) > 0).sum()))
         for key, weights in (
             ("cohen_kappa", "identity"),
             ("weighted_kappa_linear", "linear"),
             ("weighted_kappa_quadratic", "quadratic"),
         ):
             est = out.get(key)
-            if est is not None and est.estimate is not None:
-                se = finite(cohen_kappa_table(table, weights)[1])
-                out[key] = Estimate(est.estimate, est.ci, se, est.reason)
+            if est is None or est.estimate is None:
+                continue
+            se = finite(cohen_kappa_table(table, weights)[1])
+            se_reason = None
+            if one_sided < 2:
+                se, se_reason = None, U.ONE_CATEGORY_PER_CODER
+            elif se is None or se <= 0:
+                se, se_reason = None, U.DEGENERATE_SE
+            out[key] = replace(est, se=se, se_reason=se_reason)
     est = out.get("fleiss_kappa")
     if est is not None and est.estimate is not None and len(fleiss_counts):
         m = int(fleiss_counts[0].sum())
         p = fleiss_counts.sum(axis=0) / fleiss_counts.sum()
         se = finite(fleiss_null_se(p, len(fleiss_counts), m))
         z, pv = z_test(est.estimate, se)
-        out["fleiss_kappa"] = Estimate(est.estimate, est.ci, se, est.reason, finite(z), finite(pv))
+        below = p_value_text(pv) if z is not None else None
+        out["fleiss_kappa"] = replace(
+            est,
+            se=se,
+            se_reason=None if se is not None else U.DEGENERATE_SE,
+            z=finite(z),
+            p_value=None if below else finite(pv),
+            p_value_reason=below,
+        )
     return out

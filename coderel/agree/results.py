@@ -23,7 +23,11 @@ class Estimate:
     """A coefficient's estimate, bootstrap interval, standard error and, for Fleiss' kappa, the
     z test against kappa = 0. ``reason`` is a slug (:mod:`coderel.stats.undefined`) when the
     estimate is ``None``, or ``too-few-units``, ``one-value-used``, ``perfect-agreement`` or
-    ``too-few-replicates`` when only the interval is withheld."""
+    ``too-few-replicates`` when only the interval is withheld. ``se_reason`` says why ``se`` is
+    ``None`` where a standard error would be given, ``p_value_reason`` why ``p_value`` is
+    ``None`` although ``z`` is given (a p-value below 1e-300 is not held as a number).
+    ``undefined_replicates`` counts the bootstrap replicates in which the coefficient had no
+    value (left out of its interval)."""
 
     estimate: float | None
     ci: tuple[float, float] | None = None
@@ -31,6 +35,9 @@ class Estimate:
     reason: str | None = None
     z: float | None = None
     p_value: float | None = None
+    se_reason: str | None = None
+    p_value_reason: str | None = None
+    undefined_replicates: int = 0
 
     def to_dict(self) -> dict[str, Any]:
         return {
@@ -40,6 +47,9 @@ class Estimate:
             "reason": self.reason,
             "z": self.z,
             "p_value": self.p_value,
+            "se_reason": self.se_reason,
+            "p_value_reason": self.p_value_reason,
+            "undefined_replicates": self.undefined_replicates,
         }
 
 
@@ -180,6 +190,9 @@ class AgreementResult:
                         "z": est.z,
                         "p_value": est.p_value,
                         "reason": est.reason,
+                        "se_reason": est.se_reason,
+                        "p_value_reason": est.p_value_reason,
+                        "undefined_replicates": est.undefined_replicates,
                         "verdict": v.verdict,
                     }
                 )

@@ -86,7 +86,10 @@ def variable_row(
         ci = None
         if not thin and ev.replicates.size:
             ci = interval(ev.replicates, ev.point, ev.jackknife, ci_level, interval_method)
-        coefs[key] = Estimate(point, ci, None, thin_reason if thin else None)
+        undefined = int(np.count_nonzero(~np.isfinite(ev.replicates)))
+        coefs[key] = Estimate(
+            point, ci, None, thin_reason if thin else None, undefined_replicates=undefined
+        )
     pairs, confusion = pair_agreements(t)
     fleiss_counts = value_counts(x[modal], t.scale.size) if categorical else np.empty(0)
     coefs = standard_errors(t, coefs, confusion, fleiss_counts)

@@ -104,14 +104,18 @@ def agree_command(
     icc_ordinal: IccOrdinalOption = False,
     json_out: JsonOption = False,
     out: Annotated[
-        Path | None, typer.Option("--out", "-o", help="Write the table (.csv/.xlsx).")
+        Path | None,
+        typer.Option("--out", "-o", help="Write the table (.csv, .xlsx or .parquet)."),
     ] = None,
 ) -> ExitCode:
     """Every agreement coefficient per variable, with seeded bootstrap intervals."""
     check_table_output(out, data, codebook)
     if out is not None and pairs and table_format(out) != "xlsx":
         check_table_output(out.with_name(f"{out.stem}-pairs{out.suffix}"), data, codebook)
-    codings = read_project(codebook, data, errors_note="were left out")
+    codings = read_project(codebook, data, errors_note="were left out (exit code 1: data problems)")
+    # Cells with errors are left out and the numbers computed without them, but the run is not
+    # clean: exit 1 (data problems), as validate does.
+    status = ExitCode.DATA_PROBLEMS if codings.problems.errors else ExitCode.OK
     with delayed_progress("bootstrap") as progress:
         result = agreement(
             codings,
@@ -150,7 +154,7 @@ def agree_command(
         if diagnostics is not None:
             payload["coder_diagnostics"] = diagnostics.to_dict()
         emit_json(payload)
-        return ExitCode.OK
+        return status
     # Two coders: Cohen's kappa; more: Light's mean pairwise kappa (Cohen's is then undefined).
     kappa = "cohen_kappa" if len(result.coders) == 2 else "light_kappa"
     shown = tuple(kappa if k == "cohen_kappa" else k for k in SHOWN)
@@ -187,4 +191,4 @@ def agree_command(
         "Verdicts compare alpha with the codebook's thresholds (conventions: Krippendorff 2004). "
         "Reliability is not validity: agreeing coders can still share a wrong reading."
     )
-    return ExitCode.OK
+    return status

@@ -288,7 +288,9 @@ def methods_text(
         seed = f", random seed {repro.seed}" if repro.seed is not None else ""
         s.append(
             f"{level}% confidence intervals were obtained by bootstrapping units "
-            f"(Hayes & Krippendorff, 2007; {repro.replicates:,} replicates{seed}) as {kind}."
+            f"(Hayes & Krippendorff, 2007; {repro.replicates:,} replicates{seed}) as {kind}; "
+            "the coders were treated as fixed, so the intervals do not include the variation "
+            "from choosing other coders."
         )
     defined = [(r, r.alpha) for r in rows if r.alpha is not None and r.alpha.estimate is not None]
     if defined:

@@ -6,8 +6,9 @@ Efron, B. (1987). Better bootstrap confidence intervals. *Journal of the America
 Association*, 82(397), 171-185.
 Efron, B., & Tibshirani, R. J. (1993). *An Introduction to the Bootstrap*, ch. 13-14.
 Hayes, A. F., & Krippendorff, K. (2007). Answering the call for a standard reliability measure for
-coding data. *Communication Methods and Measures*, 1(1), 77-89 (probability that alpha falls below
-the smallest acceptable value).
+coding data. *Communication Methods and Measures*, 1(1), 77-89 (the share of replicates in which
+alpha falls below the smallest acceptable value: a share of replicates, not the probability that
+the true alpha is that low).
 """
 
 from __future__ import annotations

@@ -21,6 +21,12 @@ NOT_BINARY: Final = "not-binary"
 ONE_CATEGORY: Final = "one-category"
 """The codebook lists a single category, so chance agreement over q - 1 categories is 0/0."""
 
+ONE_CATEGORY_PER_CODER: Final = "one-category-per-coder"
+"""A standard error is withheld: a coder used one category only, so kappa is 0 by construction
+and its large-sample variance degenerates to 0."""
+DEGENERATE_SE: Final = "degenerate-se"
+"""A standard error is withheld: the large-sample variance is 0 or below on these data."""
+
 REASONS: Final[dict[str, str]] = {
     NO_VARIATION: "every pairable value is the same, so agreement beyond chance is undefined",
     TOO_FEW_PAIRABLE: "fewer than two pairable values (no unit coded by two coders)",
@@ -28,6 +34,9 @@ REASONS: Final[dict[str, str]] = {
     NOT_ORDINAL: "weighted coefficients need an ordinal variable",
     NOT_BINARY: "defined for variables with exactly two categories",
     ONE_CATEGORY: "the codebook lists one category only",
+    ONE_CATEGORY_PER_CODER: "a coder used one category only: kappa is 0 by construction and its "
+    "large-sample standard error is not meaningful",
+    DEGENERATE_SE: "the large-sample variance is 0 on these data: no standard error",
 }
 
 
