@@ -423,6 +423,34 @@ def _categorical(
     return _invalid(
         "not-in-codebook",
         f"{quote(raw if is_text else token)} is not a code of {variable.name}",
-        _suggest(variable, token),
+        separator_hint(variable, token) or _suggest(variable, token),
         before=findings,
     )
+
+
+#: Separators people type between several codes, other than ours (``1,3``, ``1/3``, ``1 3``).
+OTHER_SEPARATORS: tuple[str, ...] = (",", "/", "|", "+", "&")
+
+
+def separator_hint(variable: Variable, text: str) -> str | None:
+    """For a multi-select variable, a hint when ``text`` is codes split by another separator.
+
+    ``'1,3'`` -> ``"several codes are separated by ';': write 1;3"``; ``None`` when ``text`` is
+    not several of the variable's codes joined by a comma, slash, bar, plus, ampersand or spaces.
+    """
+    if not variable.multiple:
+        return None
+    matcher = _Matcher(variable)
+    for sep in (*OTHER_SEPARATORS, None):
+        parts = [p.strip() for p in (text.split(sep) if sep else text.split())]
+        parts = [p for p in parts if p]
+        if len(parts) < 2:
+            continue
+        codes = [matcher.match(p, typed=False)[0] for p in parts]
+        if all(c is not None and c not in matcher.missing for c in codes):
+            joined = MULTI_SEPARATOR.join(str(c) for c in codes)
+            return (
+                f"several codes are separated by {MULTI_SEPARATOR!r}, not "
+                f"{(repr(sep) if sep else 'spaces')}: write {joined}"
+            )
+    return None

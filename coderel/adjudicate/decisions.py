@@ -12,6 +12,7 @@ import pandas as pd
 from coderel.adjudicate.tokens import NA_TOKEN, NOT_APPLICABLE, Token
 from coderel.codebook import MULTI_SEPARATOR, Variable
 from coderel.codings import SourceFile
+from coderel.normalise import separator_hint
 from coderel.problems import Problems
 
 
@@ -135,7 +136,10 @@ def parse_decision(var: Variable, raw: Any) -> tuple[Token | None, str | None]:
                     "label do not match"
                 )
         if code is None:
-            return None, f"{part[:40]!r} is not a code or label of {var.name!r}"
+            sep = separator_hint(var, part)
+            return None, f"{part[:40]!r} is not a code or label of {var.name!r}" + (
+                f" ({sep})" if sep else ""
+            )
         codes.append(code)
     if len(codes) == 1 and codes[0] in var.missing_codes:
         return ("missing", codes[0]), None
