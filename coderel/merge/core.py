@@ -1,0 +1,282 @@
+"""The merge: one final value per unit and variable (see :mod:`coderel.merge`)."""
+
+from __future__ import annotations
+
+import os
+from collections import Counter
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import pandas as pd
+
+from coderel.adjudicate import (
+    Decision,
+    Decisions,
+    Token,
+    cell_tokens,
+    display_token,
+    read_decisions,
+    sorted_units,
+)
+from coderel.codebook import Codebook
+from coderel.codings import Codings, SourceFile
+from coderel.errors import UsageError
+from coderel.merge.cells import decide_cell, final_value, stale_reason
+from coderel.merge.columns import check_skip_logic, output_columns, status_column, value_column
+from coderel.merge.result import RULES, STATUSES, AdjudicatedCell, Rule
+from coderel.merge.tables import (
+    DATA_SHEET,
+    DICTIONARY_SHEET,
+    LABELS_SHEET,
+    dictionary_frame,
+    labels_frame,
+    spread_multiselect,
+)
+from coderel.problems import Problems
+
+
+@dataclass(frozen=True)
+class MergeResult:
+    """The reconciled dataset with its statuses, unresolved cells and adjudicated cells.
+
+    Attributes
+    ----------
+    frame
+        One row per unit (natural order of unit IDs): the codebook's unit column, then per variable
+        its value column and ``<variable>_status``.
+    rule
+        ``"unanimous"`` or ``"majority"``.
+    status_counts
+        variable -> status -> number of units, every status listed (zeros included).
+    unresolved
+        ``(unit, variable)`` of every unresolved cell, in the frame's order.
+    adjudicated
+        Every cell a decision settled.
+    problems
+        ``stale-decision`` warnings and the decisions file's ``bad-decision`` errors.
+    unresolved_values
+        For each entry of ``unresolved``, the coders' values as shown on the adjudication list.
+    """
+
+    frame: pd.DataFrame
+    rule: str
+    codebook: Codebook
+    coders: tuple[str, ...]
+    status_counts: Mapping[str, Mapping[str, int]]
+    unresolved: tuple[tuple[str, str], ...]
+    adjudicated: tuple[AdjudicatedCell, ...]
+    problems: Problems = field(default_factory=Problems)
+    sources: tuple[SourceFile, ...] = ()
+    decisions_source: SourceFile | None = None
+    unresolved_values: tuple[Mapping[str, str], ...] = ()
+
+    @property
+    def units(self) -> int:
+        return len(self.frame)
+
+    @property
+    def cells(self) -> int:
+        """Units x variables: what the status counts add up to."""
+        return len(self.frame) * len(self.codebook.variables)
+
+    def to_frame(self, *, spread: bool = False) -> pd.DataFrame:
+        """The dataset (a copy); ``spread=True`` adds 0/1 columns for multi-select variables."""
+        return spread_multiselect(self.frame, self.codebook) if spread else self.frame.copy()
+
+    def status_frame(self) -> pd.DataFrame:
+        """Tidy counts: one row per variable and status."""
+        rows = [
+            {"variable": v, "status": s, "n": n}
+            for v, counts in self.status_counts.items()
+            for s, n in counts.items()
+        ]
+        return pd.DataFrame(rows, columns=["variable", "status", "n"])
+
+    def labels_frame(self, *, spread: bool = False) -> pd.DataFrame:
+        """The dataset with category labels instead of codes (the xlsx ``labels`` sheet)."""
+        return labels_frame(self.to_frame(spread=spread), self.codebook)
+
+    def totals(self) -> dict[str, int]:
+        """Cells per status over all variables."""
+        out = dict.fromkeys(STATUSES, 0)
+        for counts in self.status_counts.values():
+            for s, n in counts.items():
+                out[s] += n
+        return out
+
+    def unresolved_records(self) -> list[dict[str, Any]]:
+        """Every unresolved cell: unit, variable and the coders' values (codes, never text)."""
+        values = self.unresolved_values or tuple({} for _ in self.unresolved)
+        return [
+            {"unit": u, "variable": v, "coders": dict(shown)}
+            for (u, v), shown in zip(self.unresolved, values, strict=True)
+        ]
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "rule": self.rule,
+            "units": self.units,
+            "variables": len(self.codebook.variables),
+            "cells": self.cells,
+            "coders": list(self.coders),
+            "totals": self.totals(),
+            "status_counts": {v: dict(c) for v, c in self.status_counts.items()},
+            "unresolved": self.unresolved_records(),
+            "adjudicated": [a.to_dict() for a in self.adjudicated],
+            **self.problems.to_dict(),
+        }
+
+
+# ---- the merge -----------------------------------------------------------------------------
+def merge(
+    codings: Codings,
+    decisions: Decisions | str | os.PathLike[str] | None = None,
+    rule: Rule = "unanimous",
+) -> MergeResult:
+    """Reconcile the coders' codings into one value per unit and variable.
+
+    Parameters
+    ----------
+    codings
+        The coders' codings (:func:`coderel.io.read.read_codings`).
+    decisions
+        Decisions of an adjudication list (object or path of the list), or ``None``.
+    rule
+        ``"unanimous"``: a cell is settled when every coder agrees; ``"majority"``: also when more
+        than half of the coders who coded the unit agree. A tie is left unresolved.
+
+    Returns
+    -------
+    MergeResult
+        The dataset, status counts, unresolved and adjudicated cells, and problems.
+
+    Notes
+    -----
+    Consensus by majority vote and adjudication of the remaining disagreements by a third person
+    is the usual way of reconciling independent codings (common practice, no source).
+    """
+    if rule not in RULES:
+        raise UsageError(f"rule must be one of {', '.join(RULES)}, not {rule!r}")
+    cb = codings.codebook
+    columns = output_columns(cb)
+    if decisions is not None and not isinstance(decisions, Decisions):
+        decisions = read_decisions(decisions, cb)
+    problems = Problems()
+    if decisions is not None:
+        problems.extend(decisions.problems)
+    tokens_by_cell = cell_tokens(codings)
+    units = sorted_units(codings.units)
+    unit_set = set(units)
+    usable: dict[tuple[str, str], Decision] = {}
+    place = {}
+    if decisions is not None and decisions.source is not None:
+        place["file"] = Path(decisions.source.path).name
+    for (unit, name), decision in (decisions.decisions if decisions is not None else {}).items():
+        if name not in cb:
+            problems.add(
+                "bad-decision", "a decision for a variable the codebook lacks", unit=unit, **place
+            )
+            continue
+        tokens = tokens_by_cell.get((unit, name), {})
+        var = cb.variable(name)
+        shown = {c: display_token(var, t) for c, t in tokens.items()}
+        reason = stale_reason(decision, tokens, shown, unit in unit_set)
+        if reason is None:
+            usable[(unit, name)] = decision
+            continue
+        problems.add(
+            "stale-decision",
+            f"the decision is not used: {reason}",
+            hint="run 'coderel adjudicate' again with the same output to update the list; "
+            "decisions are carried over by unit and variable",
+            unit=unit,
+            variable=name,
+            cell=decision.cell,
+            sheet=None if place.get("file", "").lower().endswith(".csv") else "to decide",
+            **place,
+        )
+
+    data: dict[str, Any] = {cb.unit: pd.Series(units, dtype=object)}
+    status_counts: dict[str, dict[str, int]] = {}
+    unresolved: list[tuple[str, str]] = []
+    unresolved_values: list[dict[str, str]] = []
+    adjudicated: list[AdjudicatedCell] = []
+    statuses_by_var: dict[str, list[str]] = {}
+    tokens_by_var: dict[str, list[Token | None]] = {}
+    for var in cb.variables:
+        values: list[Any] = []
+        statuses: list[str] = []
+        finals: list[Token | None] = []
+        tokens_by_var[var.name] = finals
+        for unit in units:
+            tokens = tokens_by_cell.get((unit, var.name), {})
+            decision = usable.get((unit, var.name))
+            status, token, used = decide_cell(tokens, rule, decision)
+            finals.append(token)
+            values.append(None if token is None else final_value(var, token))
+            statuses.append(status)
+            if used and decision is not None:
+                adjudicated.append(
+                    AdjudicatedCell(
+                        unit=unit,
+                        variable=var.name,
+                        values={c: display_token(var, t) for c, t in tokens.items()},
+                        decision=decision.text,
+                        value=values[-1],
+                        adjudicator=decision.adjudicator,
+                        note=decision.note,
+                        cell=decision.cell,
+                    )
+                )
+        data[var.name] = value_column(var, values)
+        data[status_column(var.name)] = pd.Series(statuses, dtype=object)
+        counts = Counter(statuses)
+        status_counts[var.name] = {s: counts.get(s, 0) for s in STATUSES}
+        statuses_by_var[var.name] = statuses
+    for i, unit in enumerate(units):
+        for var in cb.variables:
+            if statuses_by_var[var.name][i] == "unresolved":
+                unresolved.append((unit, var.name))
+                tokens = tokens_by_cell.get((unit, var.name), {})
+                unresolved_values.append({c: display_token(var, t) for c, t in tokens.items()})
+    check_skip_logic(cb, units, tokens_by_var, statuses_by_var, problems)
+    frame = pd.DataFrame(data, columns=columns)
+    return MergeResult(
+        frame=frame,
+        rule=rule,
+        codebook=cb,
+        coders=tuple(codings.coders),
+        status_counts=status_counts,
+        unresolved=tuple(unresolved),
+        unresolved_values=tuple(unresolved_values),
+        adjudicated=tuple(adjudicated),
+        problems=problems,
+        sources=codings.sources,
+        decisions_source=decisions.source if decisions is not None else None,
+    )
+
+
+def write_merged(
+    result: MergeResult,
+    path: str | os.PathLike[str],
+    codebook: Codebook | None = None,
+    *,
+    spread: bool = False,
+) -> str:
+    """Write the dataset as csv, xlsx or parquet (by extension), atomically; return the form.
+
+    The xlsx form adds a ``labels`` sheet (labels instead of codes) and a ``dictionary`` sheet.
+    Text is neutralised against formula injection in csv and xlsx, stored as it is in parquet.
+    The same result gives the same bytes in every form (no time stamps inside the files).
+    """
+    from coderel.io.tables import write_table
+
+    cb = codebook if codebook is not None else result.codebook
+    frame = result.to_frame(spread=spread)
+    extra = {
+        LABELS_SHEET: labels_frame(frame, cb),
+        DICTIONARY_SHEET: dictionary_frame(cb, spread=spread),
+    }
+    return write_table(frame, path, extra_sheets=extra, sheet=DATA_SHEET)
