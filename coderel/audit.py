@@ -64,6 +64,7 @@ def audit_record(
         "decisions": None if result.decisions_source is None else _source(result.decisions_source),
         "codebook": codebook,
         "rule": result.rule,
+        "tolerance": dict(result.tolerance),
         "spread": spread,
         "units": result.units,
         "variables": len(cb.variables),

@@ -115,6 +115,7 @@ def test_statuses_under_unanimous_rule():
     assert r.unresolved == (("R1", "spray_worked"), ("R2", "species"))
     assert r.status_counts["species"] == {
         "agreed": 1,
+        "within_tolerance": 0,
         "majority": 0,
         "adjudicated": 0,
         "single": 1,

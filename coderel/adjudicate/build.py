@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import math
 import os
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 
 from coderel.adjudicate.decisions import hint, parse_decision
 from coderel.adjudicate.model import (
@@ -15,7 +15,8 @@ from coderel.adjudicate.model import (
     main_columns,
 )
 from coderel.adjudicate.read import read_adjudication
-from coderel.adjudicate.tokens import cell_tokens, classify, display_token, unit_sort_key
+from coderel.adjudicate.rules import Settling, settle
+from coderel.adjudicate.tokens import Token, cell_tokens, classify, display_token, unit_sort_key
 from coderel.codings import Codings
 from coderel.problems import Problems
 
@@ -40,16 +41,28 @@ def _first_texts(codings: Codings) -> tuple[tuple[str, ...], dict[str, dict[str,
     return tuple(columns), {u: {c: t for c, (_, t) in d.items()} for u, d in out.items()}
 
 
-def disagreements(codings: Codings) -> list[AdjudicationRow]:
-    """Rows for every cell that needs a decision, sorted by unit then codebook variable order."""
+def disagreements(
+    codings: Codings,
+    settling: Settling | None = None,
+    tokens_by_cell: Mapping[tuple[str, str], Mapping[str, Token]] | None = None,
+) -> list[AdjudicationRow]:
+    """Rows for every cell that needs a decision, sorted by unit then codebook variable order.
+
+    A cell the coders disagree on needs no decision when ``settling`` (rule and tolerances, see
+    :mod:`coderel.adjudicate.rules`) settles it; by default only unanimity settles a cell.
+    """
     cb = codings.codebook
+    settling = settling or Settling()
     var_order = {name: i for i, name in enumerate(cb.names)}
     rows = []
-    for (unit, name), tokens in cell_tokens(codings).items():
+    cells = tokens_by_cell if tokens_by_cell is not None else cell_tokens(codings)
+    for (unit, name), tokens in cells.items():
         kind = classify(tokens)
         if kind is None:
             continue
         var = cb.variable(name)
+        if settle(var, tokens, settling) is not None:
+            continue
         values = {coder: display_token(var, tok) for coder, tok in tokens.items()}
         rows.append(AdjudicationRow(unit=unit, variable=name, kind=kind, values=values))
     rows.sort(key=lambda r: (unit_sort_key(r.unit), r.unit, var_order[r.variable]))
@@ -57,7 +70,9 @@ def disagreements(codings: Codings) -> list[AdjudicationRow]:
 
 
 def build_adjudication(
-    codings: Codings, previous: Adjudication | str | os.PathLike[str] | None = None
+    codings: Codings,
+    previous: Adjudication | str | os.PathLike[str] | None = None,
+    settling: Settling | None = None,
 ) -> Adjudication:
     """Build the adjudication list, keeping the decisions of a previous list.
 
@@ -70,8 +85,13 @@ def build_adjudication(
         kept by unit and variable; rows no longer disagreeing move to ``retired``; rows already
         retired stay retired unless they disagree again, in which case they return with their
         decision. Nothing is dropped.
+    settling
+        The rule (``unanimous`` or ``majority``) and numeric tolerances: cells they settle are
+        not listed (see :mod:`coderel.adjudicate.rules`; ``merge`` must use the same settling).
     """
-    current = disagreements(codings)
+    settling = settling or Settling()
+    tokens_by_cell = cell_tokens(codings)
+    current = disagreements(codings, settling, tokens_by_cell)
     columns, narratives = _first_texts(codings)
     if previous is not None and not isinstance(previous, Adjudication):
         previous = read_adjudication(previous, codings.codebook)
@@ -111,7 +131,7 @@ def build_adjudication(
         if key in now_keys:
             continue
         moved += 1
-        reason = "coders now agree" if old.unit in units_now else "unit no longer in the data"
+        reason = _retired_reason(old, tokens_by_cell, units_now, settling)
         retired.append(
             AdjudicationRow(
                 unit=old.unit,
@@ -139,10 +159,26 @@ def build_adjudication(
         kept=kept if previous is not None else 0,
         added=added,
         moved=moved,
+        settling=settling,
     )
     problems.extend(check_decisions(adjudication))
     problems.extend(_changed_since_decision(adjudication, changed))
     return adjudication
+
+
+def _retired_reason(
+    old: AdjudicationRow,
+    tokens_by_cell: Mapping[tuple[str, str], Mapping[str, Token]],
+    units_now: set[str],
+    settling: Settling,
+) -> str:
+    """Why a row left the list: the unit is gone, the coders agree, or a rule settles it."""
+    if old.unit not in units_now:
+        return "unit no longer in the data"
+    tokens = tokens_by_cell.get((old.unit, old.variable), {})
+    if tokens and classify(tokens) is not None:
+        return f"settled by the rule ({settling.describe()})"
+    return "coders now agree"
 
 
 def _changed_since_decision(adjudication: Adjudication, indexes: Sequence[int]) -> Problems:

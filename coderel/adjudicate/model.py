@@ -9,6 +9,7 @@ from typing import Any
 import pandas as pd
 
 from coderel.adjudicate.decisions import parse_decision
+from coderel.adjudicate.rules import Settling
 from coderel.codebook import Codebook
 from coderel.problems import Problems
 
@@ -82,6 +83,8 @@ class Adjudication:
     kept: int = 0
     added: int = 0
     moved: int = 0
+    #: the rule and tolerances that chose the rows (cells they settle are not listed)
+    settling: Settling = field(default_factory=Settling)
 
     def summary(self) -> pd.DataFrame:
         """Per variable (codebook order): disagreements, decided, open, no longer needed.
@@ -115,6 +118,7 @@ class Adjudication:
         return {
             "codebook": {"title": self.codebook.title, "version": self.codebook.version},
             "coders": list(self.coders),
+            **self.settling.to_dict(),
             "disagreements": len(self.rows),
             "decided": int(summary["decided"].sum()),
             "open": int(summary["open"].sum()),

@@ -161,6 +161,7 @@ def _write_workbook(adj: Adjudication, path: str | os.PathLike[str]) -> None:
             ("codebook version", cb.version),
             *[("coder", c) for c in adj.coders],
             *[("text column", c) for c in adj.text_columns],
+            ("rule", adj.settling.describe()),
             ("how to decide", "fill 'decision' with a code, 'code = label', a label, "),
             ("", f"several codes as 1;3 (multi-select), a missing code, or {NOT_APPLICABLE!r}"),
             ("", "decisions are kept when the list is made again (matched by unit|variable)"),

@@ -15,11 +15,14 @@ from coderel.adjudicate import (
     check_decisions,
     write_adjudication,
 )
+from coderel.adjudicate.rules import Settling, parse_tolerances
 from coderel.cli.app import app
 from coderel.cli.common import (
     CodebookOption,
     DataArgument,
     JsonOption,
+    RuleOption,
+    ToleranceOption,
     emit_json,
     handle_errors,
     out_console,
@@ -48,9 +51,15 @@ def adjudicate_command(
             help="The adjudication list (.xlsx or .csv). When it exists, its decisions are kept.",
         ),
     ],
+    rule: RuleOption = "unanimous",
+    tolerance: ToleranceOption = None,
     json_out: JsonOption = False,
 ) -> ExitCode:
-    """Write one row per cell where coders disagree; keep decisions already made in OUT."""
+    """Write one row per cell where coders disagree; keep decisions already made in OUT.
+
+    With --rule majority or --tolerance, only the cells the rule leaves open are listed; use the
+    same options with merge.
+    """
     if out.suffix.lower() not in LIST_SUFFIXES:
         raise UsageError(f"cannot write {out.name!r}: the adjudication list is .xlsx or .csv")
     refuse_overwriting_inputs([out], [*collect_files(data), codebook])
@@ -60,8 +69,9 @@ def adjudicate_command(
         errors_note="count as blank here; fix the sheets, then run adjudicate again (decisions "
         "are kept)",
     )
+    settling = Settling(rule, parse_tolerances(tolerance or [], codings.codebook))
     previous = out if out.exists() else None
-    adjudication = build_adjudication(codings, previous)
+    adjudication = build_adjudication(codings, previous, settling)
     write_adjudication(adjudication, out)
     sheet = None if out.suffix.lower() == ".csv" else MAIN_SHEET
     problems = Problems(
@@ -95,7 +105,7 @@ def adjudicate_command(
         f"({adjudication.added} new, {adjudication.kept} kept from the earlier list), "
         f"{decided} decided, {len(adjudication.rows) - decided} open; "
         f"{adjudication.moved} moved to 'no longer needed' "
-        f"({len(adjudication.retired)} there in all)."
+        f"({len(adjudication.retired)} there in all); rule: {settling.describe()}."
     )
     if problems.errors:
         say("[red]some decisions are not valid codes; fix the cells listed above[/red]")

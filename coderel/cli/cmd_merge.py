@@ -9,6 +9,7 @@ import typer
 from rich.table import Table
 
 from coderel.adjudicate import read_decisions
+from coderel.adjudicate.rules import Settling, parse_tolerances
 from coderel.audit import append_audit, audit_path
 from coderel.cli.app import app
 from coderel.cli.common import (
@@ -17,6 +18,7 @@ from coderel.cli.common import (
     DecisionsOption,
     JsonOption,
     RuleOption,
+    ToleranceOption,
     emit_json,
     err_console,
     handle_errors,
@@ -44,6 +46,7 @@ def merge_command(
     out: Annotated[Path, typer.Option("--out", "-o", help="The dataset: .csv, .xlsx or .parquet.")],
     decisions: DecisionsOption = None,
     rule: RuleOption = "unanimous",
+    tolerance: ToleranceOption = None,
     strict: Annotated[
         bool,
         typer.Option("--strict", help="Any unresolved cell is an error: exit 1, nothing written."),
@@ -68,7 +71,8 @@ def merge_command(
     )
     cb = codings.codebook
     loaded = read_decisions(decisions, cb) if decisions is not None else None
-    result = merge(codings, loaded, rule=rule)
+    tolerances = parse_tolerances(tolerance or [], cb)
+    result = merge(codings, loaded, rule=rule, tolerance=tolerances)
     bad = Problems(result.problems.errors)
     written = False
     reason = None
@@ -99,7 +103,7 @@ def merge_command(
     counts = ", ".join(f"{totals[s]} {s}" for s in STATUSES if totals[s])
     say(
         f"{result.units} unit(s) x {len(cb.variables)} variable(s) = {result.cells} cell(s): "
-        f"{counts} (rule: {rule})."
+        f"{counts} (rule: {Settling(rule, tolerances).describe()})."
     )
     if not written:
         say(f"[red]nothing written: {reason}[/red]")

@@ -21,6 +21,7 @@ from coderel.cli.common import (
     ReplicatesOption,
     RuleOption,
     SeedOption,
+    ToleranceOption,
     delayed_progress,
     emit_json,
     handle_errors,
@@ -142,6 +143,7 @@ def report_command(
     ] = None,
     decisions: DecisionsOption = None,
     rule: RuleOption = "unanimous",
+    tolerance: ToleranceOption = None,
     replicates: ReplicatesOption = DEFAULT_REPLICATES,
     seed: SeedOption = DEFAULT_SEED,
     interval_method: IntervalOption = "bca",
@@ -166,6 +168,7 @@ def report_command(
     json_out: JsonOption = False,
 ) -> ExitCode:
     """The reliability report: summary, agreement table, charts, coders, methods paragraph."""
+    from coderel.adjudicate.rules import parse_tolerances
     from coderel.agree import agreement
     from coderel.codings import SourceFile
     from coderel.io.atomic import refuse_overwriting_inputs, sha256_file
@@ -194,6 +197,7 @@ def report_command(
     codings = read_project(codebook, data, errors_note="were left out")
     codings = attach_occasions(codings, occasion, codebook)
     cb = codings.codebook
+    tolerances = parse_tolerances(tolerance or [], cb)
     with delayed_progress("agreement per variable") as step:
         result = agreement(
             codings,
@@ -228,13 +232,14 @@ def report_command(
                 f"{len(read.problems)} problem(s) in the decisions file; those decisions were "
                 "left out; correct them in the adjudication list"
             )
-        merged = merge(codings, read, rule=rule)
+        merged = merge(codings, read, rule=rule, tolerance=tolerances)
         decisions_source = read.source or SourceFile(
             str(decisions), sha256_file(decisions), decisions.stat().st_size
         )
     options = [f"--replicates {replicates}", f"--seed {seed}", f"--interval {interval_method}"]
     if decisions is not None:
         options.append(f"--rule {rule}")
+        options.extend(f"--tolerance {n}={v:g}" for n, v in tolerances.items())
     options += [f"--occasion {spec}" for spec in occasion or []]
     if icc_ordinal:
         options.append("--icc-ordinal")

@@ -66,6 +66,15 @@ RuleOption = Annotated[
         "the unit agree.",
     ),
 ]
+ToleranceOption = Annotated[
+    list[str] | None,
+    typer.Option(
+        "--tolerance",
+        help="VARIABLE=NUMBER (repeatable): numbers of an interval or ratio variable that differ "
+        "by at most NUMBER count as agreeing for adjudication and merge (final value: their "
+        "median); agreement coefficients are unchanged.",
+    ),
+]
 DEFAULT_SEED = 20261202
 DEFAULT_REPLICATES = 2000
 

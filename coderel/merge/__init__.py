@@ -37,16 +37,16 @@ The package: ``result`` (statuses, rules, adjudicated cells), ``cells`` (decidin
 writing), ``tables`` (spread columns, labels, data dictionary).
 """
 
+from coderel.adjudicate.rules import RULES, Rule
 from coderel.merge.columns import output_columns, status_column, value_column
 from coderel.merge.core import MergeResult, merge, write_merged
 from coderel.merge.result import (
-    RULES,
+    SETTLED,
     SPREAD_SEPARATOR,
     STATUS_MEANINGS,
     STATUS_SUFFIX,
     STATUSES,
     AdjudicatedCell,
-    Rule,
     Status,
 )
 from coderel.merge.tables import (
@@ -66,6 +66,7 @@ __all__ = [
     "DICTIONARY_SHEET",
     "LABELS_SHEET",
     "RULES",
+    "SETTLED",
     "SPREAD_SEPARATOR",
     "STATUSES",
     "STATUS_MEANINGS",

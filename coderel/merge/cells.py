@@ -2,11 +2,11 @@
 
 from __future__ import annotations
 
-from collections import Counter
 from collections.abc import Mapping
 from typing import Any
 
-from coderel.adjudicate import NA_TOKEN, Decision, Token, classify
+from coderel.adjudicate import Decision, Token, classify
+from coderel.adjudicate.rules import Settling, settle
 from coderel.codebook import MULTI_SEPARATOR, Variable
 
 
@@ -22,35 +22,27 @@ def final_value(var: Variable, token: Token) -> Any:
     return value
 
 
-def _majority(tokens: Mapping[str, Token]) -> Token | None:
-    """The token more than half of the coders gave, if any and if it is not a blank."""
-    counts = Counter(tokens.values())
-    token, n = max(counts.items(), key=lambda item: item[1])
-    if 2 * n <= len(tokens) or token[0] == "blank":
-        return None
-    return token
-
-
 def decide_cell(
-    tokens: Mapping[str, Token], rule: str, decision: Decision | None
+    var: Variable,
+    tokens: Mapping[str, Token],
+    settling: Settling,
+    decision: Decision | None,
 ) -> tuple[str, Token | None, bool]:
-    """Status, final token and whether a decision was used, for one cell."""
+    """Status, final token and whether a decision was used, for one cell.
+
+    A decision settles a cell the coders disagree on; otherwise the rules of
+    :func:`coderel.adjudicate.rules.settle` (the same ones that choose the adjudication list's
+    rows) settle it, or it stays ``unresolved``.
+    """
     if not tokens:
         return "unresolved", None, False
-    kind = classify(tokens)
-    if decision is not None and kind is not None:
+    if decision is not None and classify(tokens) is not None:
         return "adjudicated", decision.token, True
-    distinct = set(tokens.values())
-    if distinct == {NA_TOKEN}:
-        return "not_applicable", None, False
-    if kind is None:
-        token = next(iter(distinct))
-        return ("single" if len(tokens) == 1 else "agreed"), token, False
-    if rule == "majority":
-        winner = _majority(tokens)
-        if winner is not None:
-            return "majority", winner, False
-    return "unresolved", None, False
+    settled = settle(var, tokens, settling)
+    if settled is None:
+        return "unresolved", None, False
+    status, token = settled
+    return status, (None if status == "not_applicable" else token), False
 
 
 def stale_reason(

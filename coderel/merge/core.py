@@ -20,12 +20,12 @@ from coderel.adjudicate import (
     read_decisions,
     sorted_units,
 )
+from coderel.adjudicate.rules import Rule, Settling
 from coderel.codebook import Codebook
 from coderel.codings import Codings, SourceFile
-from coderel.errors import UsageError
 from coderel.merge.cells import decide_cell, final_value, stale_reason
 from coderel.merge.columns import check_skip_logic, output_columns, status_column, value_column
-from coderel.merge.result import RULES, STATUSES, AdjudicatedCell, Rule
+from coderel.merge.result import STATUSES, AdjudicatedCell
 from coderel.merge.tables import (
     DATA_SHEET,
     DICTIONARY_SHEET,
@@ -71,6 +71,8 @@ class MergeResult:
     sources: tuple[SourceFile, ...] = ()
     decisions_source: SourceFile | None = None
     unresolved_values: tuple[Mapping[str, str], ...] = ()
+    #: variable -> tolerance (interval and ratio variables settled ``within_tolerance``)
+    tolerance: Mapping[str, float] = field(default_factory=dict)
 
     @property
     def units(self) -> int:
@@ -117,6 +119,11 @@ class MergeResult:
     def to_dict(self) -> dict[str, Any]:
         return {
             "rule": self.rule,
+            **{
+                k: v
+                for k, v in Settling(self.rule, self.tolerance).to_dict().items()
+                if k != "rule"
+            },
             "units": self.units,
             "variables": len(self.codebook.variables),
             "cells": self.cells,
@@ -134,6 +141,7 @@ def merge(
     codings: Codings,
     decisions: Decisions | str | os.PathLike[str] | None = None,
     rule: Rule = "unanimous",
+    tolerance: Mapping[str, float] | None = None,
 ) -> MergeResult:
     """Reconcile the coders' codings into one value per unit and variable.
 
@@ -146,6 +154,10 @@ def merge(
     rule
         ``"unanimous"``: a cell is settled when every coder agrees; ``"majority"``: also when more
         than half of the coders who coded the unit agree. A tie is left unresolved.
+    tolerance
+        variable -> largest difference between numbers that still counts as agreeing (interval
+        and ratio variables); such a cell is ``within_tolerance`` with the median of the numbers.
+        See :mod:`coderel.adjudicate.rules`; agreement coefficients never use it.
 
     Returns
     -------
@@ -157,8 +169,7 @@ def merge(
     Consensus by majority vote and adjudication of the remaining disagreements by a third person
     is the usual way of reconciling independent codings (common practice, no source).
     """
-    if rule not in RULES:
-        raise UsageError(f"rule must be one of {', '.join(RULES)}, not {rule!r}")
+    settling = Settling(rule, dict(tolerance or {}))
     cb = codings.codebook
     columns = output_columns(cb)
     if decisions is not None and not isinstance(decisions, Decisions):
@@ -213,7 +224,7 @@ def merge(
         for unit in units:
             tokens = tokens_by_cell.get((unit, var.name), {})
             decision = usable.get((unit, var.name))
-            status, token, used = decide_cell(tokens, rule, decision)
+            status, token, used = decide_cell(var, tokens, settling, decision)
             finals.append(token)
             values.append(None if token is None else final_value(var, token))
             statuses.append(status)
@@ -246,6 +257,7 @@ def merge(
     return MergeResult(
         frame=frame,
         rule=rule,
+        tolerance=dict(settling.tolerance),
         codebook=cb,
         coders=tuple(codings.coders),
         status_counts=status_counts,

@@ -6,16 +6,26 @@ from collections.abc import Mapping
 from dataclasses import dataclass
 from typing import Any, Literal, get_args
 
-Status = Literal["agreed", "majority", "adjudicated", "single", "unresolved", "not_applicable"]
+Status = Literal[
+    "agreed",
+    "within_tolerance",
+    "majority",
+    "adjudicated",
+    "single",
+    "unresolved",
+    "not_applicable",
+]
 STATUSES: tuple[str, ...] = get_args(Status)
-Rule = Literal["unanimous", "majority"]
-RULES: tuple[str, ...] = get_args(Rule)
+#: Statuses whose final value counts as settled.
+SETTLED: tuple[str, ...] = ("agreed", "within_tolerance", "majority", "adjudicated", "single")
 STATUS_SUFFIX = "_status"
 SPREAD_SEPARATOR = "__"
 
 #: What each status means, for the data dictionary and the documentation.
 STATUS_MEANINGS: dict[str, str] = {
     "agreed": "every coder who coded the unit gave this value",
+    "within_tolerance": "the coders' numbers lie within the variable's tolerance; the value is "
+    "their median",
     "majority": "more than half of the coders gave this value (rule 'majority')",
     "adjudicated": "an adjudicator's decision; empty means judged not applicable",
     "single": "only one coder coded the unit",

@@ -14,6 +14,7 @@ from typing import Any
 
 import pandas as pd
 
+from coderel.merge.result import SETTLED, STATUSES
 from coderel.report.blocks import ProtocolParts
 
 #: Coefficient keys of the engine in the order the report shows them, with display names.
@@ -39,16 +40,6 @@ COEFFICIENTS: dict[str, str] = {
     "ccc": "Lin's concordance ρc",
 }
 VERDICTS: tuple[str, ...] = ("reliable", "tentative", "unreliable", "too few units", "undefined")
-STATUSES: tuple[str, ...] = (
-    "agreed",
-    "majority",
-    "adjudicated",
-    "single",
-    "unresolved",
-    "not_applicable",
-)
-#: Statuses whose final value counts as settled for the coders' agreement with the final value.
-SETTLED: tuple[str, ...] = ("agreed", "majority", "adjudicated", "single")
 
 
 def number_or_none(value: Any) -> float | None:

@@ -476,6 +476,7 @@ def adjudication_frame(content: ReportContent) -> pd.DataFrame:
 
 STATUS_MEANING: dict[str, str] = {
     "agreed": "every coder gave the same value",
+    "within_tolerance": "the coders' numbers lie within the variable's tolerance (median kept)",
     "majority": "most coders agreed and the rule accepts a majority",
     "adjudicated": "an adjudicator decided",
     "single": "only one coder gave a value",
