@@ -71,6 +71,7 @@ def audit_record(
         "status_totals": result.totals(),
         "status_counts": {v: dict(c) for v, c in result.status_counts.items()},
         "unresolved": len(result.unresolved),
+        "stale_decisions": [dict(x) for x in result.stale],
         "adjudicated": [
             {
                 "unit": a.unit,

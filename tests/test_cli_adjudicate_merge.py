@@ -118,7 +118,7 @@ def test_decisions_kept_across_regeneration(project):
         ("R4", "species", None, "3 = Cougar"),
     ]
     header = [c.value for c in load_workbook(adj)["to decide"][1]]
-    letter = chr(ord("A") + header.index("decision"))
+    letter = chr(ord("A") + header.index("check"))  # the row is marked in its check cell
     assert [(p["code"], p["file"], p["cell"], p["severity"]) for p in second["problems"]] == [
         ("stale-decision", "adj.xlsx", f"{letter}2", "warning")
     ]

@@ -9,6 +9,7 @@ from collections.abc import Mapping, Sequence
 from coderel.adjudicate.decisions import hint, parse_decision
 from coderel.adjudicate.model import (
     MAIN_SHEET,
+    STALE_CHECK,
     Adjudication,
     AdjudicationRow,
     column_letter,
@@ -109,8 +110,10 @@ def build_adjudication(
         old = old_rows.get(row.key) or old_retired.get(row.key)
         if old is not None:
             kept += 1
+            check = old.check if old.to_check else None  # until the adjudicator clears it
             if old.decided and {c: v for c, v in old.values.items() if v} != dict(row.values):
                 changed.append(len(rows))
+                check = STALE_CHECK
             row = AdjudicationRow(
                 unit=row.unit,
                 variable=row.variable,
@@ -119,6 +122,7 @@ def build_adjudication(
                 decision=old.decision,
                 note=old.note,
                 adjudicator=old.adjudicator,
+                check=check,
             )
         else:
             added += 1
@@ -182,17 +186,22 @@ def _retired_reason(
 
 
 def _changed_since_decision(adjudication: Adjudication, indexes: Sequence[int]) -> Problems:
-    """``stale-decision`` warnings for kept decisions whose coders' values have changed."""
+    """``stale-decision`` warnings for kept decisions whose coders' values have changed.
+
+    The row is also marked in the list itself (its ``check`` cell), so the mark outlives this run:
+    ``merge`` does not use the decision until the adjudicator clears the cell.
+    """
     problems = Problems()
     headers = main_columns(adjudication.coders, adjudication.text_columns)
-    col = column_letter(headers.index("decision") + 1)
+    col = column_letter(headers.index("check") + 1)
     for i in indexes:
         row = adjudication.rows[i]
         problems.add(
             "stale-decision",
-            "the coders' values changed since this decision was made; it is kept, check it",
+            "the coders' values changed since this decision was made; it is kept and marked in "
+            "its 'check' cell, and merge does not use it until that cell is cleared",
             hint="read the coders' new values on the list; change the decision if it no longer "
-            "holds",
+            "holds, then clear the 'check' cell to confirm it",
             sheet=MAIN_SHEET,
             cell=f"{col}{i + 2}",
             unit=row.unit,

@@ -33,6 +33,9 @@ class Decision:
     #: the coders' values as shown on the list when the decision was made (coder -> text);
     #: ``None`` when unknown. A merge uses the decision only while they still hold.
     values: Mapping[str, str] | None = None
+    #: the list's ``check`` cell: filled while the decision waits to be re-confirmed (the coders'
+    #: values changed after it was made); ``merge`` does not use such a decision.
+    check: str | None = None
 
     def to_dict(self) -> dict[str, Any]:
         value = list(self.value) if isinstance(self.value, tuple) else self.value
@@ -43,6 +46,7 @@ class Decision:
             "adjudicator": self.adjudicator,
             "note": self.note,
             "cell": self.cell,
+            "check": self.check,
         }
 
 
@@ -170,6 +174,7 @@ class Decisions:
     def to_frame(self) -> pd.DataFrame:
         rows = [{"unit": u, "variable": v, **d.to_dict()} for (u, v), d in self.decisions.items()]
         cols = ["unit", "variable", "value", "state", "decision", "adjudicator", "note", "cell"]
+        cols.append("check")
         return pd.DataFrame(rows, columns=cols)
 
     def to_dict(self) -> dict[str, Any]:

@@ -28,11 +28,14 @@ FIXED_COLUMNS: tuple[str, ...] = (
     "decision",
     "note",
     "adjudicator",
+    "check",
     "key",
     "reason",
     "list",
 )
 KEY_SEPARATOR = "|"
+#: What the ``check`` column says on a row whose decision was made on other coders' values.
+STALE_CHECK = "coders' values changed since this decision: confirm it by clearing this cell"
 
 
 @dataclass(frozen=True)
@@ -47,6 +50,9 @@ class AdjudicationRow:
     note: str | None = None
     adjudicator: str | None = None
     reason: str | None = None
+    #: set while a decision waits to be re-confirmed (:data:`STALE_CHECK`); cleared by the
+    #: adjudicator. A decision with a check is not used by ``merge``.
+    check: str | None = None
 
     @property
     def key(self) -> str:
@@ -55,6 +61,11 @@ class AdjudicationRow:
     @property
     def decided(self) -> bool:
         return bool(self.decision and str(self.decision).strip())
+
+    @property
+    def to_check(self) -> bool:
+        """A decision waiting to be re-confirmed (its ``check`` cell is filled)."""
+        return self.decided and bool(self.check and str(self.check).strip())
 
     def to_dict(self) -> dict[str, Any]:
         return {
@@ -65,6 +76,7 @@ class AdjudicationRow:
             "decision": self.decision,
             "note": self.note,
             "adjudicator": self.adjudicator,
+            "check": self.check,
             "reason": self.reason,
         }
 
@@ -87,27 +99,30 @@ class Adjudication:
     settling: Settling = field(default_factory=Settling)
 
     def summary(self) -> pd.DataFrame:
-        """Per variable (codebook order): disagreements, decided, open, no longer needed.
+        """Per variable (codebook order): disagreements, decided, open, to check, no longer needed.
 
-        Only valid decisions count as decided; a cell with an invalid decision is still open.
+        Only valid decisions that are not waiting to be re-confirmed count as decided; a cell with
+        an invalid decision or a decision to check is still open (``to check`` counts the latter).
         """
         out = []
         for var in self.codebook.variables:
             rows = [r for r in self.rows if r.variable == var.name]
             # A decision that is not a valid value (a bad-decision problem) leaves the cell open.
-            decided = sum(r.decided and parse_decision(var, r.decision)[1] is None for r in rows)
+            valid = [r.decided and parse_decision(var, r.decision)[1] is None for r in rows]
+            check = sum(ok and r.to_check for ok, r in zip(valid, rows, strict=True))
+            decided = sum(valid) - check
             out.append(
                 {
                     "variable": var.name,
                     "disagreements": len(rows),
                     "decided": decided,
                     "open": len(rows) - decided,
+                    "to check": check,
                     "no longer needed": sum(r.variable == var.name for r in self.retired),
                 }
             )
-        return pd.DataFrame(
-            out, columns=["variable", "disagreements", "decided", "open", "no longer needed"]
-        )
+        columns = ["variable", "disagreements", "decided", "open", "to check", "no longer needed"]
+        return pd.DataFrame(out, columns=columns)
 
     def to_frame(self) -> pd.DataFrame:
         """The list as one table (both sheets; ``list`` tells which), without narrative text."""
@@ -122,6 +137,7 @@ class Adjudication:
             "disagreements": len(self.rows),
             "decided": int(summary["decided"].sum()),
             "open": int(summary["open"].sum()),
+            "to_check": int(summary["to check"].sum()),
             "no_longer_needed": len(self.retired),
             "kept": self.kept,
             "added": self.added,
@@ -148,6 +164,7 @@ def main_columns(coders: Sequence[str], text_columns: Sequence[str]) -> list[str
         "decision",
         "note",
         "adjudicator",
+        "check",
         "key",
     ]
 
@@ -178,6 +195,7 @@ def row_record(
         decision=row.decision,
         note=row.note,
         adjudicator=row.adjudicator,
+        check=row.check,
         reason=row.reason,
         key=row.key,
     )

@@ -179,6 +179,7 @@ def _rows_from(
                 note=get(row, "note"),
                 adjudicator=get(row, "adjudicator"),
                 reason=get(row, "reason"),
+                check=get(row, "check"),
             )
         )
     return out
@@ -293,6 +294,7 @@ def read_decisions(path: str | os.PathLike[str], codebook: Codebook) -> Decision
             adjudicator=_clean(get(row, "adjudicator")),
             note=_clean(get(row, "note")),
             cell=place["cell"],
+            check=_clean(get(row, "check")),
             values={c: (_clean(row[i]) or "") for i, c in coder_cols if i < len(row)},
         )
     source = SourceFile(str(path), sha256_file(path), path.stat().st_size)

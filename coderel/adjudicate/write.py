@@ -25,6 +25,8 @@ from coderel.adjudicate.tokens import NOT_APPLICABLE
 from coderel.codebook import Variable
 
 _GROUP_FILL = "EEF2F7"
+#: Fill of a decision waiting to be re-confirmed, and of its ``check`` cell (light amber).
+_CHECK_FILL = "FCE8B2"
 
 
 def _choices(var: Variable) -> list[str]:
@@ -78,9 +80,11 @@ def _write_workbook(adj: Adjudication, path: str | os.PathLike[str]) -> None:
     ws.append(headers)
     for cell in ws[1]:
         cell.font = Font(bold=True)
-    editable = {headers.index(n) + 1 for n in ("decision", "note", "adjudicator")}
+    editable = {headers.index(n) + 1 for n in ("decision", "note", "adjudicator", "check")}
     text_idx = {headers.index(c) + 1 for c in adj.text_columns}
     fill = PatternFill("solid", start_color=_GROUP_FILL, end_color=_GROUP_FILL)
+    check_fill = PatternFill("solid", start_color=_CHECK_FILL, end_color=_CHECK_FILL)
+    check_col, decision_col = headers.index("check") + 1, headers.index("decision") + 1
     shade, last_unit = False, None
     ranges: dict[str, list[str]] = {}
     dcol = column_letter(headers.index("decision") + 1)
@@ -97,9 +101,11 @@ def _write_workbook(adj: Adjudication, path: str | os.PathLike[str]) -> None:
                 cell.alignment = Alignment(wrap_text=True, vertical="top")
             if shade:
                 cell.fill = fill
+            if row.to_check and j in (check_col, decision_col):
+                cell.fill = check_fill
         ranges.setdefault(row.variable, []).append(f"{dcol}{i}")
     widths = {"unit": 12, "variable": 20, "kind": 14, "decision": 30, "note": 30}
-    widths.update({"adjudicator": 16, "key": 24})
+    widths.update({"adjudicator": 16, "check": 40, "key": 24})
     for j, h in enumerate(headers, start=1):
         default = 60 if j in text_idx else 26
         ws.column_dimensions[column_letter(j)].width = widths.get(h, default)
@@ -165,6 +171,8 @@ def _write_workbook(adj: Adjudication, path: str | os.PathLike[str]) -> None:
             ("how to decide", "fill 'decision' with a code, 'code = label', a label, "),
             ("", f"several codes as 1;3 (multi-select), a missing code, or {NOT_APPLICABLE!r}"),
             ("", "decisions are kept when the list is made again (matched by unit|variable)"),
+            ("", "a filled 'check' cell: the coders' values changed after the decision; merge"),
+            ("", "does not use it until you confirm (or change) the decision and clear 'check'"),
         ],
         columns=["item", "value"],
     )

@@ -45,6 +45,13 @@ def decide_cell(
     return status, (None if status == "not_applicable" else token), False
 
 
+#: Why a decision marked in its list's ``check`` cell is not used.
+MARKED = (
+    "it is marked for checking on the list (the coders' values changed after it was made); "
+    "it is used once its 'check' cell is cleared"
+)
+
+
 def stale_reason(
     decision: Decision, tokens: Mapping[str, Token], shown: Mapping[str, str], known_unit: bool
 ) -> str | None:
@@ -57,4 +64,6 @@ def stale_reason(
         recorded = {c: v for c, v in decision.values.items() if v}
         if recorded != dict(shown):
             return "the coders' values changed since the decision was made"
+    if decision.check:
+        return MARKED
     return None

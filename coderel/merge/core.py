@@ -23,7 +23,7 @@ from coderel.adjudicate import (
 from coderel.adjudicate.rules import Rule, Settling
 from coderel.codebook import Codebook
 from coderel.codings import Codings, SourceFile
-from coderel.merge.cells import decide_cell, final_value, stale_reason
+from coderel.merge.cells import MARKED, decide_cell, final_value, stale_reason
 from coderel.merge.columns import check_skip_logic, output_columns, status_column, value_column
 from coderel.merge.result import STATUSES, AdjudicatedCell
 from coderel.merge.tables import (
@@ -73,6 +73,9 @@ class MergeResult:
     unresolved_values: tuple[Mapping[str, str], ...] = ()
     #: variable -> tolerance (interval and ratio variables settled ``within_tolerance``)
     tolerance: Mapping[str, float] = field(default_factory=dict)
+    #: decisions not used because they do not match the current data or wait to be re-confirmed:
+    #: ``{"unit", "variable", "cell", "reason"}`` each (also ``stale-decision`` problems)
+    stale: tuple[Mapping[str, Any], ...] = ()
 
     @property
     def units(self) -> int:
@@ -132,6 +135,7 @@ class MergeResult:
             "status_counts": {v: dict(c) for v, c in self.status_counts.items()},
             "unresolved": self.unresolved_records(),
             "adjudicated": [a.to_dict() for a in self.adjudicated],
+            "stale_decisions": [dict(s) for s in self.stale],
             **self.problems.to_dict(),
         }
 
@@ -181,6 +185,7 @@ def merge(
     units = sorted_units(codings.units)
     unit_set = set(units)
     usable: dict[tuple[str, str], Decision] = {}
+    stale: list[dict[str, Any]] = []
     place = {}
     if decisions is not None and decisions.source is not None:
         place["file"] = Path(decisions.source.path).name
@@ -197,11 +202,18 @@ def merge(
         if reason is None:
             usable[(unit, name)] = decision
             continue
+        stale.append({"unit": unit, "variable": name, "cell": decision.cell, "reason": reason})
         problems.add(
             "stale-decision",
             f"the decision is not used: {reason}",
-            hint="run 'coderel adjudicate' again with the same output to update the list; "
-            "decisions are carried over by unit and variable",
+            hint=(
+                "check the decision against the coders' current values on the list, then clear "
+                "its 'check' cell"
+                if reason == MARKED
+                else "run 'coderel adjudicate' again with the same output to update the list; "
+                "decisions are carried over by unit and variable (a changed one is marked there "
+                "for checking)"
+            ),
             unit=unit,
             variable=name,
             cell=decision.cell,
@@ -258,6 +270,7 @@ def merge(
         frame=frame,
         rule=rule,
         tolerance=dict(settling.tolerance),
+        stale=tuple(stale),
         codebook=cb,
         coders=tuple(codings.coders),
         status_counts=status_counts,
