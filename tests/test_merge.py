@@ -92,24 +92,21 @@ def test_statuses_under_unanimous_rule():
         }
     )
     r = merge(c)
-    assert list(r.frame.columns) == [
-        "report_id",
-        "species",
-        "species_status",
-        "actions",
-        "actions_status",
-        "spray_worked",
-        "spray_worked_status",
-        "distance_m",
-        "distance_m_status",
-    ]
+    # a variable with missing codes gets <variable>_missing (issue 9, item 8)
+    missing = {v.name for v in CB.variables if v.missing_codes}
+    expected = ["report_id"]
+    for name in ("species", "actions", "spray_worked", "distance_m"):
+        expected += [name, f"{name}_status"] + ([f"{name}_missing"] if name in missing else [])
+    assert list(r.frame.columns) == expected
     assert status(r, "R1", "species") == ("agreed", 1)
     assert status(r, "R1", "actions") == ("agreed", "1;3")
     assert status(r, "R1", "spray_worked")[0] == "unresolved"
     assert pd.isna(status(r, "R1", "spray_worked")[1])
     # a missing code against a code is a disagreement; two missing codes agree
     assert status(r, "R2", "species")[0] == "unresolved"
-    assert status(r, "R2", "distance_m") == ("agreed", 999)
+    assert status(r, "R2", "distance_m")[0] == "agreed"
+    assert pd.isna(status(r, "R2", "distance_m")[1])  # a missing code is a missing value
+    assert r.frame.set_index("report_id").loc["R2", "distance_m_missing"] == 999
     assert status(r, "R2", "spray_worked")[0] == "not_applicable"
     assert status(r, "R3", "species") == ("single", 2)
     assert r.unresolved == (("R1", "spray_worked"), ("R2", "species"))
@@ -270,11 +267,12 @@ def test_spread_gives_zero_one_columns():
     )
     frame = spread_multiselect(merge(c).frame, CB)
     cols = list(frame.columns)
-    at = cols.index("actions_status")
+    at = cols.index("actions_missing")
     assert cols[at + 1 : at + 4] == ["actions__1", "actions__2", "actions__3"]
     by_unit = frame.set_index("report_id")
     assert by_unit.loc["R1", ["actions__1", "actions__2", "actions__3"]].tolist() == [1, 0, 1]
-    assert by_unit.loc["R2", "actions"] == "99"
+    assert pd.isna(by_unit.loc["R2", "actions"])
+    assert by_unit.loc["R2", "actions_missing"] == 99
     assert by_unit.loc[["R2", "R3"], "actions__1"].isna().all()  # missing code, unresolved
 
 
@@ -307,7 +305,8 @@ def test_xlsx_labels_and_dictionary(tmp_path):
     assert row["species"] == "Cougar"
     assert row["actions"] == "Backed away; Spray"
     assert row["spray_worked"] == "No"
-    assert row["distance_m"] == "cannot be coded"
+    assert row["distance_m"] is None
+    assert row["distance_m_missing"] == "cannot be coded"
     assert row["actions__3"] == 1
     dictionary = pd.DataFrame(wb["dictionary"].values)
     dictionary.columns = dictionary.iloc[0]
@@ -369,7 +368,7 @@ def test_audit_log_appends_one_line_per_merge_without_narrative(tmp_path):
     assert record["time"][:10] not in out.read_text()  # the time lives in the log only
 
 
-def test_mixed_number_and_text_codes_stored_as_text(tmp_path):
+def test_text_missing_code_beside_number_codes(tmp_path):
     cb = Codebook(
         title="mixed codes (invented)",
         variables=(
@@ -388,10 +387,14 @@ def test_mixed_number_and_text_codes_stored_as_text(tmp_path):
         {"unit": "R2", "coder": "bob", "variable": "light", "value": None, "missing": "unknown"},
     ]
     r = merge(Codings.from_records(cb, recs))
-    assert r.frame["light"].tolist() == ["1", "unknown"]
+    # the missing code goes to light_missing (text, as the codebook's missing code is text)
+    assert r.frame["light"].isna().tolist() == [False, True]
+    assert r.frame["light"].iloc[0] == 1
+    assert r.frame["light_missing"].isna().tolist() == [True, False]
+    assert r.frame["light_missing"].iloc[1] == "unknown"
     assert r.frame["light_status"].tolist() == ["agreed", "agreed"]
     write_merged(r, tmp_path / "m.parquet")
-    assert pd.read_parquet(tmp_path / "m.parquet")["light"].tolist() == ["1", "unknown"]
+    assert pd.read_parquet(tmp_path / "m.parquet")["light_missing"].iloc[1] == "unknown"
 
 
 @settings(max_examples=40, deadline=None)

@@ -27,10 +27,12 @@ list.
 
 Value columns hold codes exactly as in the codebook: whole-number codes as a nullable integer
 column, text codes as text (a variable mixing number and text codes as text throughout), numbers
-of interval and ratio variables as floats (whole numbers for ``integer`` variables), missing codes
-as they are. A multi-select value is its codes joined with
-``;`` in codebook order (``1;3``) in every form, csv, xlsx and parquet alike; :func:`spread` adds
-one 0/1 column ``<variable>__<code>`` per category.
+of interval and ratio variables as floats (whole numbers for ``integer`` variables). A missing
+code is never a value: the value column is empty (a true missing value, so that a mean cannot
+include ``999``) and the code, with its meaning kept, goes to the column ``<variable>_missing``,
+which every variable with missing codes in its codebook gets, right after its status column. A
+multi-select value is its codes joined with ``;`` in codebook order (``1;3``) in every form, csv,
+xlsx and parquet alike; :func:`spread` adds one 0/1 column ``<variable>__<code>`` per category.
 
 The package: ``result`` (statuses, rules, adjudicated cells), ``cells`` (deciding one cell),
 ``columns`` (value and status columns, the skip-logic check), ``core`` (:func:`merge`, the result,
@@ -38,7 +40,7 @@ writing), ``tables`` (spread columns, labels, data dictionary).
 """
 
 from coderel.adjudicate.rules import RULES, Rule
-from coderel.merge.columns import output_columns, status_column, value_column
+from coderel.merge.columns import missing_column, output_columns, status_column, value_column
 from coderel.merge.core import MergeResult, merge, write_merged
 from coderel.merge.result import (
     SETTLED,
@@ -78,6 +80,7 @@ __all__ = [
     "dictionary_frame",
     "labels_frame",
     "merge",
+    "missing_column",
     "output_columns",
     "spread_column",
     "spread_multiselect",

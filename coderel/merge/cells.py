@@ -11,15 +11,19 @@ from coderel.codebook import MULTI_SEPARATOR, Variable
 
 
 def final_value(var: Variable, token: Token) -> Any:
-    """The value a token puts into the dataset (``None`` for not applicable or blank)."""
+    """The value a token puts into the value column: ``None`` for not applicable, blank and a
+    missing code (its code goes to the ``<variable>_missing`` column, see :func:`final_missing`)."""
     kind, value = token
-    if kind in ("na", "blank"):
+    if kind in ("na", "blank", "missing"):
         return None
-    if kind == "value" and var.multiple:
+    if var.multiple:
         return MULTI_SEPARATOR.join(str(c) for c in value)
-    if kind == "missing" and var.multiple:
-        return str(value)
     return value
+
+
+def final_missing(token: Token | None) -> Any:
+    """The missing code a final token holds, else ``None``."""
+    return token[1] if token is not None and token[0] == "missing" else None
 
 
 def decide_cell(

@@ -11,7 +11,7 @@ from coderel.adjudicate import Token
 from coderel.codebook import Codebook, Variable
 from coderel.codings import condition_holds
 from coderel.errors import UsageError
-from coderel.merge.result import STATUS_SUFFIX
+from coderel.merge.result import MISSING_SUFFIX, STATUS_SUFFIX
 from coderel.problems import Problems
 
 
@@ -34,15 +34,36 @@ def status_column(name: str) -> str:
     return f"{name}{STATUS_SUFFIX}"
 
 
+def missing_column(name: str) -> str:
+    """``distance_m_missing``: the missing code of a cell whose final value is missing."""
+    return f"{name}{MISSING_SUFFIX}"
+
+
+def has_missing_column(var: Variable) -> bool:
+    """Variables whose codebook lists missing codes get a ``<variable>_missing`` column."""
+    return bool(var.missing_codes)
+
+
+def missing_codes_column(var: Variable, codes: Sequence[Any]) -> pd.Series:
+    """The missing codes of a variable's cells (empty where the value is not missing), typed by
+    the codebook's missing codes alone: whole numbers as a nullable integer column, else text."""
+    if all(isinstance(c, int) and not isinstance(c, bool) for c in var.missing_codes):
+        return pd.Series([None if c is None else int(c) for c in codes], dtype="Int64")
+    return pd.Series([None if c is None else str(c) for c in codes], dtype=object)
+
+
 def output_columns(codebook: Codebook) -> list[str]:
-    """Columns of the dataset: unit column, then value and status column per variable."""
+    """Columns of the dataset: unit column, then value and status column per variable, and
+    ``<variable>_missing`` for variables with missing codes."""
     cols = [codebook.unit]
     for var in codebook.variables:
         cols += [var.name, status_column(var.name)]
+        if has_missing_column(var):
+            cols.append(missing_column(var.name))
     if len(set(cols)) != len(cols):
         raise UsageError(
-            "a status column '<variable>_status' clashes with a variable or the unit column; "
-            "rename the variable in the codebook"
+            "a column '<variable>_status' or '<variable>_missing' clashes with a variable or the "
+            "unit column; rename the variable in the codebook"
         )
     return cols
 

@@ -23,8 +23,16 @@ from coderel.adjudicate import (
 from coderel.adjudicate.rules import Rule, Settling
 from coderel.codebook import Codebook
 from coderel.codings import Codings, SourceFile
-from coderel.merge.cells import MARKED, decide_cell, final_value, stale_reason
-from coderel.merge.columns import check_skip_logic, output_columns, status_column, value_column
+from coderel.merge.cells import MARKED, decide_cell, final_missing, final_value, stale_reason
+from coderel.merge.columns import (
+    check_skip_logic,
+    has_missing_column,
+    missing_codes_column,
+    missing_column,
+    output_columns,
+    status_column,
+    value_column,
+)
 from coderel.merge.result import STATUSES, AdjudicatedCell
 from coderel.merge.tables import (
     DATA_SHEET,
@@ -230,6 +238,7 @@ def merge(
     tokens_by_var: dict[str, list[Token | None]] = {}
     for var in cb.variables:
         values: list[Any] = []
+        missing: list[Any] = []
         statuses: list[str] = []
         finals: list[Token | None] = []
         tokens_by_var[var.name] = finals
@@ -239,6 +248,7 @@ def merge(
             status, token, used = decide_cell(var, tokens, settling, decision)
             finals.append(token)
             values.append(None if token is None else final_value(var, token))
+            missing.append(final_missing(token))
             statuses.append(status)
             if used and decision is not None:
                 adjudicated.append(
@@ -247,7 +257,7 @@ def merge(
                         variable=var.name,
                         values={c: display_token(var, t) for c, t in tokens.items()},
                         decision=decision.text,
-                        value=values[-1],
+                        value=values[-1] if missing[-1] is None else missing[-1],
                         adjudicator=decision.adjudicator,
                         note=decision.note,
                         cell=decision.cell,
@@ -255,6 +265,8 @@ def merge(
                 )
         data[var.name] = value_column(var, values)
         data[status_column(var.name)] = pd.Series(statuses, dtype=object)
+        if has_missing_column(var):
+            data[missing_column(var.name)] = missing_codes_column(var, missing)
         counts = Counter(statuses)
         status_counts[var.name] = {s: counts.get(s, 0) for s in STATUSES}
         statuses_by_var[var.name] = statuses

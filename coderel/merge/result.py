@@ -19,6 +19,7 @@ STATUSES: tuple[str, ...] = get_args(Status)
 #: Statuses whose final value counts as settled.
 SETTLED: tuple[str, ...] = ("agreed", "within_tolerance", "majority", "adjudicated", "single")
 STATUS_SUFFIX = "_status"
+MISSING_SUFFIX = "_missing"
 SPREAD_SEPARATOR = "__"
 
 #: What each status means, for the data dictionary and the documentation.

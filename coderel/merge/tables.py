@@ -7,7 +7,7 @@ from typing import Any
 import pandas as pd
 
 from coderel.codebook import MULTI_SEPARATOR, Codebook, Variable
-from coderel.merge.columns import status_column
+from coderel.merge.columns import has_missing_column, missing_column, status_column
 from coderel.merge.result import SPREAD_SEPARATOR, STATUS_MEANINGS, STATUSES
 
 #: Sheets of the xlsx form of the dataset.
@@ -24,8 +24,8 @@ def spread_column(name: str, code: Any) -> str:
 def spread_multiselect(frame: pd.DataFrame, codebook: Codebook) -> pd.DataFrame:
     """Add one 0/1 column ``<variable>__<code>`` per category of every multi-select variable.
 
-    The columns follow the variable's status column. They are empty where the value is empty
-    (unresolved, not applicable) or a missing code.
+    The columns follow the variable's status column (and its ``_missing`` column). They are empty
+    where the value is empty (unresolved, not applicable, a missing code).
     """
     out = frame.copy()
     for var in codebook.variables:
@@ -41,7 +41,9 @@ def spread_multiselect(frame: pd.DataFrame, codebook: Codebook) -> pd.DataFrame:
                 chosen.append(None)
             else:
                 chosen.append(parts)
-        position = out.columns.get_loc(status_column(var.name)) + 1
+        last = missing_column(var.name)
+        last = last if last in out.columns else status_column(var.name)
+        position = out.columns.get_loc(last) + 1
         for offset, code in enumerate(var.codes):
             flags = [None if c is None else int(str(code) in c) for c in chosen]
             out.insert(position + offset, spread_column(var.name, code), pd.array(flags, "Int64"))
@@ -72,7 +74,19 @@ def labels_frame(frame: pd.DataFrame, codebook: Codebook) -> pd.DataFrame:
             out[var.name] = pd.Series(
                 [_label(var, v) for v in out[var.name].astype(object)], dtype=object
             )
+        name = missing_column(var.name)
+        if name in out.columns:
+            out[name] = pd.Series(
+                [_missing_label(var, v) for v in out[name].astype(object)], dtype=object
+            )
     return out
+
+
+def _missing_label(var: Variable, code: Any) -> Any:
+    if code is None or code is pd.NA or (isinstance(code, float) and code != code):
+        return None
+    known = next((c for c in var.missing_codes if str(c) == str(code)), code)
+    return var.label_of(known) or str(code)
 
 
 DICTIONARY_COLUMNS = ["column", "variable", "label", "level", "code", "meaning", "notes"]
@@ -107,15 +121,36 @@ def dictionary_frame(codebook: Codebook, *, spread: bool = False) -> pd.DataFram
         rows.append({**base, "code": "", "meaning": "", "notes": "; ".join(notes)})
         for cat in var.categories:
             rows.append({**base, "code": str(cat.code), "meaning": cat.label, "notes": "category"})
-        for miss in var.missing:
-            rows.append(
-                {**base, "code": str(miss.code), "meaning": miss.label, "notes": "missing code"}
-            )
         status = {"column": status_column(var.name), "variable": var.name, "label": "status"}
         for s in STATUSES:
             rows.append(
                 {**status, "level": "", "code": s, "meaning": STATUS_MEANINGS[s], "notes": ""}
             )
+        if has_missing_column(var):
+            miss_base = {
+                "column": missing_column(var.name),
+                "variable": var.name,
+                "label": f"{var.title}: missing code",
+                "level": "",
+            }
+            rows.append(
+                {
+                    **miss_base,
+                    "code": "",
+                    "meaning": "",
+                    "notes": f"the missing code where {var.name} is missing (its value column "
+                    "is then empty); empty otherwise",
+                }
+            )
+            for miss in var.missing:
+                rows.append(
+                    {
+                        **miss_base,
+                        "code": str(miss.code),
+                        "meaning": miss.label,
+                        "notes": "missing code",
+                    }
+                )
         if spread and var.multiple:
             for cat in var.categories:
                 rows.append(
