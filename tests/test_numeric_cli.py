@@ -380,3 +380,45 @@ def test_left_out_units_are_named():
     v = agreement(_tiny(records), replicates=0).variable("x")
     assert v.numeric.icc.units_left_out == 2
     assert v.to_dict()["icc"]["left_out_units"] == ["u3", "u7"]
+
+
+def test_occasion_dates_from_a_workbook(tmp_path):
+    """Dates typed as spreadsheet dates in the occasion column give the days between."""
+    import datetime as dt
+
+    wb = openpyxl.Workbook()
+    ws = wb.active
+    ws.append(["unit", "coder", "variable", "value", "occasion"])
+    for u in range(12):
+        ws.append([f"u{u}", "a", "x", u, dt.datetime(2026, 3, 3)])
+        ws.append([f"u{u}", "a", "x", u + (u % 3 == 0), dt.datetime(2026, 3, 24)])
+        ws.append([f"u{u}", "b", "x", u + 1, None])
+    path = tmp_path / "long.xlsx"
+    wb.save(path)
+    cbf = _write(
+        tmp_path, "cb.yaml", "title: t\nunit: unit\nvariables:\n  - name: x\n    level: ratio\n"
+    )
+    codings = read_codings(load_codebook(cbf), [path])
+    assert sorted(codings.coders) == ["a", "b"]
+    result = stability(codings, replicates=0)
+    (a,) = result.coders
+    assert (a.first_occasion, a.second_occasion, a.days) == ("2026-03-03", "2026-03-24", 21)
+    assert a.common_units == 12
+
+
+def test_occasion_file_with_other_coders_only(tiny_project, tmp_path):
+    cbf, one, _ = tiny_project
+    two = _write(tmp_path, "two.csv", "unit,coder,variable,value\nu1,x,x,3\nu1,y,x,4\n")
+    res = CliRunner().invoke(app, ["stability", "-c", str(cbf), str(one), "--occasion", f"a={two}"])
+    assert res.exit_code == 2
+    assert "none of them 'a'" in res.output
+
+
+def test_methods_paragraph_says_what_was_recoded():
+    codings = read_codings(load_codebook(CB), [RETEST])
+    from coderel.report import build_report
+
+    result = agreement(codings, replicates=0)
+    content = build_report(codings, result, stability=stability(codings, replicates=0))
+    assert "coder_ana recoded 40 units after 14 days" in content.methods.paragraph
+    assert "Stability (intra-coder, test-retest reliability" in content.methods.paragraph

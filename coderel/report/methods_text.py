@@ -236,8 +236,13 @@ def methods_text(
             "Intercoder reliability could not be assessed: it needs at least two coders coding "
             "the same units."
         )
+        # Stability (one coder against their own recoding) needs no second coder.
+        s.extend(extra[0])
+        keys = sorted(set(extra[1]), key=REFERENCES_ORDER.index)
         return MethodsText(
-            paragraph=" ".join(s), references=(), cautions=_cautions(common_thresholds(rows))
+            paragraph=" ".join(s),
+            references=tuple(REFERENCES[k] for k in keys),
+            cautions=_cautions(common_thresholds(rows)),
         )
     s.append(
         "Intercoder reliability was assessed per variable with Krippendorff's alpha "
