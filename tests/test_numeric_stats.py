@@ -244,6 +244,19 @@ def test_ccc_special_cases():
     assert concordance(np.array([1.0]), np.array([2.0])).estimate is None
 
 
+def test_ccc_one_coder_constant():
+    """A coder who gave one value throughout: rho_c = 0 (no covariance), no interval, no warning
+    (the test suite turns warnings into errors)."""
+    x = np.array([3.0, 3.0, 3.0, 3.0])
+    y = np.array([3.0, 4.0, 3.0, 9.0])
+    c = concordance(x, y)
+    assert c.estimate == pytest.approx(0.0)
+    assert c.ci_z is None
+    # Centred, a constant 0.3 leaves a variance of about -1e-17 from rounding: still 0.
+    x = np.full(7, 0.3)
+    assert concordance(x, x + np.array([0, 0.1, 0, 0.1, 0, 0, 0.2])).estimate == pytest.approx(0)
+
+
 def test_ccc_z_standard_error_matches_simulation():
     """Lin's (1989) asymptotic SE of Z = arctanh(rho_c) against the spread of Z over simulated
     bivariate normal samples with a location shift and unequal scales."""

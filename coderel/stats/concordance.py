@@ -66,8 +66,9 @@ def moments(sums: np.ndarray) -> Moments:
         n=n,
         mean_x=mx,
         mean_y=my,
-        var_x=s[:, _XX] / safe - mx**2,
-        var_y=s[:, _YY] / safe - my**2,
+        # Rounding can leave a zero variance a hair below 0; it is 0.
+        var_x=np.maximum(s[:, _XX] / safe - mx**2, 0.0),
+        var_y=np.maximum(s[:, _YY] / safe - my**2, 0.0),
         cov=s[:, _XY] / safe - mx * my,
     )
 
