@@ -137,9 +137,6 @@ def test_whole_numbers_round_half_to_even():
     assert settle(var, tokens, Settling(tolerance={"visitors": 1.0}))[1] == ("value", 2.0)
 
 
-# three units are too few for the numeric coefficients' intervals (a sqrt of a negative variance
-# estimate warns inside them); that is not what this test is about
-@pytest.mark.filterwarnings("ignore::RuntimeWarning")
 def test_agreement_does_not_depend_on_the_rule():
     codings = codings_of(DATA)
     before = agreement(codings, replicates=0).to_dict()
