@@ -1,16 +1,19 @@
 """coderel: reliability of coded narrative data, from codebook to reconciled dataset and report."""
 
 from coderel._version import __version__
-from coderel.codebook import Codebook, Variable
-from coderel.codings import Codings
-from coderel.problems import Problem, Problems
 
-__all__ = ["Codebook", "Codings", "Problem", "Problems", "Variable", "__version__"]
+__all__ = ["__version__"]
 
-# The rest of the public API is imported on first use, so that ``import coderel`` stays light.
+# The public API is imported on first use, so that ``import coderel`` (and ``coderel --help``)
+# stays light: pandas, pyarrow and openpyxl load only when a command needs them.
 # Names differ from their modules' names (``coderel.merge`` is a module; its function is exported
 # as ``merge_codings``) so that importing a submodule never shadows a function.
 _LAZY: dict[str, tuple[str, str]] = {
+    "Codebook": ("coderel.codebook", "Codebook"),
+    "Variable": ("coderel.codebook", "Variable"),
+    "Codings": ("coderel.codings", "Codings"),
+    "Problem": ("coderel.problems", "Problem"),
+    "Problems": ("coderel.problems", "Problems"),
     "load_codebook": ("coderel.codebook.load", "load_codebook"),
     "read_codings": ("coderel.io.read", "read_codings"),
     "validate_files": ("coderel.validate", "validate"),

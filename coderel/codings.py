@@ -34,11 +34,13 @@ column, text) and never appear in messages or logs.
 
 from __future__ import annotations
 
+import contextlib
 import re
 from collections.abc import Iterable, Sequence
 from dataclasses import dataclass, field
 from typing import Any
 
+import numpy as np
 import pandas as pd
 
 from coderel.codebook import Codebook, Variable
@@ -133,9 +135,7 @@ class Codings:
         # Object Series with an explicit dtype keep ``None`` as ``None`` (a plain list of numbers
         # and ``None`` would be inferred as float with NaN).
         for col in ("value", "missing"):
-            frame[col] = pd.Series(
-                [None if _is_na(v) else v for v in frame[col]], index=frame.index, dtype=object
-            )
+            frame[col] = pd.Series(_none_for_na(frame[col]), index=frame.index, dtype=object)
         if "applies" not in frame.columns:
             frame["applies"] = pd.Series(
                 applicability(codebook, frame), index=frame.index, dtype=object
@@ -196,35 +196,55 @@ def condition_holds(condition_variable: Variable, value: Any, includes: Sequence
     return value in includes
 
 
+def _none_for_na(column: pd.Series) -> np.ndarray:
+    """The column as an object array with ``None`` wherever pandas sees a missing value (None,
+    NaN, ``pd.NA``, ``NaT``), with no loop over rows."""
+    values = column.to_numpy(dtype=object, copy=True)
+    values[pd.isna(values)] = None
+    return values
+
+
 def applicability(codebook: Codebook, frame: pd.DataFrame) -> list[object]:
     """Evaluate every row's ``applies_when`` on the same coder's value of the condition variable.
 
     Returns ``True``/``False`` per row, ``None`` where the condition variable is blank or missing
-    for that coder and unit, and ``True`` for variables without a condition.
+    for that coder and unit, and ``True`` for variables without a condition. Works on whole
+    columns: the condition is evaluated once per distinct value of the condition variable.
     """
+    names = frame["variable"].to_numpy(dtype=object)
+    out = np.full(len(names), None, dtype=object)
+    out[pd.Series(names, dtype=object).isin(codebook.names).to_numpy()] = True
     conditions = {v.name: v.applies_when for v in codebook.variables if v.applies_when}
-    if not conditions:
-        return [True if name in codebook else None for name in frame["variable"]]
-    needed = {c.variable for c in conditions.values()}
-    lookup: dict[tuple[str, str, str], Any] = {
-        (u, c, v): val
-        for u, c, v, val in zip(
-            frame["unit"], frame["coder"], frame["variable"], frame["value"], strict=True
+    for name, cond in conditions.items():
+        rows = np.flatnonzero(names == name)
+        if not len(rows):
+            continue
+        source = frame.loc[names == cond.variable, ["unit", "coder", "value"]]
+        source = source.drop_duplicates(["unit", "coder"], keep="last")
+        lookup = pd.Series(
+            source["value"].to_numpy(dtype=object),
+            index=pd.MultiIndex.from_arrays([source["unit"], source["coder"]]),
+            dtype=object,
         )
-        if v in needed
-    }
-    out: list[object] = []
-    for unit, coder, name in zip(frame["unit"], frame["coder"], frame["variable"], strict=True):
-        if name not in codebook:
-            out.append(None)
-            continue
-        cond = conditions.get(name)
-        if cond is None:
-            out.append(True)
-            continue
-        value = lookup.get((unit, coder, cond.variable))
-        if value is None or _is_na(value):
-            out.append(None)
-            continue
-        out.append(condition_holds(codebook.variable(cond.variable), value, cond.includes))
-    return out
+        keys = pd.MultiIndex.from_arrays(
+            [frame["unit"].to_numpy()[rows], frame["coder"].to_numpy()[rows]]
+        )
+        given = lookup.reindex(keys).to_numpy(dtype=object) if len(lookup) else None
+        result = np.full(len(rows), None, dtype=object)
+        if given is not None:
+            condition_variable = codebook.variable(cond.variable)
+            holds: dict[Any, object] = {}
+            for i, value in enumerate(given):
+                if value is None or _is_na(value):
+                    continue
+                try:
+                    hit = holds.get(value)
+                except TypeError:  # unhashable
+                    hit = None
+                if hit is None:
+                    hit = condition_holds(condition_variable, value, cond.includes)
+                    with contextlib.suppress(TypeError):
+                        holds[value] = hit
+                result[i] = hit
+        out[rows] = result
+    return list(out)

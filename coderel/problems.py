@@ -10,9 +10,10 @@ from __future__ import annotations
 
 from collections.abc import Iterable, Iterator
 from dataclasses import asdict, dataclass, fields
-from typing import Any, Literal
+from typing import TYPE_CHECKING, Any, Literal
 
-import pandas as pd
+if TYPE_CHECKING:
+    import pandas as pd
 
 Severity = Literal["error", "warning"]
 
@@ -214,6 +215,8 @@ class Problems:
         return {"problems": [p.to_dict() for p in self._items]}
 
     def to_frame(self) -> pd.DataFrame:
+        import pandas as pd
+
         return pd.DataFrame([p.to_dict() for p in self._items], columns=PROBLEM_COLUMNS)
 
     def __repr__(self) -> str:

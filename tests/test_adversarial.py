@@ -542,7 +542,7 @@ def test_out_of_memory_bootstrap_is_a_usage_error(tmp_path, monkeypatch):
     def no_memory(*_args, **_kwargs):
         raise MemoryError
 
-    monkeypatch.setattr(coderel.agree.driver, "unit_weights", no_memory)
+    monkeypatch.setattr(coderel.agree.driver, "make_weights", no_memory)
     cb = _write_codebook(tmp_path)
     data = _sheets(tmp_path, {"ana": [("u1", "pos", 0)], "ben": [("u1", "neg", 0)]})
     result = runner.invoke(app, ["agree", "-c", str(cb), str(data), "--replicates", "2000000"])

@@ -1,5 +1,5 @@
 """The :func:`agreement` driver: checks the bootstrap settings, builds every variable's matrix,
-draws ONE seeded matrix of unit weights and evaluates every coefficient over it."""
+makes ONE seeded set of unit weights and evaluates every coefficient over it."""
 
 from __future__ import annotations
 
@@ -15,12 +15,14 @@ from coderel.agree.results import AgreementResult
 from coderel.agree.variable_row import variable_row
 from coderel.codings import Codings
 from coderel.errors import UsageError
-from coderel.stats.bootstrap import evaluate_plans, unit_weights
+from coderel.stats.bootstrap import DEFAULT_MEMORY, SCHEMES, evaluate_plans, make_weights
 from coderel.stats.intervals import INTERVAL_METHODS
 from coderel.stats.plan import build_plan
 
 
-def check_settings(replicates: Any, seed: Any, ci_level: Any, interval_method: Any) -> None:
+def check_settings(
+    replicates: Any, seed: Any, ci_level: Any, interval_method: Any, scheme: Any = "poisson"
+) -> None:
     """Refuse bootstrap settings that would give no interval, a wrong one, or a numpy error."""
     if isinstance(replicates, bool) or not isinstance(replicates, int | np.integer):
         raise UsageError(f"replicates must be a whole number, not {replicates!r}")
@@ -36,6 +38,8 @@ def check_settings(replicates: Any, seed: Any, ci_level: Any, interval_method: A
         raise UsageError(
             f"interval_method must be one of {', '.join(INTERVAL_METHODS)}, not {interval_method!r}"
         )
+    if scheme not in SCHEMES:
+        raise UsageError(f"bootstrap must be one of {', '.join(SCHEMES)}, not {scheme!r}")
 
 
 def agreement(
@@ -47,6 +51,8 @@ def agreement(
     interval_method: str = "bca",
     icc_ordinal: bool = False,
     progress: Callable[[int, int], None] | None = None,
+    bootstrap: str = "poisson",
+    memory: int = DEFAULT_MEMORY,
 ) -> AgreementResult:
     """Every coefficient of every variable, with bootstrap intervals from one weight matrix.
 
@@ -63,6 +69,12 @@ def agreement(
         agreement, on their category positions (interval and ratio variables always get them).
     progress
         Called as ``progress(done, total)`` while the work advances.
+    bootstrap
+        ``"poisson"`` (unit weights a pure function of seed, unit ID and replicate; results do not
+        depend on row order or blocking) or ``"multinomial"`` (the classic draw of U units per
+        replicate); see :mod:`coderel.stats.bootstrap`.
+    memory
+        Bytes the bootstrap's blocks of unit weights may take (sets the block of units).
 
     Returns
     -------
@@ -80,24 +92,26 @@ def agreement(
     variance of kappa in the case of different sets of raters. *Psychological Bulletin*, 86(5),
     974-977.
     """
-    check_settings(replicates, seed, ci_level, interval_method)
+    check_settings(replicates, seed, ci_level, interval_method, bootstrap)
     cb = codings.codebook
     coders = codings.coders
     units = codings.units
     # Each row over the coders who coded it (a coder of other variables is not one of them).
     targets = [t.own() for t in build_targets(codings, coders, units)]
     plans = [build_plan(t.x, t.scale, icc_ordinal=icc_ordinal) for t in targets]
-    total = 2 * len(plans)
+    n_rows = len(plans)
+    steps = [0]  # steps of the bootstrap, then one per variable's row
 
-    def step(done: int, _total: int) -> None:
+    def step(done: int, total: int) -> None:
+        steps[0] = total
         if progress is not None:
-            progress(done, total)
+            progress(done, total + n_rows)
 
-    # ONE seeded matrix of unit weights over the project's units, reused for every variable and
+    # ONE seeded set of unit weights over the project's units, reused for every variable and
     # coefficient: a unit without values for a variable contributes nothing to its sums.
     try:
-        weights = unit_weights(len(units), replicates, seed)
-        evaluated_all = evaluate_plans(plans, weights, progress=step)
+        weights = make_weights(units, replicates, seed, bootstrap)
+        evaluated_all = evaluate_plans(plans, weights, progress=step, memory=memory)
     except MemoryError:
         raise UsageError(
             f"not enough memory for {replicates:,} bootstrap replicates over {len(units):,} "
@@ -119,7 +133,8 @@ def agreement(
                 units=units,
             )
         rows.append(row)
-        step(len(plans) + len(rows), total)
+        if progress is not None:
+            progress(steps[0] + len(rows), steps[0] + n_rows)
     return AgreementResult(
         tuple(rows),
         replicates,
@@ -129,4 +144,5 @@ def agreement(
         coders=tuple(coders),
         codebook_title=str(cb.title or ""),
         codebook_version=str(cb.version or ""),
+        scheme=bootstrap,
     )

@@ -146,6 +146,7 @@ class AgreementResult:
     coders: tuple[str, ...] = ()
     codebook_title: str = ""
     codebook_version: str = ""
+    scheme: str = "poisson"
 
     def variable(self, name: str) -> VariableAgreement:
         for v in self.variables:
@@ -162,6 +163,7 @@ class AgreementResult:
                 "seed": self.seed,
                 "method": self.method,
                 "ci_level": self.ci_level,
+                "scheme": self.scheme,
             },
             "variables": [v.to_dict(pairs=pairs) for v in self.variables],
         }

@@ -9,13 +9,6 @@ from typing import Annotated
 import typer
 from rich.table import Table
 
-from coderel.adjudicate import (
-    MAIN_SHEET,
-    build_adjudication,
-    check_decisions,
-    write_adjudication,
-)
-from coderel.adjudicate.rules import Settling, parse_tolerances
 from coderel.cli.app import app
 from coderel.cli.common import (
     CodebookOption,
@@ -31,8 +24,6 @@ from coderel.cli.common import (
     say,
 )
 from coderel.errors import ExitCode, UsageError
-from coderel.io.atomic import refuse_overwriting_inputs
-from coderel.io.read import collect_files
 from coderel.problems import Problems
 
 LIST_SUFFIXES = (".xlsx", ".csv")
@@ -60,6 +51,16 @@ def adjudicate_command(
     With --rule majority or --tolerance, only the cells the rule leaves open are listed; use the
     same options with merge.
     """
+    from coderel.adjudicate import (
+        MAIN_SHEET,
+        build_adjudication,
+        check_decisions,
+        write_adjudication,
+    )
+    from coderel.adjudicate.rules import Settling, parse_tolerances
+    from coderel.io.atomic import refuse_overwriting_inputs
+    from coderel.io.read import collect_files
+
     if out.suffix.lower() not in LIST_SUFFIXES:
         raise UsageError(f"cannot write {out.name!r}: the adjudication list is .xlsx or .csv")
     refuse_overwriting_inputs([out], [*collect_files(data), codebook])

@@ -3,13 +3,12 @@
 from __future__ import annotations
 
 from pathlib import Path
-from typing import Annotated
+from typing import TYPE_CHECKING, Annotated
 
 import typer
 from rich.markup import escape
 from rich.table import Table
 
-from coderel.agree import AgreementResult, Estimate, agreement
 from coderel.cli.app import app
 from coderel.cli.common import (
     DEFAULT_REPLICATES,
@@ -18,6 +17,7 @@ from coderel.cli.common import (
     DataArgument,
     IntervalOption,
     JsonOption,
+    MemoryOption,
     ReplicatesOption,
     SeedOption,
     check_table_output,
@@ -31,7 +31,11 @@ from coderel.cli.common import (
 from coderel.cli.numeric_tables import numeric_tables
 from coderel.cli.occasions import IccOrdinalOption
 from coderel.errors import ExitCode
-from coderel.io.tables import table_format, write_table
+from coderel.memory import parse_memory
+
+if TYPE_CHECKING:
+    from coderel.agree import AgreementResult, Estimate
+
 
 SHOWN = ("krippendorff_alpha", "percent_agreement", "fleiss_kappa", "cohen_kappa", "gwet_ac1")
 
@@ -90,6 +94,7 @@ def agree_command(
     replicates: ReplicatesOption = DEFAULT_REPLICATES,
     seed: SeedOption = DEFAULT_SEED,
     interval_method: IntervalOption = "bca",
+    memory: MemoryOption = None,
     pairs: Annotated[
         bool, typer.Option("--pairs", help="Add the coder-by-coder agreement per variable.")
     ] = False,
@@ -109,6 +114,9 @@ def agree_command(
     ] = None,
 ) -> ExitCode:
     """Every agreement coefficient per variable, with seeded bootstrap intervals."""
+    from coderel.agree import agreement
+    from coderel.io.tables import table_format, write_table
+
     check_table_output(out, data, codebook)
     if out is not None and pairs and table_format(out) != "xlsx":
         check_table_output(out.with_name(f"{out.stem}-pairs{out.suffix}"), data, codebook)
@@ -123,6 +131,7 @@ def agree_command(
             seed=seed,
             interval_method=interval_method,
             icc_ordinal=icc_ordinal,
+            memory=parse_memory(memory),
             progress=progress,
         )
     diagnostics = None

@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import json
 from pathlib import Path
-from typing import Annotated, Any
+from typing import TYPE_CHECKING, Annotated, Any
 
 import typer
 from rich.table import Table
@@ -25,16 +25,11 @@ from coderel.cli.common import (
     print_problems,
     say,
 )
-from coderel.codebook import Codebook
-from coderel.codebook.load import (
-    JSON_SUFFIXES,
-    YAML_SUFFIXES,
-    codebook_json_schema,
-    codebook_problems,
-    load_codebook,
-)
 from coderel.errors import ExitCode, UsageError
-from coderel.io.atomic import refuse_overwriting_inputs, write_text
+
+if TYPE_CHECKING:
+    from coderel.codebook import Codebook
+
 
 codebook_app = typer.Typer(
     name="codebook",
@@ -98,6 +93,8 @@ def _variables_table(cb: Codebook) -> Table:
 @handle_errors
 def check_command(path: CodebookArgument, json_out: JsonOption = False) -> ExitCode:
     """List every problem of a codebook with its line; exit 1 when any is an error."""
+    from coderel.codebook.load import codebook_problems, load_codebook
+
     problems = codebook_problems(path)
     codebook = None if problems.errors else load_codebook(path)
     if json_out:
@@ -123,6 +120,8 @@ def check_command(path: CodebookArgument, json_out: JsonOption = False) -> ExitC
 
 
 def _form(path: Path) -> str:
+    from coderel.codebook.load import JSON_SUFFIXES, YAML_SUFFIXES
+
     suffix = path.suffix.lower()
     if suffix in YAML_SUFFIXES:
         return "yaml"
@@ -148,6 +147,8 @@ def convert_command(
 ) -> ExitCode:
     """Convert a codebook between YAML and a Frictionless Table Schema (JSON), by extension."""
     from coderel.codebook.frictionless import write_codebook_yaml, write_table_schema
+    from coderel.codebook.load import load_codebook
+    from coderel.io.atomic import refuse_overwriting_inputs
 
     target_form = _form(out)
     _form(source)
@@ -180,6 +181,9 @@ def schema_command(
     ] = None,
 ) -> ExitCode:
     """Print the JSON Schema of the YAML codebook (for editors that check YAML files)."""
+    from coderel.codebook.load import JSON_SUFFIXES, codebook_json_schema
+    from coderel.io.atomic import write_text
+
     if out is not None and out.suffix.lower() not in JSON_SUFFIXES:
         # The schema is JSON; a .yaml name is most likely a codebook about to be overwritten.
         raise UsageError(

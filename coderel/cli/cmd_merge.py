@@ -3,14 +3,11 @@
 from __future__ import annotations
 
 from pathlib import Path
-from typing import Annotated
+from typing import TYPE_CHECKING, Annotated
 
 import typer
 from rich.table import Table
 
-from coderel.adjudicate import read_decisions
-from coderel.adjudicate.rules import Settling, parse_tolerances
-from coderel.audit import append_audit, audit_path
 from coderel.cli.app import app
 from coderel.cli.common import (
     CodebookOption,
@@ -28,11 +25,11 @@ from coderel.cli.common import (
     say,
 )
 from coderel.errors import ExitCode, UsageError
-from coderel.io.atomic import refuse_overwriting_inputs
-from coderel.io.read import collect_files
-from coderel.io.tables import table_format
-from coderel.merge import STATUSES, MergeResult, merge, write_merged
 from coderel.problems import Problems
+
+if TYPE_CHECKING:
+    from coderel.merge import MergeResult
+
 
 #: At most this many unresolved cells are listed on the terminal (--json lists every one).
 SHOWN_UNRESOLVED = 40
@@ -57,6 +54,14 @@ def merge_command(
     json_out: JsonOption = False,
 ) -> ExitCode:
     """One row per unit, a final value and a status per variable; an audit line per merge."""
+    from coderel.adjudicate import read_decisions
+    from coderel.adjudicate.rules import Settling, parse_tolerances
+    from coderel.audit import append_audit, audit_path
+    from coderel.io.atomic import refuse_overwriting_inputs
+    from coderel.io.read import collect_files
+    from coderel.io.tables import table_format
+    from coderel.merge import STATUSES, merge, write_merged
+
     table_format(out)
     inputs = [*collect_files(data), codebook]
     if decisions is not None:
@@ -118,6 +123,8 @@ def merge_command(
 
 
 def _print_statuses(result: MergeResult) -> None:
+    from coderel.merge import STATUSES
+
     table = Table(title=f"Status of every cell (rule: {result.rule})")
     table.add_column("variable")
     for s in STATUSES:

@@ -18,6 +18,7 @@ from coderel.cli.common import (
     DecisionsOption,
     IntervalOption,
     JsonOption,
+    MemoryOption,
     ReplicatesOption,
     RuleOption,
     SeedOption,
@@ -147,6 +148,7 @@ def report_command(
     replicates: ReplicatesOption = DEFAULT_REPLICATES,
     seed: SeedOption = DEFAULT_SEED,
     interval_method: IntervalOption = "bca",
+    memory: MemoryOption = None,
     date: DateOption = None,
     key: Annotated[
         Path | None,
@@ -173,6 +175,7 @@ def report_command(
     from coderel.codings import SourceFile
     from coderel.io.atomic import refuse_overwriting_inputs, sha256_file
     from coderel.io.read import collect_files
+    from coderel.memory import parse_memory
     from coderel.report import build_report, report_paths, write_report
 
     if out is None and not json_out:
@@ -205,6 +208,7 @@ def report_command(
             seed=seed,
             interval_method=interval_method,
             icc_ordinal=icc_ordinal,
+            memory=parse_memory(memory),
             progress=step,
         )
     stable = None

@@ -9,9 +9,7 @@ import typer
 
 from coderel.cli.app import app
 from coderel.cli.common import CodebookOption, JsonOption, emit_json, handle_errors, say
-from coderel.codebook.load import load_codebook
 from coderel.errors import ExitCode
-from coderel.template import read_unit_list, write_templates
 
 
 @app.command("template")
@@ -38,6 +36,9 @@ def template_command(
     json_out: JsonOption = False,
 ) -> ExitCode:
     """Write a blank coding workbook per coder: dropdowns, number limits, the codebook sheet."""
+    from coderel.codebook.load import load_codebook
+    from coderel.template import read_unit_list, write_templates
+
     cb = load_codebook(codebook)
     unit_list = read_unit_list(units) if units is not None else []
     inputs = [codebook, *([units] if units is not None else [])]

@@ -14,15 +14,13 @@ from coderel.cli.common import (
     JsonOption,
     check_table_output,
     emit_json,
+    folded_note,
     handle_errors,
     out_console,
     problems_table,
     say,
 )
-from coderel.codebook.load import load_codebook
 from coderel.errors import ExitCode
-from coderel.io.tables import write_table
-from coderel.validate import validate
 
 
 @app.command("validate")
@@ -37,6 +35,10 @@ def validate_command(
     ] = None,
 ) -> ExitCode:
     """Check every coder's sheet against the codebook and list every problem with its cell."""
+    from coderel.codebook.load import load_codebook
+    from coderel.io.tables import write_table
+    from coderel.validate import validate
+
     check_table_output(out, data, codebook)
     result = validate(load_codebook(codebook), data)
     if out is not None:
@@ -46,6 +48,9 @@ def validate_command(
     else:
         if result.problems:
             out_console().print(problems_table(result.problems))
+            note = folded_note(result.problems)
+            if note:
+                say(note)
         s = result.summary()
         say(
             f"{len(s['files'])} file(s), {len(s['coders'])} coder(s), {s['units']} unit(s): "

@@ -54,6 +54,14 @@ IntervalOption = Annotated[
     Literal["bca", "percentile"],
     typer.Option("--interval", help="bca (bias-corrected and accelerated) or percentile."),
 ]
+MemoryOption = Annotated[
+    str | None,
+    typer.Option(
+        "--memory",
+        help="Memory for the bootstrap's blocks of units, e.g. 2GB or 512MB (default: an eighth "
+        "of the machine's memory, between 256MB and 4GB).",
+    ),
+]
 DecisionsOption = Annotated[
     Path | None,
     typer.Option("--decisions", help="An adjudication list with decisions (.xlsx or .csv)."),
@@ -156,13 +164,58 @@ def say(message: str) -> None:
     err_console().print(message)
 
 
-def problems_table(problems: Problems, *, title: str | None = None) -> Table:
-    """A rich table of problems, one row each."""
+#: A kind of problem (code) found more often than this for one coder is shown as one summary row
+#: (design-wide warnings such as partial units in a crowd design); the full list is in --out.
+SUMMARY_AFTER = 20
+
+
+def _summary_rows(problems: Problems, limit: int) -> tuple[list[Any], int]:
+    """Problems in order, with each (code, coder) group past ``limit`` folded into one row."""
+    groups: dict[tuple[str, str | None], list[Any]] = {}
+    for p in problems:
+        groups.setdefault((p.code, p.coder), []).append(p)
+    folded = 0
+    shown: set[tuple[str, str | None]] = set()
+    rows: list[Any] = []
+    for p in problems:
+        key = (p.code, p.coder)
+        group = groups[key]
+        if len(group) <= limit:
+            rows.append(p)
+        elif key not in shown:
+            shown.add(key)
+            rows.append(group)
+            folded += len(group) - 1
+    return rows, folded
+
+
+def problems_table(
+    problems: Problems, *, title: str | None = None, summarise: int | None = SUMMARY_AFTER
+) -> Table:
+    """A rich table of problems, one row each; a kind found more than ``summarise`` times for
+    one coder becomes one row with its counts (``None``: never)."""
     table = Table(title=title, show_lines=False)
     for name in ("severity", "code", "where", "unit", "coder", "variable", "message", "hint"):
         table.add_column(name, overflow="fold")
-    for p in problems:
+    rows, _ = _summary_rows(problems, summarise) if summarise else (list(problems), 0)
+    for row in rows:
+        p = row[0] if isinstance(row, list) else row
         sev = "[red]error[/red]" if p.severity == "error" else "[yellow]warning[/yellow]"
+        if isinstance(row, list):
+            units = len({q.unit for q in row if q.unit})
+            variables = sorted({q.variable for q in row if q.variable})
+            places = len({q.where() for q in row if q.where()})
+            table.add_row(
+                sev,
+                p.code,
+                f"{places:,} places" if places > 1 else p.where(),
+                f"{units:,} units" if units > 1 else (p.unit or ""),
+                p.coder or "",
+                variables[0] if len(variables) == 1 else f"{len(variables)} variables",
+                f"{len(row):,} times, first: {p.message}",
+                p.hint or "",
+            )
+            continue
         table.add_row(
             sev,
             p.code,
@@ -176,12 +229,27 @@ def problems_table(problems: Problems, *, title: str | None = None) -> Table:
     return table
 
 
+def folded_note(problems: Problems, limit: int = SUMMARY_AFTER) -> str | None:
+    """The line that says problems were summarised and where the full list is, or None."""
+    rows, folded = _summary_rows(problems, limit)
+    if not folded:
+        return None
+    kinds = sum(isinstance(r, list) for r in rows)
+    return (
+        f"{kinds} kind(s) of problem found more than {limit} times are shown as one row each "
+        "with their count; --out problems.csv (or --json) gives every one with its place"
+    )
+
+
 def print_problems(problems: Problems, *, to_stderr: bool = True) -> None:
     """Print problems as a table (stderr by default: they are messages, not the command's data)."""
     if not problems:
         return
     console = err_console() if to_stderr else out_console()
     console.print(problems_table(problems))
+    note = folded_note(problems)
+    if note:
+        console.print(note)
     console.print(f"{len(problems.errors)} error(s), {len(problems.warnings)} warning(s).")
 
 

@@ -78,8 +78,7 @@ def drop_uncoded(frame: pd.DataFrame, problems: Problems) -> pd.DataFrame:
     blank = coded[~coded]
     if blank.empty:
         return frame
-    blank_pairs = set(blank.index)
-    drop = [pair in blank_pairs for pair in zip(frame["unit"], frame["coder"], strict=True)]
+    drop = keys.isin(blank.index)  # whole columns, no loop over rows
     dropped = frame.loc[drop]
     for coder, rows in dropped.groupby("coder", sort=False):
         units = list(dict.fromkeys(rows["unit"]))
@@ -98,7 +97,7 @@ def drop_uncoded(frame: pd.DataFrame, problems: Problems) -> pd.DataFrame:
             sheet=sheets[0] if len(sheets) == 1 else None,
             coder=coder,
         )
-    return frame.loc[[not d for d in drop]].reset_index(drop=True)
+    return frame.loc[~drop].reset_index(drop=True)
 
 
 def coder_key(name: str) -> str:

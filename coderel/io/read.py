@@ -30,6 +30,7 @@ from os import PathLike
 from pathlib import Path
 from typing import Any
 
+import numpy as np
 import pandas as pd
 from openpyxl.utils import get_column_letter, range_boundaries
 
@@ -46,7 +47,7 @@ from coderel.io.archive import (
     describe_ole2,
 )
 from coderel.io.atomic import sha256_file
-from coderel.io.coverage import did_you_mean, drop_uncoded, warn_alike_coders
+from coderel.io.coverage import coder_key, drop_uncoded, warn_alike_coders
 from coderel.io.occasions import OCCASION_COLUMN, split_occasions, tag_occasions
 from coderel.io.safe_text import DANGEROUS_PREFIXES
 from coderel.io.text_tables import RawRow, RawTable, read_csv, read_parquet
@@ -63,6 +64,10 @@ from coderel.problems import Problems
 DATA_SUFFIXES: tuple[str, ...] = (".xlsx", ".csv", ".parquet")
 LONG_HEADER: tuple[str, ...] = ("unit", "coder", "variable", "value")
 CODER_COLUMN = "coder"
+RECORD_COLUMNS = [
+    *("unit", "coder", "variable", "value", "missing", "file", "sheet", "cell"),
+    *("_line", "_invalid"),
+]
 
 
 def collect_files(paths: Sequence[str | Path] | str | Path) -> list[Path]:
@@ -158,6 +163,8 @@ class _Reader:
     #: (variable, typed, type, raw) -> result: a cell's result depends on nothing else, and
     #: coded data repeat the same few values, so each distinct value is normalised once.
     memo: dict[tuple[Any, ...], tuple[Normalised, bool]] = field(default_factory=dict)
+    #: record blocks read column by column (:mod:`coderel.io.long_columnar`), in reading order
+    frames: list[pd.DataFrame] = field(default_factory=list)
 
     # ---- helpers ---------------------------------------------------------------------------
     def claim(self, coder: str, table: RawTable, cell: str | None = None) -> bool:
@@ -247,6 +254,13 @@ class _Reader:
                 "_invalid": invalid,
             }
         )
+
+    def add_frame(self, frame: pd.DataFrame) -> None:
+        """Records read column by column, kept in order with the records read row by row."""
+        if self.records:
+            self.frames.append(pd.DataFrame(self.records, columns=RECORD_COLUMNS))
+            self.records = []
+        self.frames.append(frame[RECORD_COLUMNS])
 
     def add_text(self, unit: str, coder: str, column: str, raw: Any) -> None:
         text = None if raw is None or isinstance(raw, CellError | FormulaNoValue) else str(raw)
@@ -667,13 +681,8 @@ class _Reader:
         for _ in range(len(cb.variables) + 1):
             applies = applicability(cb, frame)
             frame["applies"] = applies
-            bad = [
-                i
-                for i, (a, v, m) in enumerate(
-                    zip(applies, frame["value"], frame["missing"], strict=True)
-                )
-                if a is False and (v is not None or m is not None)
-            ]
+            given = frame["value"].notna().to_numpy() | frame["missing"].notna().to_numpy()
+            bad = np.flatnonzero(_is_false(applies) & given).tolist()
             if not bad:
                 break
             for i in bad:
@@ -694,36 +703,31 @@ class _Reader:
                 frame.at[frame.index[i], "value"] = None
                 frame.at[frame.index[i], "missing"] = None
                 frame.at[frame.index[i], "_invalid"] = True
-        conditional = {v.name for v in cb.variables if v.applies_when is not None}
-        for i, (name, a, v, m, inv) in enumerate(
-            zip(
-                frame["variable"],
-                frame["applies"],
-                frame["value"],
-                frame["missing"],
-                frame["_invalid"],
-                strict=True,
+        conditional = [v.name for v in cb.variables if v.applies_when is not None]
+        applies = frame["applies"].to_numpy(dtype=object)
+        is_true = np.fromiter((a is True for a in applies), bool, len(applies))
+        blank = frame["value"].isna().to_numpy() & frame["missing"].isna().to_numpy()
+        valid = ~frame["_invalid"].astype(bool).to_numpy()
+        asked = frame["variable"].isin(conditional).to_numpy() & is_true & blank & valid
+        for i in np.flatnonzero(asked):
+            row = frame.iloc[i]
+            variable = cb.variable(row["variable"])
+            cond = variable.applies_when
+            if cond is None:
+                continue
+            missing = (
+                f", or the missing code {variable.display(variable.missing_codes[0])}"
+                if variable.missing_codes
+                else ""
             )
-        ):
-            if name in conditional and a is True and v is None and m is None and not inv:
-                row = frame.iloc[i]
-                variable = cb.variable(row["variable"])
-                cond = variable.applies_when
-                if cond is None:
-                    continue
-                missing = (
-                    f", or the missing code {variable.display(variable.missing_codes[0])}"
-                    if variable.missing_codes
-                    else ""
-                )
-                includes = ", ".join(cb.variable(cond.variable).display(c) for c in cond.includes)
-                self.problems.add(
-                    "should-apply",
-                    f"{variable.name} is blank, but it applies here ({cond.variable} is one of "
-                    f"{includes})",
-                    hint=f"code {variable.name}{missing}",
-                    **_row_place(row),
-                )
+            includes = ", ".join(cb.variable(cond.variable).display(c) for c in cond.includes)
+            self.problems.add(
+                "should-apply",
+                f"{variable.name} is blank, but it applies here ({cond.variable} is one of "
+                f"{includes})",
+                hint=f"code {variable.name}{missing}",
+                **_row_place(row),
+            )
         return frame
 
     def check_blank_variables(self, frame: pd.DataFrame) -> None:
@@ -737,8 +741,7 @@ class _Reader:
         blank = empty & ~frame["_invalid"].astype(bool).to_numpy()
         begun = set(frame.loc[~empty, "coder"])
         # None: no condition; False (Python's or numpy's): the condition says it does not apply.
-        applies = frame["applies"].map(lambda a: a is None or bool(a))
-        applies = applies.to_numpy(dtype=bool, copy=True)
+        applies = ~_is_false(frame["applies"].to_numpy(dtype=object))
         applies &= frame["coder"].isin(begun).to_numpy()
         cols = frame.loc[applies, ["coder", "variable"]].assign(_blank=blank[applies])
         if cols.empty:
@@ -780,47 +783,71 @@ class _Reader:
             )
 
     def check_partial_units(self, frame: pd.DataFrame) -> None:
-        coders = list(dict.fromkeys(frame["coder"]))
-        if len(coders) < 2:
+        unit_codes, units = pd.factorize(frame["unit"])
+        coder_codes, coders = pd.factorize(frame["coder"])
+        n_coders = len(coders)
+        if n_coders < 2:
             return
-        by_unit: dict[str, set[str]] = {}
-        for unit, coder in zip(frame["unit"], frame["coder"], strict=True):
-            by_unit.setdefault(unit, set()).add(coder)
+        pairs = np.unique(unit_codes.astype(np.int64) * n_coders + coder_codes)
+        pair_unit, pair_coder = pairs // n_coders, pairs % n_coders
+        per_unit = np.bincount(pair_unit, minlength=len(units))
+        partial = np.flatnonzero(per_unit < n_coders)
+        if not len(partial):
+            return
         # IDs that differ only in leading zeros, case or inner spaces ("001" and 1, once a
         # spreadsheet has turned the text into a number) are most likely one unit.
+        loose = pd.Series(units, dtype=object).map(_loose_id)
         alike: dict[str, list[str]] = {}
-        for unit in by_unit:
-            alike.setdefault(_loose_id(unit), []).append(unit)
-        for unit, present in by_unit.items():
-            absent = [c for c in coders if c not in present]
-            if absent:
-                others = [u for u in alike[_loose_id(unit)] if u != unit]
+        for key, group in pd.Series(units, dtype=object).groupby(loose.to_numpy(), sort=False):
+            if len(group) > 1:
+                alike[str(key)] = list(group)
+        starts = np.searchsorted(pair_unit, partial)
+        # coder names that differ only in case or spaces: "did you mean" (io/coverage.py)
+        keys = [coder_key(c) for c in coders]
+        twins = {
+            i: sorted(c for j, c in enumerate(coders) if j != i and keys[j] == keys[i])
+            for i in range(n_coders)
+        }
+        twins = {i: names for i, names in twins.items() if names}
+        for u, start in zip(partial.tolist(), starts.tolist(), strict=True):
+            unit = units[u]
+            present_codes = set(pair_coder[start : start + per_unit[u]].tolist())
+            present = [c for i, c in enumerate(coders) if i in present_codes]
+            absent_codes = [i for i in range(n_coders) if i not in present_codes]
+            absent = [coders[i] for i in absent_codes]
+            others = [x for x in alike.get(loose.iat[u], ()) if x != unit]
+            hint = "code the unit by every coder, or accept that agreement for it uses fewer coders"
+            meant = []
+            for i in absent_codes:
+                if i in twins:
+                    found = next((c for c in twins[i] if c in present), None)
+                    if found is not None:
+                        meant.append((coders[i], found))
+            if meant:
                 hint = (
-                    "code the unit by every coder, or accept that agreement for it uses fewer "
-                    "coders"
+                    "; ".join(f"did you mean {m!r} for {c!r}?" for c, m in meant)
+                    + " coder names that differ only in case or spaces are two coders; "
+                    + hint
                 )
-                meant = [(c, did_you_mean(c, sorted(present))) for c in absent]
-                meant = [(c, m) for c, m in meant if m is not None]
-                if meant:
-                    hint = (
-                        "; ".join(f"did you mean {m!r} for {c!r}?" for c, m in meant)
-                        + " coder names that differ only in case or spaces are two coders; "
-                        + hint
-                    )
-                if others:
-                    hint = (
-                        f"the unit ID {', '.join(repr(u) for u in others)} differs only in "
-                        "leading zeros, a .0 ending, case or spaces: if it is the same unit, "
-                        "write the ID the same way in every sheet (format the unit column as Text "
-                        f"so that leading zeros stay); otherwise {hint}"
-                    )
-                self.problems.add(
-                    "partial-unit",
-                    f"unit {unit} is coded by {', '.join(c for c in coders if c in present)} "
-                    f"but not by {', '.join(absent)}",
-                    hint=hint,
-                    unit=unit,
+            if others:
+                hint = (
+                    f"the unit ID {', '.join(repr(x) for x in others)} differs only in "
+                    "leading zeros, a .0 ending, case or spaces: if it is the same unit, "
+                    "write the ID the same way in every sheet (format the unit column as Text "
+                    f"so that leading zeros stay); otherwise {hint}"
                 )
+            self.problems.add(
+                "partial-unit",
+                f"unit {unit} is coded by {', '.join(present)} but not by {', '.join(absent)}",
+                hint=hint,
+                unit=unit,
+            )
+
+
+def _is_false(applies: Any) -> np.ndarray:
+    """Rows whose applicability is False (Python's or numpy's); None and True are not."""
+    values = np.asarray(applies, dtype=object)
+    return np.fromiter((a is not None and not a for a in values), bool, len(values))
 
 
 def _loose_id(unit: str) -> str:
@@ -891,6 +918,20 @@ def _skip_own_output(reader: _Reader, path: Path, tables: Sequence[RawTable]) ->
     return True
 
 
+def _read_long_columns(reader: _Reader, path: Path, limits: Limits) -> bool:
+    """Read a long CSV or Parquet table column by column; False when it must go the row way."""
+    from coderel.io import long_columnar
+
+    if path.suffix.lower() == ".csv":
+        columns = long_columnar.read_csv_columns(path, limits)
+    else:
+        columns = long_columnar.read_parquet_columns(path, limits)
+    if columns is None:
+        return False
+    long_columnar.apply_columns(reader, columns, _text_of)
+    return True
+
+
 def _read_file(reader: _Reader, path: Path, limits: Limits) -> bool:
     """Read one file into ``reader``; return False when it was refused or skipped."""
     from coderel.io.xlsx import read_workbook
@@ -912,12 +953,16 @@ def _read_file(reader: _Reader, path: Path, limits: Limits) -> bool:
             for table in workbook.tables:
                 reader.read_table(table, table.sheet if several and table.sheet else path.stem)
         elif suffix == ".csv":
+            if _read_long_columns(reader, path, limits):
+                return True
             check_text(path, limits)
             table = read_csv(path)
             if _skip_own_output(reader, path, [table]):
                 return False
             reader.read_table(table, path.stem)
         elif suffix == ".parquet":
+            if _read_long_columns(reader, path, limits):
+                return True
             check_parquet(path, limits)
             try:
                 table = read_parquet(path)
@@ -989,8 +1034,9 @@ def read_codings(
             sources.append(
                 SourceFile(path=str(path), sha256=sha256_file(path), size=path.stat().st_size)
             )
-    columns = ["unit", "coder", "variable", "value", "missing", "file", "sheet", "cell"]
-    frame = pd.DataFrame(reader.records, columns=[*columns, "_line", "_invalid"])
+    frame = pd.DataFrame(reader.records, columns=RECORD_COLUMNS)
+    if reader.frames:
+        frame = pd.concat([*reader.frames, frame], ignore_index=True)
     frame = frame.astype(object)
     frame = frame.where(frame.notna(), None) if len(frame) else frame
     frame = drop_uncoded(frame, reader.problems)  # one rule for every path: see io/coverage.py

@@ -23,9 +23,10 @@ from __future__ import annotations
 
 from collections.abc import Callable
 from dataclasses import dataclass, field
-from typing import Literal
+from typing import Any, Literal
 
 import numpy as np
+from scipy import sparse
 
 from coderel.stats import alpha as A
 from coderel.stats import chance as CH
@@ -74,17 +75,27 @@ class Plan:
 
     def point(self, name: str) -> float:
         """A coefficient on the full sample (all unit weights 1); ``nan`` when undefined."""
-        total = self.contributions.sum(axis=0)[None, :]
+        total = column_sums(self.contributions)[None, :]
         return float(self.formulas[name](total)[0])
+
+
+#: A plan whose coder-pair columns would hold more numbers than this over all units keeps its
+#: contributions sparse (crowd designs: many coders, each unit coded by a few).
+SPARSE_PAIR_CELLS = 20_000_000
 
 
 class _Builder:
     def __init__(self, n_units: int) -> None:
         self.n_units = n_units
-        self.blocks: list[np.ndarray] = []
+        self.blocks: list[Any] = []
         self.width = 0
 
-    def add(self, block: np.ndarray):
+    def add(self, block: Any):
+        if sparse.issparse(block):
+            start = self.width
+            self.blocks.append(block)
+            self.width += block.shape[1]
+            return slice(start, self.width) if block.shape[1] > 1 else start
         arr = np.asarray(block, dtype=float)
         if arr.ndim == 1:
             self.blocks.append(arr[:, None])
@@ -95,10 +106,25 @@ class _Builder:
         self.width += arr.shape[1]
         return slice(start, self.width)
 
-    def contributions(self) -> np.ndarray:
+    def contributions(self) -> Any:
+        """U x M contributions: a dense array, or a CSR matrix when a block was sparse."""
         if not self.blocks:
             return np.zeros((self.n_units, 0))
+        if any(sparse.issparse(block) for block in self.blocks):
+            out = sparse.hstack(
+                [blk if sparse.issparse(blk) else sparse.csr_matrix(blk) for blk in self.blocks],
+                format="csr",
+            )
+            out.eliminate_zeros()
+            return out
         return np.hstack(self.blocks)
+
+
+def column_sums(contributions: Any) -> np.ndarray:
+    """Sums over units (the point estimate's sums) of dense or sparse contributions."""
+    if sparse.issparse(contributions):
+        return np.asarray(contributions.sum(axis=0)).ravel()
+    return contributions.sum(axis=0)
 
 
 def _div(num: np.ndarray, den: np.ndarray) -> np.ndarray:
@@ -187,10 +213,31 @@ class _PairSlices:
 
 
 def _add_pair(
-    b: _Builder, a: np.ndarray, c: np.ndarray, k: int, weights: dict[str, np.ndarray]
+    b: _Builder,
+    a: np.ndarray,
+    c: np.ndarray,
+    k: int,
+    weights: dict[str, np.ndarray],
+    sparse_columns: bool = False,
 ) -> _PairSlices:
     both = (a >= 0) & (c >= 0)
     ai, ci = np.maximum(a, 0), np.maximum(c, 0)
+    if sparse_columns:  # only the units both coders coded hold numbers
+        rows = np.flatnonzero(both)
+        n = len(a)
+
+        def column(values: np.ndarray, cols: np.ndarray | None = None, width: int = 1):
+            cols = np.zeros(len(rows), dtype=np.int64) if cols is None else cols
+            return sparse.csr_matrix((values, (rows, cols)), shape=(n, width))
+
+        ones = np.ones(len(rows))
+        return _PairSlices(
+            both=b.add(column(ones)),
+            agree=b.add(column((a[rows] == c[rows]).astype(float))),
+            rows=_as_slice(b.add(column(ones, a[rows], k))),
+            cols=_as_slice(b.add(column(ones, c[rows], k))),
+            weighted={nm: b.add(column(w[ai[rows], ci[rows]])) for nm, w in weights.items()},
+        )
     return _PairSlices(
         both=b.add(both.astype(float)),
         agree=b.add((both & (a == c)).astype(float)),
@@ -198,6 +245,10 @@ def _add_pair(
         cols=b.add(one_hot(c, k, both)),
         weighted={n: b.add(np.where(both, w[ai, ci], 0.0)) for n, w in weights.items()},
     )
+
+
+def _as_slice(index: int | slice) -> slice:
+    return index if isinstance(index, slice) else slice(index, index + 1)
 
 
 def _pair_parts(s: np.ndarray, p: _PairSlices):
@@ -256,7 +307,9 @@ def categorical_plan(x: np.ndarray, scale: Scale, *, icc_ordinal: bool = False) 
                     _div(s[:, col], s[:, p.both]), *_pair_parts(s, p)[1:], w
                 )
     elif n_coders > 2:
-        slices = [_add_pair(b, x[:, i], x[:, j], k, {}) for i, j in pairs]
+        dense_cells = len(pairs) * (2 * k + 2) * x.shape[0]
+        thin = dense_cells > SPARSE_PAIR_CELLS
+        slices = [_add_pair(b, x[:, i], x[:, j], k, {}, thin) for i, j in pairs]
         cohens = [_cohen(p) for p in slices]
         f["light_kappa"] = lambda s: _nanmean_rows(np.stack([g(s) for g in cohens]))
 
@@ -312,4 +365,4 @@ def alpha_point(x: np.ndarray, scale: Scale) -> float:
     """
     b = _Builder(x.shape[0])
     formula = add_alpha(b, x, scale)
-    return float(formula(b.contributions().sum(axis=0)[None, :])[0])
+    return float(formula(column_sums(b.contributions())[None, :])[0])

@@ -1,0 +1,68 @@
+"""Memory budgets: ``--memory 2GB`` as bytes, and the default share of the machine.
+
+The budget bounds the blocks that big computations hold at once (the bootstrap's unit weights,
+the jackknife, record batches while reading); the data's own per-unit summaries come on top.
+"""
+
+from __future__ import annotations
+
+import os
+import re
+
+from coderel.errors import UsageError
+
+#: Share of the machine's physical memory used as the default budget (common practice, no
+#: source: leaves room for the per-unit summaries, the interpreter and other programs).
+DEFAULT_SHARE = 0.125
+#: Bounds of the default budget.
+DEFAULT_FLOOR = 256 * 2**20
+DEFAULT_CEILING = 4 * 2**30
+#: The smallest budget accepted from the command line.
+MINIMUM = 16 * 2**20
+
+_UNITS = {"": 1, "B": 1, "K": 2**10, "M": 2**20, "G": 2**30, "T": 2**40}
+_PATTERN = re.compile(r"^\s*(\d+(?:\.\d+)?)\s*([KMGT]?)(?:I?B)?\s*$", re.IGNORECASE)
+
+
+def physical_memory() -> int | None:
+    """The machine's physical memory in bytes, or ``None`` where the system does not say."""
+    try:
+        return int(os.sysconf("SC_PAGE_SIZE")) * int(os.sysconf("SC_PHYS_PAGES"))
+    except (AttributeError, ValueError, OSError):
+        return None
+
+
+def default_budget() -> int:
+    """An eighth of physical memory, between 256 MB and 4 GB."""
+    total = physical_memory()
+    if not total:
+        return 512 * 2**20
+    return int(min(max(total * DEFAULT_SHARE, DEFAULT_FLOOR), DEFAULT_CEILING))
+
+
+def parse_memory(text: str | None) -> int:
+    """Bytes from ``2GB``, ``512MB``, ``1.5G``, ``800M`` (powers of 1024); ``None``: the default.
+
+    Raises
+    ------
+    UsageError
+        On text that is not a size, or a size below 16 MB.
+    """
+    if text is None or not str(text).strip() or str(text).strip().lower() == "auto":
+        return default_budget()
+    match = _PATTERN.match(str(text))
+    if not match:
+        raise UsageError(f"--memory takes a size such as 2GB or 512MB, not {text!r}")
+    value = int(float(match.group(1)) * _UNITS[match.group(2).upper()])
+    if value < MINIMUM:
+        raise UsageError(f"--memory must be at least 16MB, not {text!r}")
+    return value
+
+
+def format_bytes(value: float) -> str:
+    """1536 -> '1.5 KB', 2147483648 -> '2.0 GB' (powers of 1024)."""
+    for unit in ("B", "KB", "MB", "GB"):
+        if abs(value) < 1024 or unit == "GB":
+            return f"{value:.0f} {unit}" if unit == "B" else f"{value:.1f} {unit}"
+        value /= 1024
+    return f"{value:.1f} GB"
