@@ -7,7 +7,7 @@ BIN := $(VENV)/bin
 STAMP := $(VENV)/.installed-test
 DEMO_OUT := demo-output
 
-.PHONY: demo test lint format bench venv clean browser
+.PHONY: demo test lint format bench bench-scale venv clean browser
 
 $(BIN)/python:
 	$(PYTHON) -m venv $(VENV)
@@ -39,6 +39,13 @@ test: $(STAMP) browser lint
 
 bench: $(STAMP)
 	$(BIN)/python benchmarks/bench_agree.py
+
+# Crowd-scale data sets (issue 14): wall time and peak memory of whole commands.
+# Pick with SETS=a,d COMMANDS=validate,agree (defaults: every set and command).
+SETS ?= a,b,c,d,r
+COMMANDS ?= validate,agree,merge,report
+bench-scale: $(STAMP)
+	$(BIN)/python benchmarks/bench_scale.py --sets $(SETS) --commands $(COMMANDS)
 
 demo: $(VENV)/.installed
 	bash scripts/demo.sh $(BIN)/coderel $(DEMO_OUT)

@@ -144,7 +144,8 @@ def main() -> None:
             elif command == "report":
                 args += ["-o", str(folder / "report.html")]
             wall, peak, code = run(args, folder / f"{command}.out")
-            print(f"{name:4}{labels:>12,}  {command:10}{wall:>9.1f}{peak:>9.2f}  {code}", flush=True)
+            row = f"{name:4}{labels:>12,}  {command:10}{wall:>9.1f}{peak:>9.2f}  {code}"
+            print(row, flush=True)
 
 
 if __name__ == "__main__":

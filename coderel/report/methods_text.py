@@ -34,6 +34,10 @@ REFERENCES: dict[str, str] = {
         "Hayes, A. F., & Krippendorff, K. (2007). Answering the call for a standard reliability "
         "measure for coding data. Communication Methods and Measures, 1(1), 77-89."
     ),
+    "hanley2006": (
+        "Hanley, J. A., & MacGibbon, B. (2006). Creating non-parametric bootstrap samples using "
+        "Poisson frequencies. Computer Methods and Programs in Biomedicine, 83(1), 57-62."
+    ),
     "efron1987": (
         "Efron, B. (1987). Better bootstrap confidence intervals. Journal of the American "
         "Statistical Association, 82(397), 171-185."
@@ -284,7 +288,7 @@ def methods_text(
         for key in ("krippendorff_alpha", *_CITED)
     )
     if repro.replicates and any_ci:
-        refs.append("hayes2007")
+        refs.extend(["hayes2007", "hanley2006"])
         if repro.interval.lower() == "bca":
             kind = "bias-corrected and accelerated (BCa) intervals (Efron, 1987)"
             refs.append("efron1987")
@@ -293,7 +297,8 @@ def methods_text(
         seed = f", random seed {repro.seed}" if repro.seed is not None else ""
         s.append(
             f"{level}% confidence intervals were obtained by bootstrapping units "
-            f"(Hayes & Krippendorff, 2007; {repro.replicates:,} replicates{seed}) as {kind}; "
+            f"(Hayes & Krippendorff, 2007; {repro.replicates:,} replicates{seed}; Poisson(1) unit "
+            f"weights, Hanley & MacGibbon, 2006) as {kind}; "
             "the coders were treated as fixed, so the intervals do not include the variation "
             "from choosing other coders."
         )
