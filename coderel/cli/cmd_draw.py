@@ -12,9 +12,7 @@ from rich.table import Table
 
 from coderel.cli.app import app
 from coderel.cli.common import JsonOption, emit_json, handle_errors, out_console, say
-from coderel.codebook.load import load_codebook
 from coderel.errors import ExitCode, UsageError
-from coderel.protocol.draw import draw_to_files
 
 
 @app.command("draw")
@@ -62,6 +60,9 @@ def draw_command(
 ) -> ExitCode:
     """Draw the reliability subsample: simple random, or stratified with proportional
     allocation; the result depends only on the seed and the set of unit IDs."""
+    from coderel.codebook.load import load_codebook
+    from coderel.protocol.draw import draw_to_files
+
     if id_column is None:
         if codebook is None and population.suffix.lower() != ".txt":
             raise UsageError("name the unit-ID column: --id COLUMN or --codebook CODEBOOK")

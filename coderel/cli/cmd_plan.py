@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from pathlib import Path
-from typing import Annotated
+from typing import TYPE_CHECKING, Annotated
 
 import typer
 from rich.markup import escape
@@ -23,11 +23,10 @@ from coderel.cli.common import (
     read_project,
     say,
 )
-from coderel.codebook.load import load_codebook
 from coderel.errors import ExitCode
-from coderel.io.tables import write_table
-from coderel.protocol.pilot import pilot_from_codings
-from coderel.protocol.sample_size import SamplePlan, plan_sample
+
+if TYPE_CHECKING:
+    from coderel.protocol.sample_size import SamplePlan
 
 
 def _n(value: int | None) -> str:
@@ -129,6 +128,11 @@ def plan_command(
 ) -> ExitCode:
     """How many units to code by two coders: Bloch & Kraemer's minimum per categorical variable
     (as in Krippendorff 2004, ch. 11) and, with a pilot, the size for a wanted interval width."""
+    from coderel.codebook.load import load_codebook
+    from coderel.io.tables import write_table
+    from coderel.protocol.pilot import pilot_from_codings
+    from coderel.protocol.sample_size import plan_sample
+
     check_table_output(out, list(pilot or []), codebook)
     cb = load_codebook(codebook)
     pilot_data = None

@@ -4,13 +4,12 @@ from __future__ import annotations
 
 import re
 from pathlib import Path
-from typing import Annotated
+from typing import TYPE_CHECKING, Annotated
 
 import typer
 from rich.markup import escape
 from rich.table import Table
 
-from coderel.agree import Estimate
 from coderel.cli.app import app
 from coderel.cli.common import (
     DEFAULT_REPLICATES,
@@ -29,6 +28,10 @@ from coderel.cli.common import (
     say,
 )
 from coderel.errors import ExitCode, InputRefused, UsageError
+
+if TYPE_CHECKING:
+    from coderel.agree import Estimate
+
 
 _COLUMNS = ("percent_agreement", "cohen_kappa", "weighted_kappa_quadratic", "krippendorff_alpha")
 _SHORT = {

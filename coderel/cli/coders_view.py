@@ -3,11 +3,15 @@ homogeneity per pair of coders, and each coder's share of each category."""
 
 from __future__ import annotations
 
+from typing import TYPE_CHECKING
+
 from rich.markup import escape
 from rich.table import Table
 
-from coderel.agree.coders import CoderDiagnostics
 from coderel.stats.homogeneity import ChiSquareTest
+
+if TYPE_CHECKING:
+    from coderel.agree.coders import CoderDiagnostics
 
 
 def _num(x: float | None, spec: str = ".3f") -> str:
