@@ -235,9 +235,16 @@ def _texts(values: list[Any], text_of: Callable[[Any], str | None]) -> tuple[np.
     return out, list(texts)
 
 
-def apply_columns(reader: Any, cols: Columns, text_of: Callable[[Any], str | None]) -> None:
+def apply_columns(
+    reader: Any,
+    cols: Columns,
+    text_of: Callable[[Any], str | None],
+    closest: Callable[[str, list[str]], str | None],
+) -> None:
     """Add the long table's records, texts and problems to ``reader`` (a ``_Reader``), exactly as
-    its row-by-row ``read_long`` would."""
+    its row-by-row ``read_long`` would. ``text_of`` and ``closest`` are the row reader's own
+    functions (an ID or name as text; the closest known name), passed in so that this module
+    does not import the reader."""
     cb = reader.codebook
     place = _Places(cols)
     n = len(cols.numbers)
@@ -320,14 +327,12 @@ def apply_columns(reader: Any, cols: Columns, text_of: Callable[[Any], str | Non
         key_names.append(var or txt)
         kinds[len(key_names) - 1] = 1 if var else (2 if txt else 0)
     kind = kinds[cols.codes[2]]
-    from coderel.io.read import _closest
-
     unknown_msg: dict[int, tuple[str, str]] = {}
     for row in np.flatnonzero(alive & (kind == 0)):
         d = int(cols.codes[2][row])
         if d not in unknown_msg:
             name = shown[d]
-            close = _closest(name or "", [*cb.names, *cb.text_columns])
+            close = closest(name or "", [*cb.names, *cb.text_columns])
             unknown_msg[d] = (
                 f"{quote(name) if name else 'a blank name'} is not a variable of the codebook",
                 (f"did you mean {close!r}? " if close else "")

@@ -928,7 +928,7 @@ def _read_long_columns(reader: _Reader, path: Path, limits: Limits) -> bool:
         columns = long_columnar.read_parquet_columns(path, limits)
     if columns is None:
         return False
-    long_columnar.apply_columns(reader, columns, _text_of)
+    long_columnar.apply_columns(reader, columns, _text_of, _closest)
     return True
 
 
