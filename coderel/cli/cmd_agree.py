@@ -28,7 +28,6 @@ from coderel.cli.common import (
     read_project,
     say,
 )
-from coderel.cli.numeric_tables import numeric_tables
 from coderel.cli.occasions import IccOrdinalOption
 from coderel.errors import ExitCode
 from coderel.memory import parse_memory
@@ -115,6 +114,7 @@ def agree_command(
 ) -> ExitCode:
     """Every agreement coefficient per variable, with seeded bootstrap intervals."""
     from coderel.agree import agreement
+    from coderel.cli.numeric_tables import numeric_tables
     from coderel.io.tables import table_format, write_table
 
     check_table_output(out, data, codebook)

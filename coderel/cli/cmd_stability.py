@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from pathlib import Path
-from typing import Annotated
+from typing import TYPE_CHECKING, Annotated
 
 import typer
 from rich.markup import escape
@@ -30,8 +30,10 @@ from coderel.cli.common import (
 )
 from coderel.cli.occasions import IccOrdinalOption, OccasionOption, attach_occasions
 from coderel.errors import ExitCode
-from coderel.io.tables import write_table
-from coderel.stability import StabilityResult, stability
+
+if TYPE_CHECKING:
+    from coderel.stability import StabilityResult
+
 
 #: Columns of the terminal table: alpha, Cohen's kappa (categorical) and ICC(A,1) (numeric).
 SHOWN = ("krippendorff_alpha", "cohen_kappa", "icc_2_1")
@@ -65,6 +67,9 @@ def stability_command(
     ] = None,
 ) -> ExitCode:
     """Each coder against their own second coding (test-retest, Krippendorff's stability)."""
+    from coderel.io.tables import write_table
+    from coderel.stability import stability
+
     check_table_output(out, data, codebook)
     codings = read_project(codebook, data, errors_note="were left out")
     codings = attach_occasions(codings, occasion, codebook)

@@ -8,7 +8,9 @@ from typing import TYPE_CHECKING
 from rich.markup import escape
 from rich.table import Table
 
-from coderel.stats.homogeneity import ChiSquareTest
+if TYPE_CHECKING:
+    from coderel.stats.homogeneity import ChiSquareTest
+
 
 if TYPE_CHECKING:
     from coderel.agree.coders import CoderDiagnostics

@@ -8,8 +8,6 @@ from typing import Any
 from rich.markup import escape
 from rich.table import Table
 
-from coderel.stats.icc import ICC_FORMS
-
 
 def _ci(value: float | None, ci: Any) -> str:
     if value is None:
@@ -23,6 +21,8 @@ def _n(value: float | None) -> str:
 
 def numeric_tables(result: Any) -> list[Table]:
     """The ICC table and the pairs table; none when no variable is numeric."""
+    from coderel.stats.icc import ICC_FORMS
+
     rows = [v for v in result.variables if getattr(v, "numeric", None) is not None]
     if not rows:
         return []
