@@ -16,7 +16,7 @@ from coderel.errors import UsageError
 DEFAULT_SHARE = 0.125
 #: Bounds of the default budget.
 DEFAULT_FLOOR = 256 * 2**20
-DEFAULT_CEILING = 4 * 2**30
+DEFAULT_CEILING = 1 * 2**30
 #: The smallest budget accepted from the command line.
 MINIMUM = 16 * 2**20
 
@@ -33,7 +33,7 @@ def physical_memory() -> int | None:
 
 
 def default_budget() -> int:
-    """An eighth of physical memory, between 256 MB and 4 GB."""
+    """An eighth of physical memory, between 256 MB and 1 GB."""
     total = physical_memory()
     if not total:
         return 512 * 2**20

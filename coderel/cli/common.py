@@ -59,7 +59,7 @@ MemoryOption = Annotated[
     typer.Option(
         "--memory",
         help="Memory for the bootstrap's blocks of units, e.g. 2GB or 512MB (default: an eighth "
-        "of the machine's memory, between 256MB and 4GB).",
+        "of the machine's memory, between 256MB and 1GB).",
     ),
 ]
 DecisionsOption = Annotated[
@@ -344,7 +344,9 @@ def read_project(codebook: Path, data: list[Path], *, errors_note: str) -> Codin
     from coderel.codebook.load import load_codebook
     from coderel.io.read import read_codings
 
-    codings = read_codings(load_codebook(codebook), data)
+    cb = load_codebook(codebook)
+    with delayed_progress("reading and checking the sheets") as step:
+        codings = read_codings(cb, data, progress=step)
     refused = codings.problems.refused
     if refused:
         raise InputRefused(

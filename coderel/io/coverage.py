@@ -19,6 +19,7 @@ import re
 from collections.abc import Iterable, Sequence
 from typing import Any
 
+import numpy as np
 import pandas as pd
 
 from coderel.problems import Problems
@@ -73,12 +74,14 @@ def drop_uncoded(frame: pd.DataFrame, problems: Problems) -> pd.DataFrame:
     """
     if frame.empty:
         return frame
-    keys = pd.MultiIndex.from_arrays([frame["unit"], frame["coder"]])
-    coded = written(frame).groupby(keys, sort=False).any()
-    blank = coded[~coded]
-    if blank.empty:
+    # (unit, coder) pairs as integers: whole columns, no loop over rows
+    unit_codes, _ = pd.factorize(frame["unit"])
+    coder_codes, coder_names = pd.factorize(frame["coder"])
+    pair = unit_codes.astype(np.int64) * max(len(coder_names), 1) + coder_codes
+    coded = np.unique(pair[written(frame).to_numpy(dtype=bool)])
+    drop = ~np.isin(pair, coded)
+    if not drop.any():
         return frame
-    drop = keys.isin(blank.index)  # whole columns, no loop over rows
     dropped = frame.loc[drop]
     for coder, rows in dropped.groupby("coder", sort=False):
         units = list(dict.fromkeys(rows["unit"]))

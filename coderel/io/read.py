@@ -24,7 +24,7 @@ import datetime as dt
 import difflib
 import functools
 import re
-from collections.abc import Iterable, Sequence
+from collections.abc import Callable, Iterable, Sequence
 from dataclasses import dataclass, field
 from os import PathLike
 from pathlib import Path
@@ -783,8 +783,9 @@ class _Reader:
             )
 
     def check_partial_units(self, frame: pd.DataFrame) -> None:
-        unit_codes, units = pd.factorize(frame["unit"])
-        coder_codes, coders = pd.factorize(frame["coder"])
+        unit_codes, unit_index = pd.factorize(frame["unit"])
+        coder_codes, coder_index = pd.factorize(frame["coder"])
+        units, coders = list(unit_index), list(coder_index)
         n_coders = len(coders)
         if n_coders < 2:
             return
@@ -796,11 +797,10 @@ class _Reader:
             return
         # IDs that differ only in leading zeros, case or inner spaces ("001" and 1, once a
         # spreadsheet has turned the text into a number) are most likely one unit.
-        loose = pd.Series(units, dtype=object).map(_loose_id)
+        loose = [_loose_id(u) for u in units]
         alike: dict[str, list[str]] = {}
-        for key, group in pd.Series(units, dtype=object).groupby(loose.to_numpy(), sort=False):
-            if len(group) > 1:
-                alike[str(key)] = list(group)
+        for key, unit in zip(loose, units, strict=True):
+            alike.setdefault(key, []).append(unit)
         starts = np.searchsorted(pair_unit, partial)
         # coder names that differ only in case or spaces: "did you mean" (io/coverage.py)
         keys = [coder_key(c) for c in coders]
@@ -815,7 +815,7 @@ class _Reader:
             present = [c for i, c in enumerate(coders) if i in present_codes]
             absent_codes = [i for i in range(n_coders) if i not in present_codes]
             absent = [coders[i] for i in absent_codes]
-            others = [x for x in alike.get(loose.iat[u], ()) if x != unit]
+            others = [x for x in alike[loose[u]] if x != unit]
             hint = "code the unit by every coder, or accept that agreement for it uses fewer coders"
             meant = []
             for i in absent_codes:
@@ -1001,7 +1001,11 @@ def _read_file(reader: _Reader, path: Path, limits: Limits) -> bool:
 
 
 def read_codings(
-    codebook: Codebook, paths: Sequence[str | Path] | str | Path, *, limits: Limits = DEFAULT_LIMITS
+    codebook: Codebook,
+    paths: Sequence[str | Path] | str | Path,
+    *,
+    limits: Limits = DEFAULT_LIMITS,
+    progress: Callable[[int, int], None] | None = None,
 ) -> Codings:
     """Read coders' sheets (files or folders) into one long table, collecting every problem.
 
@@ -1014,6 +1018,8 @@ def read_codings(
         given alone.
     limits
         Safety limits applied before a file is parsed.
+    progress
+        Called as ``progress(done, total)`` after each file and each check of the whole table.
 
     Returns
     -------
@@ -1029,26 +1035,36 @@ def read_codings(
     files = collect_files(paths)
     reader = _Reader(codebook)
     sources: list[SourceFile] = []
-    for path in files:
+    steps = len(files) + 3
+
+    def step(done: int) -> None:
+        if progress is not None:
+            progress(done, steps)
+
+    for done, path in enumerate(files, 1):
         if _read_file(reader, path, limits):
             sources.append(
                 SourceFile(path=str(path), sha256=sha256_file(path), size=path.stat().st_size)
             )
+        step(done)
     frame = pd.DataFrame(reader.records, columns=RECORD_COLUMNS)
     if reader.frames:
         frame = pd.concat([*reader.frames, frame], ignore_index=True)
     frame = frame.astype(object)
     frame = frame.where(frame.notna(), None) if len(frame) else frame
     frame = drop_uncoded(frame, reader.problems)  # one rule for every path: see io/coverage.py
+    step(len(files) + 1)
     occasions = None
     if len(frame):
         frame = reader.check_skip_logic(frame)
         frame, occasions = split_occasions(frame, reader.problems)
         warn_alike_coders(frame, reader.problems)
         reader.check_blank_variables(frame)
+        step(len(files) + 2)
         reader.check_partial_units(frame)
     else:
         frame["applies"] = []
+    step(len(files) + 3)
     texts = pd.DataFrame(reader.texts, columns=list(TEXT_COLUMNS)).astype(object)
     return Codings.from_records(
         codebook,
