@@ -55,6 +55,9 @@ _DATE_TEXT = re.compile(
 )
 #: Longest raw value quoted in a message; longer values are summarised by their length.
 _QUOTE_LIMIT = 40
+#: Longest number accepted, in characters (digits, sign, point, exponent); a double holds
+#: about 17 significant digits and nothing above 1.8e308, so a longer number is refused.
+MAX_NUMBER_CHARS = 300
 
 
 @dataclass(frozen=True, slots=True)
@@ -183,6 +186,8 @@ class _Matcher:
                 self.by_label.setdefault(label.strip().casefold(), code)
 
     def _by_number(self, number: float) -> Code | None:
+        if isinstance(number, float) and not math.isfinite(number):
+            return None  # 1e999 is no code (int() of an infinity fails)
         if isinstance(number, float) and not number.is_integer():
             text = str(number)
             return self.by_text.get(text)
@@ -350,6 +355,8 @@ def normalise_cell(variable: Variable, raw: Any, *, typed: bool = True) -> Norma
             f"the cell holds a date or time, not a value of {variable.name}",
             DATE_HINT,
         )
+    if (too_long := _too_long_number(raw)) is not None:
+        return too_long
     findings: list[Finding] = []
     if isinstance(raw, str):
         stripped = raw.strip()
@@ -366,6 +373,29 @@ def normalise_cell(variable: Variable, raw: Any, *, typed: bool = True) -> Norma
         result = _numeric(variable, raw, typed=typed)
         return Normalised(result.value, result.missing, False, (*findings, *result.findings))
     return _categorical(variable, raw, typed=typed, findings=findings)
+
+
+def _too_long_number(raw: Any) -> Normalised | None:
+    """A ``number-too-long`` error for a number past :data:`MAX_NUMBER_CHARS` characters.
+
+    Python refuses to convert integers of more than 4,300 digits to and from text, and a float
+    overflows past 1.8e308: such a value is reported here, before anything converts it.
+    """
+    if isinstance(raw, int) and not isinstance(raw, bool):
+        # bit_length is cheap on any int; 997 bits is about 300 decimal digits
+        long = raw.bit_length() > MAX_NUMBER_CHARS * 3.32
+    elif isinstance(raw, str):
+        token = raw.strip()
+        long = len(token) > MAX_NUMBER_CHARS and bool(_NUMBER.match(token))
+    else:
+        return None
+    if not long:
+        return None
+    return _invalid(
+        "number-too-long",
+        f"the cell holds a number of more than {MAX_NUMBER_CHARS} characters",
+        "type the value of the codebook (a code or a number in range)",
+    )
 
 
 def _categorical(

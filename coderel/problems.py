@@ -48,6 +48,7 @@ PROBLEM_CODES: dict[str, tuple[Severity, str]] = {
         "error",
         "a quote in a CSV file is never closed; the rows after it are lost",
     ),
+    "too-many-columns": ("error", "a CSV row has more cells than the column limit"),
     "empty-sheet": ("error", "a sheet or file holds no data rows"),
     "duplicate-coder": ("error", "two files or sheets claim the same coder"),
     "unknown-column": (
@@ -64,6 +65,7 @@ PROBLEM_CODES: dict[str, tuple[Severity, str]] = {
     ),
     "not-in-codebook": ("error", "a value is not a code of its variable"),
     "not-a-number": ("error", "a numeric variable holds text"),
+    "number-too-long": ("error", "a number of more than 300 characters (no codebook value)"),
     "out-of-range": ("error", "a number outside the variable's range"),
     "not-integer": ("error", "a count variable holds a fraction"),
     "multiple-not-allowed": ("error", "several codes in a single-choice variable"),

@@ -327,8 +327,13 @@ def test_merge_killed_mid_write_leaves_old_output_intact(tmp_path, mode):
     assert out.read_bytes() == old
     assert log.read_bytes() == old_log
     leftovers = [p.name for p in tmp_path.iterdir() if p.name.endswith(".tmp")]
-    assert all(name.startswith(".merged.csv.") for name in leftovers)
-    assert len(leftovers) == 1  # the unfinished temporary file, never renamed into place
+    assert all(name.startswith(f".merged.csv.{proc.pid}-") for name in leftovers)
+    # the unfinished temporary file, never renamed into place (and the link that kept the
+    # previous dataset until the audit line was written)
+    assert len([n for n in leftovers if not n.endswith("-previous.tmp")]) == 1
+    # the next write removes the temporary files of the killed process
+    assert invoke("merge", "-c", cb, sheets, "-o", out).exit_code == 0
+    assert not [p.name for p in tmp_path.iterdir() if p.name.endswith(".tmp")]
 
 
 def test_csv_list_decisions_and_stale_ones_reported(project):

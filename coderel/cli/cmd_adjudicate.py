@@ -109,6 +109,6 @@ def adjudicate_command(
         f"({len(adjudication.retired)} there in all); rule: {settling.describe()}."
     )
     if problems.errors:
-        say("[red]some decisions are not valid codes; fix the cells listed above[/red]")
+        say("some decisions are not valid codes; fix the cells listed above", style="red")
         return ExitCode.DATA_PROBLEMS
     return ExitCode.OK

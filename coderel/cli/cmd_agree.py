@@ -6,7 +6,6 @@ from pathlib import Path
 from typing import TYPE_CHECKING, Annotated
 
 import typer
-from rich.markup import escape
 from rich.table import Table
 
 from coderel.cli.app import app
@@ -63,8 +62,7 @@ def _pairs_tables(result: AgreementResult) -> list[Table]:
             continue
         cell = {(p.coder_a, p.coder_b): p for p in v.pairs}
         table = Table(
-            title=f"{escape(v.variable)}: pairwise alpha (upper right) and percent agreement "
-            "(lower left)"
+            title=f"{v.variable}: pairwise alpha (upper right) and percent agreement (lower left)"
         )
         table.add_column("coder")
         for c in coders:
@@ -172,7 +170,7 @@ def agree_command(
         table.add_column(col)
     for v in result.variables:
         table.add_row(
-            escape(v.variable),
+            v.variable,
             v.level,
             str(v.units),
             str(v.pairable_values),
@@ -183,7 +181,7 @@ def agree_command(
     console.print(table)
     for v in result.variables:
         for note in v.notes:
-            console.print(escape(f"{v.variable}: {note}"))
+            console.print(f"{v.variable}: {note}")
     for t in numeric_tables(result):
         console.print(t)
     if pairs:
@@ -195,7 +193,7 @@ def agree_command(
         for t in coder_tables(diagnostics):
             console.print(t)
         for note in diagnostics.notes:
-            console.print(escape(note))
+            console.print(note)
     say(
         "Verdicts compare alpha with the codebook's thresholds (conventions: Krippendorff 2004). "
         "Reliability is not validity: agreeing coders can still share a wrong reading."

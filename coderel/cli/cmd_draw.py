@@ -7,7 +7,6 @@ from pathlib import Path
 from typing import Annotated
 
 import typer
-from rich.markup import escape
 from rich.table import Table
 
 from coderel.cli.app import app
@@ -97,12 +96,12 @@ def draw_command(
         return ExitCode.OK
     console = out_console()
     if d.strata:
-        table = Table(title=f"Drawn per stratum ({escape(d.method)})")
+        table = Table(title=f"Drawn per stratum ({d.method})")
         for c in (*d.strata_columns, "population", "exact share", "drawn"):
-            table.add_column(escape(c))
+            table.add_column(c)
         for s in d.strata:
             table.add_row(
-                *(escape(v) for v in s.values),
+                *(v for v in s.values),
                 f"{s.population:,}",
                 f"{s.exact_share:.2f}",
                 f"{s.drawn:,}",

@@ -56,7 +56,7 @@ def merge_command(
     """One row per unit, a final value and a status per variable; an audit line per merge."""
     from coderel.adjudicate import read_decisions
     from coderel.adjudicate.rules import Settling, parse_tolerances
-    from coderel.audit import append_audit, audit_path
+    from coderel.audit import audit_path, write_audited
     from coderel.io.atomic import refuse_overwriting_inputs
     from coderel.io.read import collect_files
     from coderel.io.tables import table_format
@@ -86,16 +86,29 @@ def merge_command(
     elif strict and result.unresolved:
         reason = f"--strict and {len(result.unresolved)} unresolved cell(s)"
     log = None
+    was_out_of_step = False
     if reason is None:
-        write_merged(result, out, cb, spread=spread)
-        log = append_audit(result, out, codebook_path=codebook, spread=spread)
+        log, was_out_of_step = write_audited(
+            result,
+            out,
+            lambda: write_merged(result, out, cb, spread=spread),
+            codebook_path=codebook,
+            spread=spread,
+        )
         written = True
+        if was_out_of_step:
+            say(
+                f"note: the dataset {out} found before this merge did not match the last line "
+                "of its audit log (an earlier merge was cut off, or the file was edited); it "
+                "was replaced and this merge logged"
+            )
     if json_out:
         emit_json(
             {
                 "output": str(out) if written else None,
                 "audit_log": str(log) if log is not None else None,
                 "written": written,
+                "was_out_of_step": was_out_of_step,
                 "not_written_because": reason,
                 **result.to_dict(),
             }
@@ -111,7 +124,7 @@ def merge_command(
         f"{counts} (rule: {Settling(rule, tolerances).describe()})."
     )
     if not written:
-        say(f"[red]nothing written: {reason}[/red]")
+        say(f"nothing written: {reason}", style="red")
         return ExitCode.DATA_PROBLEMS
     say(f"dataset written to {out}; audit line appended to {log}")
     if result.unresolved:

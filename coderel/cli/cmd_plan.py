@@ -6,7 +6,6 @@ from pathlib import Path
 from typing import TYPE_CHECKING, Annotated
 
 import typer
-from rich.markup import escape
 from rich.table import Table
 
 from coderel.cli.app import app
@@ -49,11 +48,11 @@ def _print(result: SamplePlan) -> None:
     table.add_column("N")
     for v in result.variables:
         row = [
-            escape(v.variable),
+            v.variable,
             v.level,
             str(v.categories) if v.categories else "-",
             _f(v.smallest_share),
-            escape(v.share_source or "-"),
+            v.share_source or "-",
             _f(v.alpha_min),
             _n(v.n_minimum),
         ]
@@ -65,22 +64,21 @@ def _print(result: SamplePlan) -> None:
     if len(curve):
         ct = Table(title="Expected half-width of alpha's 95% interval at n units (pilot bootstrap)")
         for col in curve.columns:
-            ct.add_column(escape(str(col)), justify="right")
+            ct.add_column(str(col), justify="right")
         for row in curve.itertuples(index=False):
             ct.add_row(str(row[0]), *(_f(w) if w == w else "-" for w in row[1:]))
         console.print(ct)
     for v in result.variables:
         for note in v.notes:
-            console.print(escape(f"{v.variable}: {note}"))
+            console.print(f"{v.variable}: {note}")
     for note in result.notes:
-        console.print(escape(f"note: {note}"))
+        console.print(f"note: {note}")
     b = result.binding
     if b is None:
         console.print("no variable could be planned (see the notes)")
     else:
         console.print(
-            f"recommendation: {b.n:,} units coded by two coders (binding variable: "
-            f"{escape(b.variable)})"
+            f"recommendation: {b.n:,} units coded by two coders (binding variable: {b.variable})"
         )
 
 

@@ -7,7 +7,6 @@ from pathlib import Path
 from typing import TYPE_CHECKING, Annotated
 
 import typer
-from rich.markup import escape
 from rich.table import Table
 
 from coderel.cli.app import app
@@ -125,7 +124,7 @@ def score_command(
     for trainee in result.trainees:
         s = result.summary(trainee)
         table = Table(
-            title=f"{escape(trainee)} against the key ({result.key_coder}, {result.key_units} "
+            title=f"{trainee} against the key ({result.key_coder}, {result.key_units} "
             f"units; {replicates} bootstrap replicates, seed {seed})"
         )
         for col in ("variable", "level", "units", *(_SHORT[c] for c in _COLUMNS)):
@@ -135,7 +134,7 @@ def score_command(
         table.add_column("verdict")
         for v in (x for x in result.scores if x.trainee == trainee):
             table.add_row(
-                escape(v.variable),
+                v.variable,
                 v.level,
                 str(v.units),
                 *(_fmt(v.coefficients.get(c), se=c != "percent_agreement") for c in _COLUMNS),
@@ -146,13 +145,13 @@ def score_command(
         console.print(table)
         if s.below:
             console.print(
-                f"{escape(trainee)}: {s.passed} of {s.variables} variables pass; below the "
-                f"training threshold: {escape(', '.join(s.below))}; {s.differences} difference(s) "
+                f"{trainee}: {s.passed} of {s.variables} variables pass; below the "
+                f"training threshold: {', '.join(s.below)}; {s.differences} difference(s) "
                 "from the key to go through"
             )
         else:
             console.print(
-                f"{escape(trainee)}: {s.passed} of {s.variables} variables pass; none below the "
+                f"{trainee}: {s.passed} of {s.variables} variables pass; none below the "
                 f"training threshold; {s.differences} difference(s) from the key"
             )
     for note in result.notes:

@@ -6,7 +6,6 @@ from pathlib import Path
 from typing import TYPE_CHECKING, Annotated
 
 import typer
-from rich.markup import escape
 from rich.table import Table
 
 from coderel.cli.app import app
@@ -96,8 +95,8 @@ def stability_command(
             continue
         for v in c.agreement.variables:
             table.add_row(
-                escape(c.coder),
-                escape(v.variable),
+                c.coder,
+                v.variable,
                 v.level,
                 str(v.units),
                 *(_fmt(v.coefficients.get(k)) for k in SHOWN),
@@ -106,7 +105,7 @@ def stability_command(
     console = out_console()
     console.print(table)
     for line in recoding_sentence(result):
-        console.print(escape(line))
+        console.print(line)
     say(
         "Stability is one coder agreeing with themselves over time (Krippendorff 2004, 11.1); it "
         "does not show that different coders agree. Verdicts use the codebook's thresholds."

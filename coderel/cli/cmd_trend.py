@@ -7,7 +7,6 @@ from pathlib import Path
 from typing import Annotated
 
 import typer
-from rich.markup import escape
 from rich.table import Table
 
 from coderel.cli.app import app
@@ -118,15 +117,15 @@ def trend_command(
             cells.append("-" if a.estimate is None else f"{a.estimate:.3f}{_interval(a.ci)}")
         for c in (c for c in result.changes if c.variable == var):
             cells.append(_signed(c.change, c.ci))
-        table.add_row(escape(var), *cells)
+        table.add_row(var, *cells)
     console.print(table)
     drift = Table(title="Coders: mean pairwise agreement with the others, by round")
     for col in ("coder", "round", "agreement", "change", "others' change", "flag"):
         drift.add_column(col)
     for c in result.coders:
         drift.add_row(
-            escape(c.coder),
-            escape(c.round),
+            c.coder,
+            c.round,
             "-" if c.agreement is None else f"{c.agreement:.3f}{_interval(c.ci)}",
             _signed(c.change, c.change_ci),
             _signed(c.others_change),
@@ -135,7 +134,7 @@ def trend_command(
     console.print(drift)
     for c in result.drifting:
         console.print(
-            f"{escape(c.coder)} in {escape(c.round)}: agreement with the others fell by "
+            f"{c.coder} in {c.round}: agreement with the others fell by "
             f"{-c.change:.3f} (interval {_signed(c.change, c.change_ci)}) while the others "
             f"changed by {_signed(c.others_change)}"
         )

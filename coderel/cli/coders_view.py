@@ -5,7 +5,6 @@ from __future__ import annotations
 
 from typing import TYPE_CHECKING
 
-from rich.markup import escape
 from rich.table import Table
 
 if TYPE_CHECKING:
@@ -44,11 +43,11 @@ def coder_tables(diag: CoderDiagnostics) -> list[Table]:
         drop.add_column("variable")
         drop.add_column("alpha")
         for c in coders:
-            drop.add_column(f"without {escape(c)}")
+            drop.add_column(f"without {c}")
         drop.add_column("alpha rises most without")
         for v in diag.variables:
             cells = {d.coder: d for d in v.drop_one}
-            row = [escape(v.variable), _num(v.alpha)]
+            row = [v.variable, _num(v.alpha)]
             for c in coders:
                 d = cells.get(c)
                 row.append(
@@ -57,7 +56,7 @@ def coder_tables(diag: CoderDiagnostics) -> list[Table]:
                     else f"{d.alpha_without:.3f} ({d.change:+.3f})"
                 )
             low = v.lowers_most
-            row.append(escape(low.coder) if low else "")
+            row.append(low.coder if low else "")
             drop.add_row(*row)
         tables.append(drop)
     homo = Table(
@@ -68,8 +67,8 @@ def coder_tables(diag: CoderDiagnostics) -> list[Table]:
     for v in diag.variables:
         for h in v.homogeneity:
             homo.add_row(
-                escape(v.variable),
-                f"{escape(h.coder_a)} / {escape(h.coder_b)}",
+                v.variable,
+                f"{h.coder_a} / {h.coder_b}",
                 str(h.units),
                 *(
                     _test(h.tests.get(k))
@@ -83,12 +82,12 @@ def coder_tables(diag: CoderDiagnostics) -> list[Table]:
     shares.add_column("category")
     shares.add_column("pooled")
     for c in coders:
-        shares.add_column(escape(c))
+        shares.add_column(c)
     for v in diag.variables:
         for s in v.shares:
             shares.add_row(
-                escape(v.variable),
-                escape(f"{s.code} = {s.label}"),
+                v.variable,
+                f"{s.code} = {s.label}",
                 _num(s.pooled, ".1%"),
                 *(_num(s.by_coder.get(c), ".1%") for c in coders),
             )

@@ -11,6 +11,7 @@ import functools
 import json
 import math
 import os
+import re
 import sys
 import time
 import traceback
@@ -23,8 +24,17 @@ import typer
 from rich.console import Console
 from rich.progress import BarColumn, Progress, TaskProgressColumn, TextColumn, TimeElapsedColumn
 from rich.table import Table
+from rich.text import Text
 
-from coderel.errors import CodebookError, CoderelError, DataProblems, ExitCode, InputRefused
+from coderel.errors import (
+    CodebookError,
+    CoderelError,
+    DataProblems,
+    ExitCode,
+    InputRefused,
+    UsageError,
+)
+from coderel.io.atomic import FULL_DISK_ERRORS
 from coderel.problems import Problems
 
 if TYPE_CHECKING:
@@ -91,7 +101,43 @@ def _is_terminal(stream: Any) -> bool:
     return bool(getattr(stream, "isatty", lambda: False)())
 
 
-class _DataConsole(Console):
+#: Terminal control sequences (CSI such as ``ESC [ 2 J``, OSC such as a window title or a
+#: hyperlink, other ESC pairs) and single control characters other than line break and tab.
+_CONTROL = re.compile(
+    r"\x1b\[[0-?]*[ -/]*[@-~]"  # CSI
+    r"|\x1b\][^\x07\x1b]*(?:\x07|\x1b\\)?"  # OSC, ended by BEL or ST
+    r"|\x1b[@-Z\\-_]?"  # other escapes (and a lone ESC)
+    r"|[\x00-\x08\x0b-\x1f\x7f-\x9f]"
+)
+
+
+def shown(text: object, encoding: str | None = None) -> str:
+    """Text from the data made safe for a terminal: every control sequence or character is
+    replaced by its escaped form (``\\x1b``), so that a unit ID cannot move the cursor, clear
+    the screen or set a window title. Characters a terminal's encoding cannot show become
+    ``\\uXXXX`` escapes (a file name with a byte that is not UTF-8, non-Latin names on an
+    ASCII terminal)."""
+    out = _CONTROL.sub(lambda m: m.group(0).encode("unicode_escape").decode("ascii"), str(text))
+    encoding = encoding or getattr(sys.stdout, "encoding", None) or "utf-8"
+    try:
+        out.encode(encoding)
+    except (UnicodeEncodeError, LookupError):
+        out = out.encode(encoding, "backslashreplace").decode(encoding, "replace")
+    except UnicodeError:
+        out = out.encode("ascii", "backslashreplace").decode("ascii")
+    return out
+
+
+class _SafeConsole(Console):
+    """A console that never reads markup in text: user data (``[/]`` in a unit ID) is printed as
+    it is, control sequences are escaped (:func:`shown`). Colour is given with ``style=``."""
+
+    def render_str(self, text: str, **kwargs: Any) -> Any:
+        kwargs.update(markup=False, emoji=False)
+        return super().render_str(shown(text, getattr(self.file, "encoding", None)), **kwargs)
+
+
+class _DataConsole(_SafeConsole):
     """A console whose closed pipe ends the command like any other (exit 0, see handle_errors).
 
     rich's own handling exits with 1, which coderel reserves for data problems.
@@ -102,7 +148,7 @@ class _DataConsole(Console):
         raise BrokenPipeError
 
 
-def _console(stream: Any, kind: type[Console] = Console) -> Console:
+def _console(stream: Any, kind: type[Console] = _SafeConsole) -> Console:
     """Plain text, 200 columns wide, when ``stream`` is not a terminal or NO_COLOR is set."""
     plain = not _is_terminal(stream) or "NO_COLOR" in os.environ
     return kind(
@@ -153,15 +199,40 @@ def _jsonable(obj: Any) -> Any:
 
 
 def emit_json(obj: Any) -> None:
-    """Write ``obj`` as JSON on stdout (NaN and infinities become ``null``)."""
-    sys.stdout.write(json.dumps(_jsonable(obj), indent=2, ensure_ascii=False, allow_nan=False))
-    sys.stdout.write("\n")
-    sys.stdout.flush()
+    """Write ``obj`` as JSON on stdout (NaN and infinities become ``null``).
+
+    Text stays readable (not ``\\u`` escaped) when stdout is UTF-8; on any other encoding
+    everything outside ASCII is escaped, which every JSON reader decodes the same. Characters
+    that are no Unicode text (a file name's byte that is not UTF-8) are escaped too.
+
+    Raises
+    ------
+    UsageError
+        When stdout cannot be written (``--json > /dev/full``: no space left).
+    """
+    encoding = (getattr(sys.stdout, "encoding", None) or "").lower().replace("-", "")
+    data = _jsonable(obj)
+    try:
+        text = json.dumps(data, indent=2, ensure_ascii=encoding != "utf8", allow_nan=False)
+        text.encode(encoding or "utf-8")
+    except (UnicodeError, LookupError):  # lone surrogates from undecodable file names
+        text = json.dumps(data, indent=2, ensure_ascii=True, allow_nan=False)
+    try:
+        sys.stdout.write(text)
+        sys.stdout.write("\n")
+        sys.stdout.flush()
+    except BrokenPipeError:
+        raise
+    except OSError as exc:
+        _silence_stdout()
+        raise UsageError(
+            f"cannot write to standard output: {exc.strerror or type(exc).__name__}"
+        ) from None
 
 
-def say(message: str) -> None:
-    """A message for the person at the terminal (stderr)."""
-    err_console().print(message)
+def say(message: str, style: str | None = None) -> None:
+    """A message for the person at the terminal (stderr); no markup is read in it."""
+    err_console().print(message, style=style)
 
 
 #: A kind of problem (code) found more often than this for one coder is shown as one summary row
@@ -200,7 +271,7 @@ def problems_table(
     rows, _ = _summary_rows(problems, summarise) if summarise else (list(problems), 0)
     for row in rows:
         p = row[0] if isinstance(row, list) else row
-        sev = "[red]error[/red]" if p.severity == "error" else "[yellow]warning[/yellow]"
+        sev = Text("error", style="red") if p.severity == "error" else Text("warning", "yellow")
         if isinstance(row, list):
             units = len({q.unit for q in row if q.unit})
             variables = sorted({q.variable for q in row if q.variable})
@@ -287,17 +358,17 @@ def handle_errors(func: F) -> F:
             raise
         except (CodebookError, DataProblems) as exc:
             print_problems(exc.problems)
-            say(f"[red]{exc}[/red]")
+            say(str(exc), style="red")
             json_error(exc, exc.exit_code, exc.problems)
             raise typer.Exit(int(exc.exit_code)) from None
         except InputRefused as exc:
             if exc.problems:
                 print_problems(exc.problems)
-            say(f"[red]input refused:[/red] {exc}")
+            say(f"input refused: {exc}", style="red")
             json_error(exc, ExitCode.INPUT_REFUSED, exc.problems)
             raise typer.Exit(int(ExitCode.INPUT_REFUSED)) from None
         except CoderelError as exc:
-            say(f"[red]error:[/red] {exc}")
+            say(f"error: {exc}", style="red")
             json_error(exc, exc.exit_code, None)
             raise typer.Exit(int(exc.exit_code)) from None
         except KeyboardInterrupt:
@@ -307,19 +378,36 @@ def handle_errors(func: F) -> F:
             # The reader of stdout went away (``coderel ... --json | head``): stop quietly.
             _silence_stdout()
             raise typer.Exit(int(ExitCode.OK)) from None
+        except OSError as exc:
+            if exc.errno not in FULL_DISK_ERRORS:
+                _internal_error()
+            # A disk that filled up (or a file-size limit) in a temporary file of a library:
+            # the outputs are written atomically, so none was changed.
+            where = f" {exc.filename!r}" if isinstance(exc.filename, str) else ""
+            say(
+                f"error: cannot write{where}: {exc.strerror or type(exc).__name__}; nothing "
+                "was changed (earlier outputs stay as they were); free some space and run again",
+                style="red",
+            )
+            raise typer.Exit(int(ExitCode.USAGE)) from None
         except Exception:
-            if os.environ.get("CODEREL_DEBUG"):
-                traceback.print_exc()
-            else:
-                say(_safe_traceback())
-                say(
-                    "This is a bug in coderel. Messages are withheld because they could quote "
-                    "your data; set CODEREL_DEBUG=1 to see them."
-                )
-            raise typer.Exit(int(ExitCode.INTERNAL)) from None
+            _internal_error()
         raise typer.Exit(int(code or ExitCode.OK))
 
     return wrapper  # type: ignore[return-value]
+
+
+def _internal_error() -> None:
+    """Report the exception being handled as a bug (exit 4), without its message."""
+    if os.environ.get("CODEREL_DEBUG"):
+        traceback.print_exc()
+    else:
+        say(_safe_traceback())
+        say(
+            "This is a bug in coderel. Messages are withheld because they could quote "
+            "your data; set CODEREL_DEBUG=1 to see them."
+        )
+    raise typer.Exit(int(ExitCode.INTERNAL)) from None
 
 
 def check_table_output(out: Path | None, data: list[Path], codebook: Path) -> None:

@@ -5,7 +5,6 @@ from __future__ import annotations
 
 from typing import Any
 
-from rich.markup import escape
 from rich.table import Table
 
 
@@ -44,7 +43,7 @@ def numeric_tables(result: Any) -> list[Table]:
         d = v.numeric
         if d.icc is not None:
             icc.add_row(
-                escape(v.variable),
+                v.variable,
                 str(d.icc.units_used),
                 str(d.icc.units_left_out),
                 *(_ci(f.estimate, f.ci_f) for f in d.icc.forms),
@@ -53,8 +52,8 @@ def numeric_tables(result: Any) -> list[Table]:
             lo = p.limits
             pb = lo.proportional_bias
             pairs.add_row(
-                escape(v.variable),
-                escape(f"{p.coder_a} - {p.coder_b}"),
+                v.variable,
+                f"{p.coder_a} - {p.coder_b}",
                 str(lo.n),
                 _ci(p.ccc.estimate, p.ccc.ci_z),
                 _n(lo.mean_difference),

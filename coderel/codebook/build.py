@@ -28,7 +28,7 @@ from coderel.codebook.model import (
     Thresholds,
     Variable,
 )
-from coderel.codebook.nodes import Node, plain_to_node
+from coderel.codebook.nodes import Node, TooDeep, plain_to_node, too_deep_problem
 from coderel.problems import Problems
 
 __all__ = ["CodebookBuilder", "codebook_from_data"]
@@ -39,7 +39,12 @@ def codebook_from_data(
 ) -> tuple[Codebook | None, Problems]:
     """Check plain data in the YAML shape (already parsed, e.g. from JSON); same checks as YAML."""
     problems = Problems()
-    codebook = CodebookBuilder(problems, file).build(plain_to_node(data), source=source)
+    try:
+        root = plain_to_node(data)
+    except TooDeep:
+        too_deep_problem(problems, file, None)
+        return None, problems
+    codebook = CodebookBuilder(problems, file).build(root, source=source)
     return (None if problems.errors else codebook), problems
 
 

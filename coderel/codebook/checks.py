@@ -32,6 +32,8 @@ __all__ = [
 
 #: Longest text code accepted; codes are meant to be short.
 MAX_CODE_LENGTH = 64
+#: Whole-number codes fit a 64-bit integer (the integer columns of the outputs).
+_INT64_MIN, _INT64_MAX = -(2**63), 2**63 - 1
 
 TOP_KEYS = ("title", "version", "unit", "description", "text_columns", "thresholds", "variables")
 VARIABLE_KEYS = (
@@ -158,6 +160,15 @@ class FieldChecker:
             raw = node.raw if node.raw is not None else str(value).lower()
             hint = f"put quotes around it: '{raw}'" if raw else None
         elif isinstance(value, int):
+            if not _INT64_MIN <= value <= _INT64_MAX:
+                self.add(
+                    "codebook-field",
+                    f"{what} is a whole number too large for a code",
+                    node,
+                    variable=variable,
+                    hint="use a code between -9223372036854775808 and 9223372036854775807",
+                )
+                return None
             return value
         elif isinstance(value, str):
             if not value.strip() or value != value.strip():
@@ -201,6 +212,18 @@ class FieldChecker:
 
     def number(self, node: Node, what: str, variable: str | None) -> float | None:
         value = node.value
+        if isinstance(value, int) and not isinstance(value, bool):
+            try:
+                value = float(value)
+            except OverflowError:  # a whole number of hundreds of digits
+                self.add(
+                    "bad-range" if what.startswith("range") else "codebook-field",
+                    f"{what} is a number too large to compute with",
+                    node,
+                    variable=variable,
+                    hint="use a number below 1e308",
+                )
+                return None
         if (
             isinstance(value, bool)
             or not isinstance(value, int | float)

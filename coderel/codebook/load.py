@@ -22,7 +22,7 @@ from coderel.codebook.build import CodebookBuilder, codebook_from_data
 from coderel.codebook.checks import MAX_CODE_LENGTH
 from coderel.codebook.frictionless import table_schema_problems
 from coderel.codebook.model import Codebook
-from coderel.codebook.nodes import compose_yaml
+from coderel.codebook.nodes import compose_yaml, too_deep_problem
 from coderel.errors import CodebookError, InputRefused, UsageError
 from coderel.problems import Problems
 
@@ -121,6 +121,17 @@ def _load(path: Path) -> tuple[Codebook | None, Problems]:
                 hint="check brackets, commas and quotes near this line",
                 file=path.name,
                 line=exc.lineno,
+            )
+            return None, problems
+        except RecursionError:
+            too_deep_problem(problems, path.name, None)
+            return None, problems
+        except ValueError:  # an integer of more than 4,300 digits
+            problems.add(
+                "codebook-syntax",
+                "the file holds a number too long to read",
+                hint="codes are whole numbers or short text; numbers have at most 300 digits",
+                file=path.name,
             )
             return None, problems
         return table_schema_problems(schema, source=str(path), file=path.name)

@@ -17,10 +17,28 @@ import yaml
 from coderel.errors import InputRefused
 from coderel.problems import Problems
 
-__all__ = ["MAX_NODES", "Node", "YamlConverter", "compose_yaml", "plain_to_node"]
+__all__ = [
+    "MAX_DEPTH",
+    "MAX_NODES",
+    "Node",
+    "TooDeep",
+    "YamlConverter",
+    "compose_yaml",
+    "plain_to_node",
+]
 
 #: Most YAML nodes visited (guards against alias bombs that expand exponentially).
 MAX_NODES = 200_000
+#: Deepest nesting of blocks and lists accepted; the codebook's own shape needs 6 levels.
+MAX_DEPTH = 50
+
+
+class TooDeep(Exception):
+    """The codebook nests blocks or lists deeper than :data:`MAX_DEPTH` (at ``line``)."""
+
+    def __init__(self, line: int | None) -> None:
+        super().__init__(line)
+        self.line = line
 
 
 @dataclass(frozen=True, slots=True)
@@ -49,7 +67,9 @@ class YamlConverter:
         self.visited = 0
         self.constructor = yaml.SafeLoader("")
 
-    def convert(self, node: yaml.Node) -> Node:
+    def convert(self, node: yaml.Node, depth: int = 0) -> Node:
+        if depth > MAX_DEPTH:  # aliases can nest deeper than the text does
+            raise TooDeep(node.start_mark.line + 1)
         self.visited += 1
         if self.visited > MAX_NODES:
             raise InputRefused(
@@ -70,22 +90,64 @@ class YamlConverter:
                         line=key_node.start_mark.line + 1,
                     )
                     continue
-                out[key] = self.convert(value_node)
+                out[key] = self.convert(value_node, depth + 1)
             return Node(out, line)
         if isinstance(node, yaml.SequenceNode):
-            return Node([self.convert(item) for item in node.value], line)
-        value = self.constructor.construct_object(node, deep=True)
+            return Node([self.convert(item, depth + 1) for item in node.value], line)
+        try:
+            value = self.constructor.construct_object(node, deep=True)
+        except (ValueError, OverflowError):
+            # an integer of thousands of digits: Python will not convert it; keep the text,
+            # which the field's check then reports (too long for a code, not a number ...)
+            value = str(node.value)
         raw = node.value if isinstance(node, yaml.ScalarNode) and node.style is None else None
         return Node(value, line, raw)
 
 
-def plain_to_node(value: Any) -> Node:
-    """Wrap plain data (from JSON or a Table Schema) as nodes without lines."""
+def plain_to_node(value: Any, depth: int = 0) -> Node:
+    """Wrap plain data (from JSON or a Table Schema) as nodes without lines.
+
+    Raises
+    ------
+    TooDeep
+        When the data nest deeper than :data:`MAX_DEPTH`.
+    """
+    if depth > MAX_DEPTH:
+        raise TooDeep(None)
     if isinstance(value, Mapping):
-        return Node({str(k): plain_to_node(v) for k, v in value.items()}, None)
+        return Node({str(k): plain_to_node(v, depth + 1) for k, v in value.items()}, None)
     if isinstance(value, list | tuple):
-        return Node([plain_to_node(v) for v in value], None)
+        return Node([plain_to_node(v, depth + 1) for v in value], None)
     return Node(value, None)
+
+
+def too_deep_problem(problems: Problems, file: str | None, line: int | None) -> None:
+    """Record that the codebook nests deeper than :data:`MAX_DEPTH`."""
+    problems.add(
+        "codebook-syntax",
+        f"the codebook nests blocks or lists more than {MAX_DEPTH} levels deep",
+        hint="a codebook needs about 6 levels (variables, categories, their fields); look for "
+        "brackets or indentation that never close",
+        file=file,
+        line=line,
+    )
+
+
+def _depth_line(text: str) -> int | None:
+    """The line where the text first nests deeper than :data:`MAX_DEPTH`, else ``None``.
+
+    Reads parser events, which PyYAML produces without recursion, so a file of 50,000 opening
+    brackets is measured before the (recursive) composer sees it.
+    """
+    depth = 0
+    for event in yaml.parse(text, Loader=yaml.SafeLoader):
+        if isinstance(event, yaml.CollectionStartEvent):
+            depth += 1
+            if depth > MAX_DEPTH:
+                return event.start_mark.line + 1
+        elif isinstance(event, yaml.CollectionEndEvent):
+            depth -= 1
+    return None
 
 
 def compose_yaml(text: str, problems: Problems, file: str | None) -> Node | None:
@@ -97,6 +159,10 @@ def compose_yaml(text: str, problems: Problems, file: str | None) -> Node | None
         When the text expands to more than :data:`MAX_NODES` values.
     """
     try:
+        deep_line = _depth_line(text)
+        if deep_line is not None:
+            too_deep_problem(problems, file, deep_line)
+            return None
         root = yaml.compose(text, Loader=yaml.SafeLoader)
     except yaml.MarkedYAMLError as exc:
         mark = exc.problem_mark or exc.context_mark
@@ -126,6 +192,9 @@ def compose_yaml(text: str, problems: Problems, file: str | None) -> Node | None
         return None
     try:
         return YamlConverter(problems, file).convert(root)
+    except TooDeep as exc:
+        too_deep_problem(problems, file, exc.line)
+        return None
     except yaml.YAMLError as exc:
         problems.add("codebook-syntax", f"a value cannot be read ({type(exc).__name__})", file=file)
         return None

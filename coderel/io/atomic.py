@@ -1,15 +1,25 @@
 """Safe writing: every output goes to a temporary file beside its target, then an atomic rename.
 
 A crash or a kill mid-write therefore leaves the previous output intact, and an output path that
-is also an input path is refused before anything is written.
+is also an input path is refused before anything is written. A full disk or a file-size limit
+while writing is a :class:`coderel.errors.UsageError` that names the output (exit 2), never a
+traceback; the old output stays as it was and the temporary file is removed.
+
+Temporary files are named ``.NAME.PID-XXXXXXXX.tmp``. A process killed with ``kill -9`` cannot
+remove its own; the next write to the same target removes those whose process no longer runs
+(or, for a name without a process ID, that are older than a day).
 """
 
 from __future__ import annotations
 
 import contextlib
+import errno
+import glob
 import hashlib
 import os
+import re
 import tempfile
+import time
 from collections.abc import Callable, Iterable, Iterator
 from pathlib import Path
 from typing import IO
@@ -40,15 +50,23 @@ def atomic_path(target: str | os.PathLike[str]) -> Iterator[Path]:
         raise UsageError(f"cannot write {str(target)!r}: it is a folder; name a file")
     try:
         target.parent.mkdir(parents=True, exist_ok=True)
-        fd, tmp_name = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=target.parent)
+        remove_stale_temps(target)
+        fd, tmp_name = tempfile.mkstemp(
+            prefix=f".{target.name}.{os.getpid()}-", suffix=".tmp", dir=target.parent
+        )
     except OSError as exc:
         raise _cannot_write(target, exc) from None
     os.close(fd)
     tmp = Path(tmp_name)
     try:
-        yield tmp
-        with open(tmp, "rb") as fh:
-            os.fsync(fh.fileno())
+        try:
+            yield tmp
+            with open(tmp, "rb") as fh:
+                os.fsync(fh.fileno())
+        except OSError as exc:
+            if exc.errno not in FULL_DISK_ERRORS:
+                raise
+            raise _cannot_write(target, exc) from None
         os.chmod(tmp, _mode_for(target))
         try:
             os.replace(tmp, target)
@@ -59,11 +77,70 @@ def atomic_path(target: str | os.PathLike[str]) -> Iterator[Path]:
             tmp.unlink()
 
 
+#: Errors of a write that ran out of room: no space, over a file-size limit or a quota, a
+#: read-only or failing disk.
+FULL_DISK_ERRORS = frozenset(
+    getattr(errno, name)
+    for name in ("ENOSPC", "EFBIG", "EDQUOT", "EROFS", "EIO")
+    if hasattr(errno, name)
+)
+#: A temporary file of ours without a process ID is stale after this many seconds.
+STALE_SECONDS = 24 * 3600
+_TEMP = re.compile(r"\.(?P<name>.+)\.(?:(?P<pid>[0-9]+)-)?[A-Za-z0-9_]{6,}\.tmp")
+
+
+def _running(pid: int) -> bool:
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    except (PermissionError, OverflowError, OSError):
+        return True  # someone else's process, or unknown: leave its file alone
+    return True
+
+
+def remove_stale_temps(target: str | os.PathLike[str]) -> list[Path]:
+    """Remove temporary files a killed coderel left beside ``target``; return those removed.
+
+    Only files of our own pattern for this target (``.NAME.PID-XXXXXXXX.tmp``) are touched:
+    those whose process no longer runs, and (older names without a process ID) those
+    unchanged for :data:`STALE_SECONDS`.
+    """
+    target = Path(target)
+    removed: list[Path] = []
+    try:
+        candidates = list(target.parent.glob(f".{glob.escape(target.name)}.*.tmp"))
+    except OSError:
+        return removed
+    now = time.time()
+    for path in candidates:
+        match = _TEMP.fullmatch(path.name)
+        if match is None or match["name"] != target.name:
+            continue
+        try:
+            if match["pid"] is not None:
+                stale = int(match["pid"]) != os.getpid() and not _running(int(match["pid"]))
+            else:
+                stale = now - path.stat().st_mtime > STALE_SECONDS
+            if stale:
+                path.unlink()
+                removed.append(path)
+        except OSError:
+            continue
+    return removed
+
+
 def _cannot_write(target: Path, exc: OSError) -> UsageError:
-    """A write the file system refused (a folder in the path is a file, no permission, ...)."""
+    """A write the file system refused (a folder in the path is a file, no permission, a full
+    disk ...)."""
     why = exc.strerror or type(exc).__name__
     if isinstance(exc, FileExistsError | NotADirectoryError):
         why = "a part of the folder path is a file, not a folder"
+    if exc.errno in FULL_DISK_ERRORS:
+        return UsageError(
+            f"cannot write {str(target)!r}: {why}; nothing was changed (an earlier version "
+            "stays as it was); free some space or choose another output folder"
+        )
     return UsageError(f"cannot write {str(target)!r}: {why}; choose another output path or folder")
 
 
@@ -82,15 +159,6 @@ def write_with(target: str | os.PathLike[str], writer: Callable[[Path], object])
     """Call ``writer(tmp_path)`` to produce the file, then move it onto ``target`` atomically."""
     with atomic_path(target) as tmp:
         writer(tmp)
-
-
-def append_line(target: str | os.PathLike[str], line: str) -> None:
-    """Append one line to a log by rewriting it atomically (old content + new line)."""
-    target = Path(target)
-    old = target.read_bytes() if target.exists() else b""
-    if old and not old.endswith(b"\n"):
-        old += b"\n"
-    write_bytes(target, old + line.rstrip("\n").encode("utf-8") + b"\n")
 
 
 @contextlib.contextmanager

@@ -45,6 +45,8 @@ from coderel.io.archive import (
     check_parquet,
     check_text,
     describe_ole2,
+    shown_name,
+    text_name,
 )
 from coderel.io.atomic import sha256_file
 from coderel.io.coverage import coder_key, drop_uncoded, warn_alike_coders
@@ -938,6 +940,7 @@ def _read_file(reader: _Reader, path: Path, limits: Limits) -> bool:
 
     suffix = path.suffix.lower()
     try:
+        text_name(path)
         if suffix == ".xlsx":
             workbook = read_workbook(path, limits)
             if _skip_own_output(reader, path, workbook.tables):
@@ -956,7 +959,7 @@ def _read_file(reader: _Reader, path: Path, limits: Limits) -> bool:
             if _read_long_columns(reader, path, limits):
                 return True
             check_text(path, limits)
-            table = read_csv(path)
+            table = read_csv(path, limits)
             if _skip_own_output(reader, path, [table]):
                 return False
             reader.read_table(table, path.stem)
@@ -986,15 +989,15 @@ def _read_file(reader: _Reader, path: Path, limits: Limits) -> bool:
             "input-refused",
             str(exc),
             hint=f"{SUPPORTED}; no other file was skipped because of this one",
-            file=path.name,
+            file=shown_name(path),
         )
         return False
     except OSError as exc:
         reader.problems.add(
             "input-refused",
-            f"{path.name} cannot be opened ({type(exc).__name__})",
+            f"{shown_name(path)} cannot be opened ({type(exc).__name__})",
             hint="check that the file exists and you may read it",
-            file=path.name,
+            file=shown_name(path),
         )
         return False
     return True

@@ -12,16 +12,20 @@ as an ``encoding`` problem naming the first line that is not UTF-8, and never gu
 
 from __future__ import annotations
 
+import contextlib
 import csv
 import datetime as dt
 import io
 import math
+from collections.abc import Iterator
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
 from openpyxl.utils import get_column_letter
 
+from coderel.errors import InputRefused
+from coderel.io.archive import DEFAULT_LIMITS, Limits, raise_hint
 from coderel.problems import Problem, make_problem
 
 
@@ -73,13 +77,19 @@ def _header_text(value: Any) -> str:
     return str(value).strip()
 
 
-def read_csv(path: Path) -> RawTable:
+def read_csv(path: Path, limits: Limits = DEFAULT_LIMITS) -> RawTable:
     """Read a CSV file as text cells; problems (``encoding``, ``empty-sheet``) in the table.
 
     The delimiter is a comma, or a semicolon when the header holds semicolons and no comma (as
     spreadsheet programs in many locales write), or a tab when the header holds tabs and neither.
     A quote that is never closed swallows the rest of the file into one cell; that is reported
     as ``unclosed-quote`` with the line where the quote opened.
+
+    Bounds (:class:`coderel.io.archive.Limits`): blank cells at the end of a row past the header
+    are dropped, so one line of 20,000 commas widens nothing; a row with more cells than
+    ``max_columns`` is cut there and reported (``too-many-columns``, with its line); a field
+    longer than ``max_field_chars`` characters, more than ``max_rows`` rows or more than
+    ``max_cells`` cells refuse the file (:class:`InputRefused`) before the rows are widened.
     """
     data = path.read_bytes()
     try:
@@ -107,26 +117,48 @@ def read_csv(path: Path) -> RawTable:
     header_row = 1
     previous_end = 0
     start_line = 1
-    for cells in reader:
-        record += 1
-        start_line = previous_end + 1
-        previous_end = reader.line_num
-        if not any(c.strip() for c in cells):
-            continue
-        if header is None:
-            header = tuple(_header_text(c) for c in cells)
-            header_line = start_line
-            header_row = record
-            continue
-        rows.append(RawRow(number=record, cells=tuple(cells), line=start_line))
-    problems: tuple[Problem, ...] = ()
+    too_wide: list[Problem] = []
+    with _field_limit(limits.max_field_chars):
+        while True:
+            try:
+                cells = next(reader)
+            except StopIteration:
+                break
+            except csv.Error:
+                raise InputRefused(
+                    f"{path.name}: a cell starting on line {previous_end + 1} is longer than "
+                    f"{limits.max_field_chars} characters (or a quote opened there is never "
+                    f"closed); {raise_hint('max_field_chars')}"
+                ) from None
+            record += 1
+            start_line = previous_end + 1
+            previous_end = reader.line_num
+            if not any(c.strip() for c in cells):
+                continue
+            if header is None:
+                header = tuple(_header_text(c) for c in cells[: limits.max_columns])
+                header_line = start_line
+                header_row = record
+                continue
+            if len(rows) >= limits.max_rows:
+                raise InputRefused(
+                    f"{path.name} has more than {limits.max_rows} rows (line {start_line}); "
+                    f"split it, or {raise_hint('max_rows')}"
+                )
+            if len(cells) > len(header):
+                cells = _trim_end(cells, len(header))
+            if len(cells) > limits.max_columns:
+                too_wide.append(_too_wide(path.name, start_line, len(cells), limits))
+                cells = cells[: limits.max_columns]
+            rows.append(RawRow(number=record, cells=tuple(cells), line=start_line))
+    problems: tuple[Problem, ...] = tuple(too_wide)
     # Only the last record can end inside a quote (it then runs to the end of the file).
     # Lines as the csv reader counts them (``\n``, ``\r`` or ``\r\n``; not ``str.splitlines``).
     lines = io.StringIO(text, newline="").readlines()
     opened = _open_quote_line("".join(lines[start_line - 1 :]), delimiter)
     if opened is not None:
         line = start_line + opened - 1
-        problems = (
+        problems += (
             make_problem(
                 "unclosed-quote",
                 f'a quote (") opened on line {line} is never closed: the rest of the file was '
@@ -140,6 +172,11 @@ def read_csv(path: Path) -> RawTable:
     if header is None:
         return _empty(path.name, None, typed=False)
     width = max([len(header), *(len(r.cells) for r in rows)])
+    if width * len(rows) > limits.max_cells:
+        raise InputRefused(
+            f"{path.name} spans {len(rows)} rows x {width} columns, over the limit of "
+            f"{limits.max_cells} cells; {raise_hint('max_cells')}"
+        )
     header = header + ("",) * (width - len(header))
     # a short row (a line with fewer separators than the header) has blank cells at its end
     rows = [
@@ -158,6 +195,37 @@ def read_csv(path: Path) -> RawTable:
         header_line=header_line,
         typed=False,
         problems=problems,
+    )
+
+
+@contextlib.contextmanager
+def _field_limit(chars: int) -> Iterator[None]:
+    """Let the :mod:`csv` module read fields of up to ``chars`` characters (default 131,072)."""
+    old = csv.field_size_limit()
+    csv.field_size_limit(chars)
+    try:
+        yield
+    finally:
+        csv.field_size_limit(old)
+
+
+def _trim_end(cells: list[str], keep: int) -> list[str]:
+    """``cells`` without the blank cells at its end past position ``keep``."""
+    end = len(cells)
+    while end > keep and not cells[end - 1].strip():
+        end -= 1
+    return cells[:end]
+
+
+def _too_wide(file: str, line: int, count: int, limits: Limits) -> Problem:
+    return make_problem(
+        "too-many-columns",
+        f"line {line} has {count} cells, over the limit of {limits.max_columns} columns; the "
+        "cells past the limit were not read",
+        hint="check the separators on this line (a column of commas?), or "
+        + raise_hint("max_columns"),
+        file=file,
+        line=line,
     )
 
 
