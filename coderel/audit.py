@@ -232,7 +232,10 @@ def write_audited(
             _append(fd, log, _line(record))
         except BaseException:
             if previous is not None:
-                os.replace(previous, output)
+                if output.exists() and os.path.samefile(previous, output):
+                    previous.unlink()  # the dataset was not replaced (rename would do nothing)
+                else:
+                    os.replace(previous, output)
             else:
                 with contextlib.suppress(FileNotFoundError):
                     output.unlink()
