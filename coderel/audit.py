@@ -188,7 +188,7 @@ def out_of_step(output: str | os.PathLike[str]) -> bool:
 
 def _keep_previous(output: Path) -> Path | None:
     """A hard link to the current dataset (no copy of its bytes), or a copy where links fail."""
-    if not output.exists():
+    if not output.is_file():
         return None
     keep = output.with_name(f".{output.name}.{os.getpid()}-previous.tmp")
     with contextlib.suppress(FileNotFoundError):
@@ -220,6 +220,8 @@ def write_audited(
     its log before this merge (:func:`out_of_step`).
     """
     output = Path(output)
+    if output.is_dir():
+        raise UsageError(f"cannot write {str(output)!r}: it is a folder; name a file")
     log = audit_path(output)
     with locked_log(output) as fd:
         was_out_of_step = out_of_step(output)

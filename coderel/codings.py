@@ -62,7 +62,7 @@ OCCASION_COLUMNS: tuple[str, ...] = (*CODING_COLUMNS, "occasion", "first_occasio
 _DIGITS = re.compile(r"(\d+)")
 
 
-def natural_key(text: str) -> tuple[tuple[str | int, ...], str]:
+def natural_key(text: str) -> tuple[tuple[str | tuple[int, str], ...], str]:
     """Sort key of a unit ID or coder name in natural order: ``u2`` before ``u10``.
 
     Runs of digits compare as numbers, the rest without regard to case; the text itself breaks
@@ -72,7 +72,14 @@ def natural_key(text: str) -> tuple[tuple[str | int, ...], str]:
     ['b', 'u01', 'u1', 'U2', 'u10']
     """
     parts = _DIGITS.split(text)
-    return tuple(int(p) if i % 2 else p.casefold() for i, p in enumerate(parts)), text
+    # a run of digits as (length, digits) without leading zeros: numeric order for any length
+    # (int() refuses more than 4,300 digits, and an ID may hold more)
+    return tuple(_number_key(p) if i % 2 else p.casefold() for i, p in enumerate(parts)), text
+
+
+def _number_key(digits: str) -> tuple[int, str]:
+    significant = digits.lstrip("0")
+    return len(significant), significant
 
 
 def natural_order(names: Iterable[Any]) -> list[str]:

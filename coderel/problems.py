@@ -65,6 +65,10 @@ PROBLEM_CODES: dict[str, tuple[Severity, str]] = {
     ),
     "not-in-codebook": ("error", "a value is not a code of its variable"),
     "not-a-number": ("error", "a numeric variable holds text"),
+    "duplicate-list-row": (
+        "error",
+        "two rows of an adjudication list are for the same unit and variable",
+    ),
     "number-too-long": ("error", "a number of more than 300 characters (no codebook value)"),
     "out-of-range": ("error", "a number outside the variable's range"),
     "not-integer": ("error", "a count variable holds a fraction"),

@@ -176,3 +176,90 @@ def test_no_console_reads_markup():
     root = Path(__file__).resolve().parents[1] / "coderel"
     users = [p.name for p in root.rglob("*.py") if "rich.markup" in p.read_text("utf-8")]
     assert users == []
+
+
+def test_unreadable_coding_files_inside_a_folder_are_refused(sheets):
+    legacy = Path(__file__).resolve().parent / "data" / "bad_inputs" / "legacy.xls"
+    (sheets / "carl.xls").write_bytes(legacy.read_bytes())
+    (sheets / "dana.xlsm").write_bytes(b"PK\x03\x04 not read")
+    (sheets / "erin.csv").symlink_to(sheets / "gone.csv")  # a dangling link
+    (sheets / "notes.txt").write_text("not a sheet", encoding="utf-8")
+    proc = run("validate", "-c", CB, sheets, "--json")
+    _no_crash(proc)
+    assert proc.returncode == 3
+    refused = {
+        p["file"] for p in json.loads(proc.stdout)["problems"] if p["code"] == "input-refused"
+    }
+    assert refused == {"carl.xls", "dana.xlsm", "erin.csv"}
+    assert run("agree", "-c", CB, sheets).returncode == 3  # never computed with fewer coders
+
+
+def _decided_list(sheets: Path, tmp_path: Path, suffix: str) -> Path:
+    adj = tmp_path / f"adj{suffix}"
+    assert run("adjudicate", "-c", CB, sheets, "-o", adj).returncode == 0
+    return adj
+
+
+def test_duplicate_rows_of_a_list_lose_no_decision(sheets, tmp_path):
+    adj = _decided_list(sheets, tmp_path, ".csv")
+    lines = adj.read_text(encoding="utf-8").splitlines()
+    header = lines[0].split(",")
+    first = next(i for i, line in enumerate(lines) if line.startswith("[/],"))
+    row = lines[first].split(",")
+    row[header.index("decision")], row[header.index("note")] = "1", "first look"
+    copy = list(row)
+    copy[header.index("decision")], copy[header.index("note")] = "2", "second look"
+    lines[first] = ",".join(row)
+    lines.insert(first + 1, ",".join(copy))
+    adj.write_text("\n".join(lines) + "\n", encoding="utf-8")
+    before = adj.read_bytes()
+    out = tmp_path / "merged.csv"
+    proc = run("merge", "-c", CB, sheets, "--decisions", adj, "-o", out, "--json")
+    _no_crash(proc)
+    assert proc.returncode == 1
+    dupes = [p for p in json.loads(proc.stdout)["problems"] if p["code"] == "duplicate-list-row"]
+    assert [(p["unit"], p["variable"], p["cell"]) for p in dupes] == [
+        ("[/]", "animal", f"A{first + 2}")
+    ]
+    assert not out.exists()
+    proc = run("adjudicate", "-c", CB, sheets, "-o", adj)  # update the list: refused
+    _no_crash(proc)
+    assert proc.returncode == 1
+    assert adj.read_bytes() == before  # both decisions and notes still there
+
+
+def test_decisions_files_pass_the_same_preflight(sheets, tmp_path):
+    from tests.test_hostile import hostile
+
+    bomb = tmp_path / "decisions.xlsx"
+    hostile.write_workbook(
+        bomb, [hostile.Sheet(f"h{i}", hostile._filler(5), state="hidden") for i in range(300)]
+    )
+    proc = run("merge", "-c", CB, sheets, "--decisions", bomb, "-o", tmp_path / "m.csv")
+    assert "worksheets" in _no_crash(proc)
+    assert proc.returncode == 3
+    adj = _decided_list(sheets, tmp_path, ".csv")
+    with open(adj, "a", encoding="utf-8") as fh:
+        fh.write('R-9,animal,,,"' + "n" * 1_500_000 + '"\n')
+    proc = run("merge", "-c", CB, sheets, "--decisions", adj, "-o", tmp_path / "m.csv")
+    assert "characters" in _no_crash(proc)
+    assert proc.returncode == 3
+
+
+def test_formula_like_names_stay_text_in_the_list_header(tmp_path):
+    from openpyxl import load_workbook
+
+    folder = tmp_path / "sheets"
+    folder.mkdir()
+    (folder / "=1+2.csv").write_text(HEADER + "R-1,x,1,5\n", encoding="utf-8")
+    (folder / "@ben.csv").write_text(HEADER + "R-1,x,2,5\n", encoding="utf-8")
+    adj = tmp_path / "adj.xlsx"
+    assert run("adjudicate", "-c", CB, folder, "-o", adj).returncode == 0
+    wb = load_workbook(adj)
+    header = list(next(wb["to decide"].iter_rows(max_row=1)))
+    assert all(c.data_type != "f" for c in header)
+    assert {"'=1+2", "'@ben"} <= {c.value for c in header}
+    proc = run("adjudicate", "-c", CB, folder, "-o", adj)  # the list reads back
+    assert proc.returncode == 0, _no_crash(proc)
+    proc = run("merge", "-c", CB, folder, "--decisions", adj, "-o", tmp_path / "m.csv")
+    assert proc.returncode == 0, _no_crash(proc)

@@ -22,7 +22,14 @@ from coderel.adjudicate.model import (
 )
 from coderel.codebook import Codebook
 from coderel.codings import SourceFile
-from coderel.errors import InputRefused
+from coderel.errors import DataProblems, InputRefused
+from coderel.io.archive import (
+    DEFAULT_LIMITS,
+    Limits,
+    check_text,
+    check_workbook,
+    raise_hint,
+)
 from coderel.io.atomic import sha256_file
 from coderel.problems import Problems
 
@@ -41,22 +48,62 @@ def _clean(value: Any) -> str | None:
     return text if text.strip() else None
 
 
-def _read_tables(path: Path) -> dict[str, tuple[list[str], list[list[Any]], list[int]]]:
-    """Sheets of an adjudication file: name -> (header, rows, spreadsheet row numbers)."""
+def _header(value: Any) -> str:
+    """A header cell as written by coderel (a neutralised ``'=name`` reads as ``=name``)."""
+    return _clean(value) or "" if value is not None else ""
+
+
+def _csv_rows(path: Path, limits: Limits) -> list[list[str]]:
+    """The records of a CSV list, within the same limits as a coder's sheet."""
+    check_text(path, limits)
+    try:
+        text = path.read_text(encoding="utf-8-sig")
+    except (OSError, UnicodeDecodeError) as exc:
+        raise InputRefused(f"cannot read {path.name!r} as UTF-8 CSV") from exc
+    # A list edited in a spreadsheet program may come back with semicolons (or tabs).
+    first_line = text.split("\n", 1)[0]
+    delimiter = ";" if ";" in first_line and "," not in first_line else ","
+    if "\t" in first_line and "," not in first_line and ";" not in first_line:
+        delimiter = "\t"
+    reader = csv.reader(io.StringIO(text, newline=""), delimiter=delimiter)
+    rows: list[list[str]] = []
+    old = csv.field_size_limit(limits.max_field_chars)
+    try:
+        for row in reader:
+            if len(rows) > limits.max_rows:
+                raise InputRefused(
+                    f"{path.name!r} has more than {limits.max_rows} rows; " + raise_hint("max_rows")
+                )
+            if len(row) > limits.max_columns:
+                raise InputRefused(
+                    f"{path.name!r} has a row of {len(row)} cells (line {reader.line_num}), "
+                    f"over the limit of {limits.max_columns}; " + raise_hint("max_columns")
+                )
+            rows.append(row)
+    except csv.Error:
+        raise InputRefused(
+            f"{path.name!r}: a cell near line {reader.line_num + 1} is longer than "
+            f"{limits.max_field_chars} characters (or a quote is never closed); "
+            + raise_hint("max_field_chars")
+        ) from None
+    finally:
+        csv.field_size_limit(old)
+    return rows
+
+
+def _read_tables(
+    path: Path, limits: Limits = DEFAULT_LIMITS
+) -> dict[str, tuple[list[str], list[list[Any]], list[int]]]:
+    """Sheets of an adjudication file: name -> (header, rows, spreadsheet row numbers).
+
+    The file passes the same pre-flight as a coder's sheet (coderel.io.archive: size, zip bomb,
+    sheets, rows, columns, cells, field length; docs/limits.md).
+    """
     if path.suffix.lower() == ".csv":
-        try:
-            text = path.read_text(encoding="utf-8-sig")
-        except (OSError, UnicodeDecodeError) as exc:
-            raise InputRefused(f"cannot read {path.name!r} as UTF-8 CSV") from exc
-        # A list edited in a spreadsheet program may come back with semicolons (or tabs).
-        first_line = text.split("\n", 1)[0]
-        delimiter = ";" if ";" in first_line and "," not in first_line else ","
-        if "\t" in first_line and "," not in first_line and ";" not in first_line:
-            delimiter = "\t"
-        reader = list(csv.reader(io.StringIO(text, newline=""), delimiter=delimiter))
+        reader = _csv_rows(path, limits)
         if not reader:
             return {MAIN_SHEET: ([], [], [])}
-        header, body = reader[0], reader[1:]
+        header, body = [_header(h) for h in reader[0]], reader[1:]
         lists: dict[str, tuple[list[str], list[list[Any]], list[int]]] = {}
         list_col = header.index("list") if "list" in header else None
         for n, row in enumerate(body, start=2):
@@ -71,6 +118,7 @@ def _read_tables(path: Path) -> dict[str, tuple[list[str], list[list[Any]], list
         raise InputRefused(f"{path.name!r}: an adjudication file is .xlsx or .csv")
     from openpyxl import load_workbook
 
+    check_workbook(path, limits)
     try:
         wb = load_workbook(path, read_only=True, data_only=True)
     except Exception as exc:
@@ -80,15 +128,33 @@ def _read_tables(path: Path) -> dict[str, tuple[list[str], list[list[Any]], list
         for name in (MAIN_SHEET, RETIRED_SHEET, ABOUT_SHEET):
             if name not in wb.sheetnames:
                 continue
-            it = wb[name].iter_rows(values_only=True)
-            header = [str(h) if h is not None else "" for h in next(it, ())]
+            ws = wb[name]
+            ws.reset_dimensions()  # rows as stored, not padded to a declared A1:XFD1048576
+            it = ws.iter_rows(values_only=True)
+            header = [_header(h) for h in next(it, ())]
             rows, numbers = [], []
+            cells = 0
             for n, values in enumerate(it, start=2):
                 if values is None or all(v is None for v in values):
                     continue
+                cells += len(values)
+                if n > limits.max_rows or len(values) > limits.max_columns:
+                    raise InputRefused(
+                        f"{path.name!r}!{name} goes past row {limits.max_rows} or column "
+                        f"{limits.max_columns}; " + raise_hint("max_rows")
+                    )
+                if cells > limits.max_cells:
+                    raise InputRefused(
+                        f"{path.name!r}!{name} holds more than {limits.max_cells} cells; "
+                        + raise_hint("max_cells")
+                    )
                 rows.append(list(values))
                 numbers.append(n)
             out[name] = (header, rows, numbers)
+    except InputRefused:
+        raise
+    except Exception as exc:  # openpyxl raises many types on damaged parts
+        raise InputRefused(f"cannot read {path.name!r} as a workbook") from exc
     finally:
         wb.close()
     if MAIN_SHEET not in out:
@@ -119,7 +185,9 @@ def _about_coders(tables: Mapping[str, Any]) -> set[str] | None:
     """The coders named on a list's ``about`` sheet (None for a list without one, as a CSV)."""
     if ABOUT_SHEET not in tables:
         return None
-    names = {str(row[1]) for row in tables[ABOUT_SHEET][1] if len(row) >= 2 and row[0] == "coder"}
+    names = {
+        _header(row[1]) for row in tables[ABOUT_SHEET][1] if len(row) >= 2 and row[0] == "coder"
+    }
     return names or None
 
 
@@ -143,7 +211,7 @@ def _known_text(tables: Mapping[str, Any], codebook: Codebook) -> set[str]:
     if ABOUT_SHEET in tables:
         for row in tables[ABOUT_SHEET][1]:
             if len(row) >= 2 and row[0] == "text column" and row[1]:
-                known.add(str(row[1]))
+                known.add(_header(row[1]))
     return known
 
 
@@ -190,7 +258,7 @@ def read_adjudication(path: str | os.PathLike[str], codebook: Codebook) -> Adjud
     path = Path(path)
     tables = _read_tables(path)
     known_text = _known_text(tables, codebook)
-    header, body, _ = tables[MAIN_SHEET]
+    header, body, numbers = tables[MAIN_SHEET]
     if body and not {"unit", "variable", "decision"} <= set(header):
         # Rows we cannot read: treating the file as empty would write over its decisions.
         raise InputRefused(
@@ -207,6 +275,7 @@ def read_adjudication(path: str | os.PathLike[str], codebook: Codebook) -> Adjud
         )
     coders = _about_coders(tables)
     rows = _rows_from(header, body, known_text, coders)
+    _refuse_duplicates(path, header, body, numbers)
     retired: list[AdjudicationRow] = []
     if RETIRED_SHEET in tables:
         rh, rb, _ = tables[RETIRED_SHEET]
@@ -218,6 +287,51 @@ def read_adjudication(path: str | os.PathLike[str], codebook: Codebook) -> Adjud
         rows=tuple(rows),
         retired=tuple(retired),
     )
+
+
+def duplicate_rows(
+    path: Path, header: list[str], body: list[list[Any]], numbers: list[int]
+) -> Problems:
+    """A ``duplicate-list-row`` error for every row whose unit and variable an earlier row has
+    (a copied row, an edited ``variable`` cell): neither decision may win silently."""
+    problems = Problems()
+    if "unit" not in header or "variable" not in header:
+        return problems
+    iu, iv = header.index("unit"), header.index("variable")
+    first: dict[tuple[str, str], int] = {}
+    sheet = MAIN_SHEET if path.suffix.lower() == ".xlsx" else None
+    for row, number in zip(body, numbers, strict=True):
+        unit = _clean(row[iu]) if iu < len(row) else None
+        variable = _clean(row[iv]) if iv < len(row) else None
+        if unit is None or variable is None:
+            continue
+        if (unit, variable) in first:
+            problems.add(
+                "duplicate-list-row",
+                f"rows {first[(unit, variable)]} and {number} are both for this unit and "
+                "variable; neither decision is used",
+                hint="keep one of the two rows (move the other's note into it) and run again",
+                file=path.name,
+                sheet=sheet,
+                cell=f"A{number}",
+                unit=unit,
+                variable=variable,
+            )
+        else:
+            first[(unit, variable)] = number
+    return problems
+
+
+def _refuse_duplicates(
+    path: Path, header: list[str], body: list[list[Any]], numbers: list[int]
+) -> None:
+    problems = duplicate_rows(path, header, body, numbers)
+    if problems:
+        raise DataProblems(
+            f"{path.name!r} has {len(problems)} duplicated row(s); nothing was written, so no "
+            "decision or note is lost",
+            problems=problems,
+        )
 
 
 def read_decisions(path: str | os.PathLike[str], codebook: Codebook) -> Decisions:
@@ -250,6 +364,9 @@ def read_decisions(path: str | os.PathLike[str], codebook: Codebook) -> Decision
         i = icol.get(name)
         return row[i] if i is not None and i < len(row) else None
 
+    dupes = duplicate_rows(path, header, body, numbers)
+    problems.extend(dupes)
+    duplicated = {(p.unit, p.variable) for p in dupes}
     for row, number in zip(body, numbers, strict=True):
         unit, variable = _clean(get(row, "unit")), _clean(get(row, "variable"))
         raw = get(row, "decision")
@@ -278,15 +395,8 @@ def read_decisions(path: str | os.PathLike[str], codebook: Codebook) -> Decision
                 **place,
             )
             continue
-        if (unit, variable) in decisions:
-            problems.add(
-                "bad-decision",
-                "a second decision for the same unit and variable (the first one is used)",
-                unit=unit,
-                variable=variable,
-                **place,
-            )
-            continue
+        if (unit, variable) in duplicated:
+            continue  # reported once for the pair (duplicate-list-row); neither is used
         decisions[(unit, variable)] = Decision(
             value=token[1],
             token=token,

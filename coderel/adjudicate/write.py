@@ -77,7 +77,7 @@ def _write_workbook(adj: Adjudication, path: str | os.PathLike[str]) -> None:
     ws = wb.active
     ws.title = MAIN_SHEET
     headers = main_columns(adj.coders, adj.text_columns)
-    ws.append(headers)
+    ws.append([cell_value(h) for h in headers])  # a coder named =HYPERLINK(...) stays text
     for cell in ws[1]:
         cell.font = Font(bold=True)
     editable = {headers.index(n) + 1 for n in ("decision", "note", "adjudicator", "check")}
@@ -123,7 +123,7 @@ def _write_workbook(adj: Adjudication, path: str | os.PathLike[str]) -> None:
         if var.is_categorical and not var.multiple:
             list_col += 1
             letter = column_letter(list_col)
-            lists.cell(row=1, column=list_col, value=var.name)
+            lists.cell(row=1, column=list_col, value=cell_value(var.name))
             entries = _choices(var)
             for r, entry in enumerate(entries, start=2):
                 lists.cell(row=r, column=list_col, value=cell_value(entry))

@@ -64,6 +64,9 @@ from coderel.normalise import (
 from coderel.problems import Problems
 
 DATA_SUFFIXES: tuple[str, ...] = (".xlsx", ".csv", ".parquet")
+#: Files that look like coding data coderel cannot read: inside a folder they are refused
+#: (exit 3) rather than skipped, so that no coder goes missing without a word.
+UNREAD_SUFFIXES: tuple[str, ...] = (".xls", ".xlsm", ".xlsb", ".ods")
 LONG_HEADER: tuple[str, ...] = ("unit", "coder", "variable", "value")
 CODER_COLUMN = "coder"
 RECORD_COLUMNS = [
@@ -93,8 +96,8 @@ def collect_files(paths: Sequence[str | Path] | str | Path) -> list[Path]:
             found = sorted(
                 p
                 for p in path.iterdir()
-                if p.is_file()
-                and p.suffix.lower() in DATA_SUFFIXES
+                if (p.is_file() or (p.is_symlink() and not p.exists()))  # a dangling link too
+                and p.suffix.lower() in DATA_SUFFIXES + UNREAD_SUFFIXES
                 and not p.name.startswith(("~$", "."))
             )
             if not found:

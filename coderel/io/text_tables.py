@@ -26,6 +26,7 @@ from openpyxl.utils import get_column_letter
 
 from coderel.errors import InputRefused
 from coderel.io.archive import DEFAULT_LIMITS, Limits, raise_hint
+from coderel.io.safe_text import DANGEROUS_PREFIXES
 from coderel.problems import Problem, make_problem
 
 
@@ -70,11 +71,16 @@ class RawTable:
 
 
 def _header_text(value: Any) -> str:
+    """A header cell as text; a name coderel neutralised when it wrote it (``'-v`` for a
+    variable ``-v``, see :mod:`coderel.io.safe_text`) reads as the name itself."""
     if value is None:
         return ""
     if isinstance(value, float) and value.is_integer():
         return str(int(value))
-    return str(value).strip()
+    text = str(value).strip()
+    if text.startswith("'") and text[1:].startswith(DANGEROUS_PREFIXES):
+        text = text[1:]
+    return text
 
 
 def read_csv(path: Path, limits: Limits = DEFAULT_LIMITS) -> RawTable:
@@ -87,9 +93,9 @@ def read_csv(path: Path, limits: Limits = DEFAULT_LIMITS) -> RawTable:
 
     Bounds (:class:`coderel.io.archive.Limits`): blank cells at the end of a row past the header
     are dropped, so one line of 20,000 commas widens nothing; a row with more cells than
-    ``max_columns`` is cut there and reported (``too-many-columns``, with its line); a field
-    longer than ``max_field_chars`` characters, more than ``max_rows`` rows or more than
-    ``max_cells`` cells refuse the file (:class:`InputRefused`) before the rows are widened.
+    ``max_columns`` is cut to the header's width and reported (``too-many-columns``, with its
+    line); a field longer than ``max_field_chars`` characters, more than ``max_rows`` rows or
+    more than ``max_cells`` cells refuse the file (:class:`InputRefused`) before rows are widened.
     """
     data = path.read_bytes()
     try:
@@ -149,7 +155,7 @@ def read_csv(path: Path, limits: Limits = DEFAULT_LIMITS) -> RawTable:
                 cells = _trim_end(cells, len(header))
             if len(cells) > limits.max_columns:
                 too_wide.append(_too_wide(path.name, start_line, len(cells), limits))
-                cells = cells[: limits.max_columns]
+                cells = cells[: len(header)]  # widening every row to the limit is the bomb
             rows.append(RawRow(number=record, cells=tuple(cells), line=start_line))
     problems: tuple[Problem, ...] = tuple(too_wide)
     # Only the last record can end inside a quote (it then runs to the end of the file).
@@ -220,8 +226,8 @@ def _trim_end(cells: list[str], keep: int) -> list[str]:
 def _too_wide(file: str, line: int, count: int, limits: Limits) -> Problem:
     return make_problem(
         "too-many-columns",
-        f"line {line} has {count} cells, over the limit of {limits.max_columns} columns; the "
-        "cells past the limit were not read",
+        f"line {line} has {count} cells, over the limit of {limits.max_columns} columns; only "
+        "the cells under the header were read",
         hint="check the separators on this line (a column of commas?), or "
         + raise_hint("max_columns"),
         file=file,

@@ -6,6 +6,7 @@ renderers read only :class:`ReportContent`.
 
 from __future__ import annotations
 
+import hashlib
 import math
 import re
 from collections.abc import Mapping
@@ -306,7 +307,17 @@ class ReportContent:
 
 
 def _slug(text: str) -> str:
-    """``'species [applies]' -> 'species-applies'``: letters, digits, ``_`` and single ``-``."""
-    out = "".join(ch if ch.isascii() and (ch.isalnum() or ch == "_") else "-" for ch in str(text))
+    """A unique HTML id part (and file name) for ``text``: letters, digits, ``_`` and single ``-``.
+
+    A name that already is such a slug is kept (``species``); any other gets a short hash of the
+    whole name (``'species [applies]' -> 'species-applies-3f2a9c1b'``), so that names which read
+    alike (``a b`` and ``a-b``, names in other scripts) never share an id and no panel shows
+    another variable's chart.
+    """
+    text = str(text)
+    out = "".join(ch if ch.isascii() and (ch.isalnum() or ch == "_") else "-" for ch in text)
     out = re.sub(r"-+", "-", out).strip("-")
-    return out or "x"
+    if out == text and out:
+        return out
+    digest = hashlib.sha256(text.encode("utf-8", "surrogatepass")).hexdigest()[:8]
+    return f"{out or 'x'}-{digest}"
