@@ -11,7 +11,6 @@ import pandas as pd
 
 from coderel.codebook import Codebook
 from coderel.codings import Codings
-from coderel.io.read import read_codings
 from coderel.problems import Problems
 
 
@@ -52,5 +51,11 @@ class ValidationResult:
 
 
 def validate(codebook: Codebook, paths: Sequence[str | Path]) -> ValidationResult:
-    """Read every sheet and collect all problems; input files are only read, never changed."""
-    return ValidationResult(read_codings(codebook, paths))
+    """Read every sheet and collect all problems; input files are only read, never changed.
+
+    Sheets made from an earlier codebook version are recoded by the codebook's ``recode`` block
+    (:func:`coderel.io.versions.read_versioned`), or warned about when there is none.
+    """
+    from coderel.io.versions import read_versioned
+
+    return ValidationResult(read_versioned(codebook, paths))

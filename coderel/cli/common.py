@@ -430,11 +430,11 @@ def read_project(codebook: Path, data: list[Path], *, errors_note: str) -> Codin
     says what that means for this command.
     """
     from coderel.codebook.load import load_codebook
-    from coderel.io.read import read_codings
+    from coderel.io.versions import read_versioned
 
     cb = load_codebook(codebook)
     with delayed_progress("reading and checking the sheets") as step:
-        codings = read_codings(cb, data, progress=step)
+        codings = read_versioned(cb, data, progress=step)
     refused = codings.problems.refused
     if refused:
         raise InputRefused(

@@ -29,6 +29,7 @@ from coderel.codebook.model import (
     Variable,
 )
 from coderel.codebook.nodes import Node, TooDeep, plain_to_node, too_deep_problem
+from coderel.codebook.revisions import check_renames, parse_recode
 from coderel.problems import Problems
 
 __all__ = ["CodebookBuilder", "codebook_from_data"]
@@ -50,6 +51,11 @@ def codebook_from_data(
 
 class CodebookBuilder(FieldChecker):
     """Walks located nodes, collects every problem and builds the model objects."""
+
+    def __init__(self, problems: Problems, file: str | None) -> None:
+        super().__init__(problems, file)
+        #: Where each variable's ``renamed_from`` stands (for located messages).
+        self.rename_nodes: dict[str, Node | None] = {}
 
     def variable(
         self, node: Node, seen: dict[str, tuple[str, Node]]
@@ -104,6 +110,9 @@ class CodebookBuilder(FieldChecker):
         integer = self.flag(keys.get("integer"), "integer", name)
         multiple = self.flag(keys.get("multiple"), "multiple", name)
         thresholds = self.thresholds(keys.get("thresholds"), name)
+        renamed_from = self.text(keys.get("renamed_from"), "renamed_from", variable=name)
+        if renamed_from is not None and name is not None:
+            self.rename_nodes[name] = keys.get("renamed_from")
         condition_node = keys.get("applies_when")
 
         # codes must be unique within the variable, missing codes included
@@ -198,6 +207,7 @@ class CodebookBuilder(FieldChecker):
             applies_when=None,
             instructions=instructions,
             thresholds=thresholds,
+            renamed_from=renamed_from,
         )
         return variable, condition_node  # type: ignore[return-value]
 
@@ -338,6 +348,8 @@ class CodebookBuilder(FieldChecker):
                 var = Variable(**{**_fields(var), "applies_when": cond})
             final.append(var)
         self.check_cycles(final, {v.name: n for v, n in built})
+        check_renames(self, final, self.rename_nodes)
+        recode = parse_recode(self, top.get("recode"), {v.name: v for v in final}, version)
 
         # column names: unit, text columns and variables must all differ
         columns: dict[str, str] = {}
@@ -373,6 +385,7 @@ class CodebookBuilder(FieldChecker):
             text_columns=tuple(c for c, _ in text_columns),
             thresholds=thresholds if thresholds is not None else Thresholds(),
             source=source,
+            recode=recode,
         )
 
     def check_cycles(self, variables: list[Variable], nodes: dict[str, Node | None]) -> None:

@@ -35,7 +35,16 @@ MAX_CODE_LENGTH = 64
 #: Whole-number codes fit a 64-bit integer (the integer columns of the outputs).
 _INT64_MIN, _INT64_MAX = -(2**63), 2**63 - 1
 
-TOP_KEYS = ("title", "version", "unit", "description", "text_columns", "thresholds", "variables")
+TOP_KEYS = (
+    "title",
+    "version",
+    "unit",
+    "description",
+    "text_columns",
+    "thresholds",
+    "variables",
+    "recode",
+)
 VARIABLE_KEYS = (
     "name",
     "label",
@@ -48,11 +57,12 @@ VARIABLE_KEYS = (
     "multiple",
     "applies_when",
     "thresholds",
+    "renamed_from",
 )
 CATEGORY_KEYS = ("code", "label", "description", "examples")
 MISSING_KEYS = ("code", "label")
 CONDITION_KEYS = ("variable", "includes")
-THRESHOLD_KEYS = ("reliable", "tentative")
+THRESHOLD_KEYS = ("reliable", "tentative", "training")
 # Characters that would break a multi-select cell or the ``code = label`` dropdown form.
 _FORBIDDEN_IN_CODE = (MULTI_SEPARATOR, "=", "\n", "\r", "\t")
 
@@ -273,10 +283,12 @@ class FieldChecker:
         self.check_keys(node, THRESHOLD_KEYS, "thresholds", variable)
         values: dict[str, float] = {}
         default = Thresholds()
+        training: float | None = None
         for key in THRESHOLD_KEYS:
             sub = node.value.get(key)
             if sub is None:
-                values[key] = getattr(default, key)
+                if key != "training":
+                    values[key] = getattr(default, key)
                 continue
             number = self.number(sub, f"thresholds.{key}", variable)
             if number is None:
@@ -290,7 +302,10 @@ class FieldChecker:
                     hint="alpha thresholds are between 0 and 1 (convention: 0.800 and 0.667)",
                 )
                 return None
-            values[key] = number
+            if key == "training":
+                training = number
+            else:
+                values[key] = number
         if values["tentative"] > values["reliable"]:
             self.add(
                 "bad-thresholds",
@@ -300,7 +315,9 @@ class FieldChecker:
                 hint="tentative must not exceed reliable (convention: 0.667 and 0.800)",
             )
             return None
-        return Thresholds(reliable=values["reliable"], tentative=values["tentative"])
+        return Thresholds(
+            reliable=values["reliable"], tentative=values["tentative"], training=training
+        )
 
     def categories(self, node: Node | None, name: str) -> tuple[list[Category], list[Node]]:
         cats: list[Category] = []

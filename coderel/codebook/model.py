@@ -82,6 +82,8 @@ class Variable:
     applies_when: Condition | None = None
     instructions: str | None = None
     thresholds: Thresholds | None = None
+    #: The variable's name in the codebook's earlier version (for ``codebook diff``).
+    renamed_from: str | None = None
 
     @property
     def is_categorical(self) -> bool:
@@ -126,6 +128,24 @@ class Variable:
         return self.label or self.name
 
 
+@dataclass(frozen=True, slots=True)
+class Recode:
+    """How values coded under an earlier version of the codebook map onto this version's codes.
+
+    ``maps`` holds, per variable (this version's name), pairs ``(old code, new code)``; codes
+    not listed keep their value. Sheets made from ``from_version`` are recoded when read.
+    """
+
+    from_version: str
+    maps: tuple[tuple[str, tuple[tuple[Code, Code], ...]], ...]
+
+    def map_for(self, variable: str) -> dict[Code, Code]:
+        for name, pairs in self.maps:
+            if name == variable:
+                return dict(pairs)
+        return {}
+
+
 @dataclass(frozen=True)  # no slots: __post_init__ stores a name index beside the fields
 class Codebook:
     """The single source of truth for what is coded and how."""
@@ -138,6 +158,8 @@ class Codebook:
     text_columns: tuple[str, ...] = ()
     thresholds: Thresholds = field(default_factory=Thresholds)
     source: str | None = None
+    #: Recode blocks, one per earlier version sheets may have been made from.
+    recode: tuple[Recode, ...] = ()
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "_by_name", {v.name: v for v in self.variables})
@@ -154,6 +176,13 @@ class Codebook:
     @property
     def names(self) -> tuple[str, ...]:
         return tuple(v.name for v in self.variables)
+
+    def recode_from(self, version: str) -> Recode | None:
+        """The recode block for sheets made from ``version`` (``None`` when there is none)."""
+        for r in self.recode:
+            if r.from_version == version:
+                return r
+        return None
 
     def thresholds_for(self, name: str) -> Thresholds:
         own = self.variable(name).thresholds
