@@ -422,3 +422,18 @@ def test_methods_paragraph_says_what_was_recoded():
     content = build_report(codings, result, stability=stability(codings, replicates=0))
     assert "coder_ana recoded 40 units after 14 days" in content.methods.paragraph
     assert "Stability (intra-coder, test-retest reliability" in content.methods.paragraph
+
+
+def test_one_coder_prints_no_empty_numeric_tables(tmp_path):
+    res = CliRunner().invoke(app, ["agree", "-c", str(CB), str(RETEST), "--replicates", "0"])
+    assert res.exit_code == 0, res.output
+    assert "Intraclass correlations" not in res.stdout
+    assert "Per pair" not in res.stdout
+
+
+def test_terminal_shows_the_icc_table():
+    res = CliRunner().invoke(app, ["agree", "-c", str(SF_CB), str(SF_DATA), "--replicates", "0"])
+    assert res.exit_code == 0, res.output
+    assert "Intraclass correlations" in res.stdout
+    assert "0.290 [0.019, 0.761]" in res.stdout  # ICC(2,1) with its F-test interval
+    assert "judge1 - judge2" in res.stdout

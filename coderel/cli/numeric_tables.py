@@ -19,7 +19,7 @@ def _n(value: float | None) -> str:
 
 
 def numeric_tables(result: Any) -> list[Table]:
-    """The ICC table and the pairs table; none when no variable is numeric."""
+    """The ICC table and the pairs table, each only when it has a row."""
     from coderel.stats.icc import ICC_FORMS
 
     rows = [v for v in result.variables if getattr(v, "numeric", None) is not None]
@@ -60,4 +60,4 @@ def numeric_tables(result: Any) -> list[Table]:
                 f"{_n(lo.lower)} to {_n(lo.upper)}",
                 "-" if pb is None else (f"yes (p = {pb.p_value:.3g})" if pb.significant else "no"),
             )
-    return [icc, pairs]
+    return [t for t in (icc, pairs) if t.row_count]
