@@ -20,7 +20,7 @@ maps it onto the codebook:
 * anything else -> value ``None`` and an error (``not-in-codebook`` with a "did you mean" hint,
   ``not-a-number``, ``out-of-range``, ``not-integer``, ``multiple-not-allowed``,
   ``date-converted`` for a date cell or date-like text such as ``3-Jan`` in a CSV file,
-  ``excel-error``, ``formula-no-value``).
+  ``spreadsheet-error``, ``formula-no-value``).
 
 Messages quote only codes and short coded values, never narrative text: the text columns of the
 codebook are not passed through this module.
@@ -345,7 +345,7 @@ def normalise_cell(variable: Variable, raw: Any, *, typed: bool = True) -> Norma
     if isinstance(raw, CellError) or (isinstance(raw, str) and raw.strip() in EXCEL_ERRORS):
         text = raw.text if isinstance(raw, CellError) else raw.strip()
         return _invalid(
-            "excel-error",
+            "spreadsheet-error",
             f"the cell holds the spreadsheet error {text}",
             "replace the error by the code (or leave the cell blank)",
         )

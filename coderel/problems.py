@@ -76,7 +76,7 @@ PROBLEM_CODES: dict[str, tuple[Severity, str]] = {
     "should-not-apply": ("error", "a value where applies_when says the variable does not apply"),
     "should-apply": ("error", "a blank where applies_when says the variable applies"),
     "date-converted": ("error", "a spreadsheet turned a code into a date"),
-    "excel-error": ("error", "a cell holds a spreadsheet error value such as #N/A"),
+    "spreadsheet-error": ("error", "a cell holds a spreadsheet error value such as #N/A"),
     "formula-no-value": ("error", "a formula cell has no stored result"),
     "long-format": ("error", "a long table lacks the columns unit, coder, variable, value"),
     "missing-coder": ("error", "a row of a table with a coder column has no coder name"),

@@ -622,7 +622,7 @@ def write_messy_sheet(out: Path, reports: list[Report]) -> list[dict[str, str]]:
         "date-converted",
         "'1-3' turned into a date by a spreadsheet",
     )
-    put(6, "visitor_distance_m", "#N/A", "excel-error", "error value #N/A (data type e)")
+    put(6, "visitor_distance_m", "#N/A", "spreadsheet-error", "error value #N/A (data type e)")
     fahrenheit = round(int(true_value(7, "temperature_c")) * 9 / 5 + 32)
     put(
         7,

@@ -115,7 +115,7 @@ EXPECTED: dict[str, list[tuple]] = {
     "latin1.csv": [("encoding", None, None, None)],
     "cells.xlsx": [
         ("date-converted", "H4", "R-03", "factors"),
-        ("excel-error", "G5", "R-04", "distance_m"),
+        ("spreadsheet-error", "G5", "R-04", "distance_m"),
         ("formula-no-value", "D6", "R-05", "behaviour"),
         ("normalised-label", "D7", "R-06", "behaviour"),
         ("normalised-number", "C8", "R-07", "animal"),
@@ -168,7 +168,7 @@ def test_problem_details_name_value_place_and_fix(cb):
     assert "CSV UTF-8" in latin.hint
     cells = {p.code: p for p in _read(cb, "cells.xlsx").problems}
     assert "format the column as Text" in cells["date-converted"].hint
-    assert "#N/A" in cells["excel-error"].message
+    assert "#N/A" in cells["spreadsheet-error"].message
     assert cells["normalised-label"].message == "the label 'Alert' was read as code 2"
     assert cells["normalised-label"].severity == "warning"
     assert {p.coder for p in cells.values()} == {"cells"}

@@ -255,7 +255,7 @@ REQUIRED_CODES = {
     "normalised-number",
     "normalised-space",
     "date-converted",
-    "excel-error",
+    "spreadsheet-error",
     "formula-no-value",
     "duplicate-unit",
     "unknown-column",
@@ -312,7 +312,7 @@ def test_each_expected_problem_is_really_in_its_cell(expected, codebook):
     assert spaced.strip() in variable("normalised-space").codes
     assert isinstance(cell("date-converted").value, dt.datetime)
     assert variable("date-converted").is_categorical
-    assert cell("excel-error").data_type == "e"
+    assert cell("spreadsheet-error").data_type == "e"
     assert cell("formula-no-value").data_type == "f"
     low, high = variable("out-of-range").range
     assert not low <= cell("out-of-range").value <= high

@@ -9,11 +9,13 @@ tests/test_stats_core.py; they are not repeated here.
 
 from __future__ import annotations
 
+import re
 from pathlib import Path
 
 import krippendorff
 import numpy as np
 import pytest
+from scipy.stats import norm
 from statsmodels.stats.inter_rater import aggregate_raters, cohens_kappa, fleiss_kappa
 
 from coderel.agree import COEFFICIENTS, THIN_DATA, agreement
@@ -80,7 +82,7 @@ def _x(data: list[list[int | None]]) -> np.ndarray:
 # Krippendorff's alpha: three coders, fifteen units
 # Wikipedia contributors, "Krippendorff's alpha", section "A computational example" (the
 # encyclopedic example); nominal 0.691358 and interval 0.810845 are asserted to six decimals in
-# the `krippendorff` package's own tests (see /work/shared/reference/published-examples.md).
+# the `krippendorff` package's own tests.
 # --------------------------------------------------------------------------------------------
 
 THREE_CODERS = [
@@ -120,9 +122,10 @@ def test_three_coders_fifteen_units_all_levels_match_krippendorff_package(name):
 # only the patients x diagnoses counts; the rater-level rows below are those of statsmodels'
 # test suite (statsmodels/stats/tests/test_inter_rater.py, `diagnoses`), which aggregate to the
 # published table (column totals 26 26 30 55 43). Published kappa .430; per-category kappas
-# .245 .245 .520 .471 .566 (memory). R irr's kappam.fleiss gives kappa 0.4302445 and z 17.65183
-# (recorded in statsmodels' test_fleiss_kappa_irr); irr's z uses the null-hypothesis variance of
-# Fleiss, Nee & Landis (1979), so SE_0 = 0.4302445 / 17.65183.
+# .245 .245 .520 .471 .566 (memory). The seven-digit kappa 0.4302445 is the published .430 carried
+# further by the formula of Fleiss (1971, eqs. 2-5) on that table (statsmodels' fleiss_kappa
+# gives it too); z 17.65183 is kappa / SE_0 with the null-hypothesis variance of Fleiss, Nee &
+# Landis (1979), written out below (from memory of that paper's formula).
 # --------------------------------------------------------------------------------------------
 
 DIAGNOSES = [
@@ -156,7 +159,7 @@ def test_fleiss_1971_kappa_through_engine():
     result = agreement(_codings(data, {"diagnosis": "nominal"}, 5), replicates=100, seed=2)
     fleiss = result.variable("diagnosis").coefficients["fleiss_kappa"].estimate
     assert round(fleiss, 3) == 0.430  # Fleiss (1971): .430
-    assert fleiss == pytest.approx(0.4302445, abs=5e-8)  # R irr, as recorded by statsmodels
+    assert fleiss == pytest.approx(0.4302445, abs=5e-8)  # Fleiss (1971) formula, seven digits
     assert fleiss == pytest.approx(fleiss_kappa(_diagnosis_counts(), method="fleiss"), abs=1e-12)
     # With every coder coding every unit, Scott's pi in its multi-coder form is Fleiss' kappa.
     scott = result.variable("diagnosis").coefficients["scott_pi"].estimate
@@ -170,7 +173,7 @@ def test_fleiss_1971_standard_error_z_and_category_kappas_through_engine():
     )
     fleiss = v.coefficients["fleiss_kappa"]
     assert v.fleiss_units == 30
-    # R irr kappam.fleiss: z 17.65183 with the Fleiss, Nee & Landis (1979) null variance.
+    # z = kappa / SE_0, SE_0 from the Fleiss, Nee & Landis (1979) null variance.
     assert fleiss.z == pytest.approx(17.65183, abs=5e-5)
     assert fleiss.se == pytest.approx(0.4302445 / 17.65183, rel=1e-6)
     per_category = [v.category_agreement[code]["fleiss_kappa"] for code in range(1, 6)]
@@ -193,11 +196,18 @@ def test_fleiss_1971_null_standard_error_and_z():
     counts = _diagnosis_counts()
     p = counts.sum(axis=0) / counts.sum()
     se0 = fleiss_null_se(p, n_units=30, raters=6)
-    # R irr kappam.fleiss on these data: kappa 0.4302445, z 17.65183 (statsmodels' tests).
+    # Fleiss, Nee & Landis (1979), written out here: with q = 1 - p and N subjects rated by m
+    # raters, var_0 = 2 / (N m (m - 1)) [(sum p q)^2 - sum p q (q - p)] / (sum p q)^2.
+    q = 1 - p
+    s = float((p * q).sum())
+    var0 = 2 / (30 * 6 * 5) * (s**2 - float((p * q * (q - p)).sum())) / s**2
+    assert se0 == pytest.approx(var0**0.5, rel=1e-12)
     assert se0 == pytest.approx(0.4302445 / 17.65183, rel=1e-6)
     z, p_value = z_test(0.4302445, se0)
     assert z == pytest.approx(17.65183, abs=5e-6)
-    assert p_value == pytest.approx(0.0, abs=1e-12)  # irr prints p-value 0
+    # Two-sided normal p-value 2 (1 - Phi(z)), about 1e-69: a number, not 0 (scipy as reference).
+    assert p_value == pytest.approx(2 * norm.sf(z), rel=1e-9)
+    assert 0 < p_value < 1e-60
 
 
 # --------------------------------------------------------------------------------------------
@@ -237,52 +247,53 @@ def test_ten_subjects_fourteen_raters():
 
 
 # --------------------------------------------------------------------------------------------
-# Cohen's kappa with its large-sample standard error. The 3 x 3 table [[0, 4, 1], [0, 8, 0],
-# [0, 1, 5]] is a SAS example whose printout statsmodels' tests record (TestUnweightedCohens,
-# TestWeightedCohens): simple kappa 0.4842, ASE 0.1380; weighted kappa (Cicchetti-Allison, i.e.
-# linear weights) 0.4701, ASE 0.1457. ASE is the non-null large-sample SE of Fleiss, Cohen &
-# Everitt (1969), statsmodels' std_kappa.
+# Cohen's kappa with its large-sample standard error, on a small 3 x 3 table [[0, 4, 1],
+# [0, 8, 0], [0, 1, 5]] (a worked example of software documentation; its figures from memory):
+# kappa 0.4842 (Cohen 1960), SE 0.1380; linear-weighted kappa 0.4701 (Cohen 1968), SE 0.1457.
+# The SE is the non-null large-sample formula of Fleiss, Cohen & Everitt (1969), Psychological
+# Bulletin 72(5), 323-327; every figure is also checked against statsmodels' cohens_kappa
+# (kappa and std_kappa), whose implementation follows the same papers.
 # --------------------------------------------------------------------------------------------
 
-SAS_TABLE = [[0, 4, 1], [0, 8, 0], [0, 1, 5]]
+THREE_POINT_TABLE = [[0, 4, 1], [0, 8, 0], [0, 1, 5]]
 
 
-def test_sas_cohen_table_kappa_and_ase():
-    kappa, se = cohen_kappa_table(SAS_TABLE)
-    assert round(kappa, 4) == 0.4842  # SAS printout
-    assert round(se, 4) == 0.1380  # SAS printout, ASE
-    ref = cohens_kappa(np.array(SAS_TABLE))
+def test_three_point_cohen_table_kappa_and_ase():
+    kappa, se = cohen_kappa_table(THREE_POINT_TABLE)
+    assert round(kappa, 4) == 0.4842  # Cohen (1960); from memory
+    assert round(se, 4) == 0.1380  # Fleiss, Cohen & Everitt (1969); from memory
+    ref = cohens_kappa(np.array(THREE_POINT_TABLE))
     assert kappa == pytest.approx(ref.kappa, abs=1e-12)
     assert se == pytest.approx(ref.std_kappa, abs=1e-12)
 
 
-def test_sas_weighted_kappa_and_ase():
-    kappa, se = cohen_kappa_table(SAS_TABLE, "linear")
-    assert round(kappa, 4) == 0.4701  # SAS printout, weighted kappa
-    assert round(se, 4) == 0.1457  # SAS printout, ASE
-    ref = cohens_kappa(np.array(SAS_TABLE), weights=[0, 1, 2])
+def test_three_point_weighted_kappa_and_ase():
+    kappa, se = cohen_kappa_table(THREE_POINT_TABLE, "linear")
+    assert round(kappa, 4) == 0.4701  # Cohen (1968), linear weights; from memory
+    assert round(se, 4) == 0.1457  # Fleiss, Cohen & Everitt (1969); from memory
+    ref = cohens_kappa(np.array(THREE_POINT_TABLE), weights=[0, 1, 2])
     assert kappa == pytest.approx(ref.kappa, abs=1e-12)
     assert se == pytest.approx(ref.std_kappa, abs=1e-12)
 
 
-def test_sas_table_through_engine_with_first_category_unused():
+def test_three_point_table_through_engine_with_first_category_unused():
     # Coder B never uses category 1: the codebook's full three-point scale still counts.
-    a, b = _pairs_from_table(SAS_TABLE)
+    a, b = _pairs_from_table(THREE_POINT_TABLE)
     codings = _codings([list(a + 1), list(b + 1)], {"rating": "ordinal"}, 3)
     v = agreement(codings, replicates=100, seed=3).variable("rating")
-    assert round(v.coefficients["cohen_kappa"].estimate, 4) == 0.4842  # SAS printout
-    assert round(v.coefficients["weighted_kappa_linear"].estimate, 4) == 0.4701  # SAS printout
-    quad = cohens_kappa(np.array(SAS_TABLE), wt="quadratic").kappa
+    assert round(v.coefficients["cohen_kappa"].estimate, 4) == 0.4842  # as above
+    assert round(v.coefficients["weighted_kappa_linear"].estimate, 4) == 0.4701  # as above
+    quad = cohens_kappa(np.array(THREE_POINT_TABLE), wt="quadratic").kappa
     assert v.coefficients["weighted_kappa_quadratic"].estimate == pytest.approx(quad, abs=1e-12)
 
 
-def test_sas_table_standard_errors_through_engine():
-    a, b = _pairs_from_table(SAS_TABLE)
+def test_three_point_table_standard_errors_through_engine():
+    a, b = _pairs_from_table(THREE_POINT_TABLE)
     codings = _codings([list(a + 1), list(b + 1)], {"rating": "ordinal"}, 3)
     c = agreement(codings, replicates=100, seed=3).variable("rating").coefficients
-    assert round(c["cohen_kappa"].se, 4) == 0.1380  # SAS printout, ASE (FCE 1969)
-    assert round(c["weighted_kappa_linear"].se, 4) == 0.1457  # SAS printout, ASE
-    ref = cohens_kappa(np.array(SAS_TABLE), wt="quadratic")
+    assert round(c["cohen_kappa"].se, 4) == 0.1380  # Fleiss, Cohen & Everitt (1969), as above
+    assert round(c["weighted_kappa_linear"].se, 4) == 0.1457  # as above
+    ref = cohens_kappa(np.array(THREE_POINT_TABLE), wt="quadratic")
     assert c["weighted_kappa_quadratic"].se == pytest.approx(ref.std_kappa, abs=1e-12)
 
 
@@ -387,3 +398,18 @@ def test_coefficients_doc_names_every_key_and_reason():
         assert f"`{key}`" in doc, key
     for reason in (*REASONS, THIN_DATA):
         assert f"`{reason}`" in doc, reason
+
+
+def test_no_test_points_outside_the_repository():
+    # A test reads only files of the repository (or its own temporary folders): no absolute path
+    # to a machine's folders in any test module.
+    tests = Path(__file__).resolve().parent
+    roots = ("work", "home", "Users", "mnt", "opt", "srv")
+    absolute = re.compile(r"""["'(\s]/(?:""" + "|".join(roots) + ")/")
+    found = [
+        f"{path.name}:{n}"
+        for path in sorted(tests.glob("*.py"))
+        for n, line in enumerate(path.read_text("utf-8").splitlines(), 1)
+        if absolute.search(line)
+    ]
+    assert not found, found

@@ -586,11 +586,11 @@ def test_multi_select_alpha_matches_krippendorff_with_jaccard_metric(data):
 
 @SLOW
 @given(code_sets())
-def test_multi_select_binary_alpha_per_category_matches_krippendorff(data):
+def test_multi_select_alpha_chosen_or_not_per_category_matches_krippendorff(data):
     v = agreement(_multi_codings(data), replicates=0, seed=1).variable("factors")
     for code in range(1, 5):
         rel = np.array([[np.nan if s is None else float(code in s) for s in row] for row in data])
-        got = v.category_agreement[code]["binary_alpha"]
+        got = v.category_agreement[code]["alpha_chosen_or_not"]
         pairable = (~np.isnan(rel)).sum(axis=0) >= 2
         if len(set(rel[:, pairable][~np.isnan(rel[:, pairable])])) < 2:
             assert got is None, code

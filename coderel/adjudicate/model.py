@@ -117,11 +117,11 @@ class Adjudication:
                     "disagreements": len(rows),
                     "decided": decided,
                     "open": len(rows) - decided,
-                    "to check": check,
-                    "no longer needed": sum(r.variable == var.name for r in self.retired),
+                    "to_check": check,
+                    "no_longer_needed": sum(r.variable == var.name for r in self.retired),
                 }
             )
-        columns = ["variable", "disagreements", "decided", "open", "to check", "no longer needed"]
+        columns = ["variable", "disagreements", "decided", "open", "to_check", "no_longer_needed"]
         return pd.DataFrame(out, columns=columns)
 
     def to_frame(self) -> pd.DataFrame:
@@ -137,7 +137,7 @@ class Adjudication:
             "disagreements": len(self.rows),
             "decided": int(summary["decided"].sum()),
             "open": int(summary["open"].sum()),
-            "to_check": int(summary["to check"].sum()),
+            "to_check": int(summary["to_check"].sum()),
             "no_longer_needed": len(self.retired),
             "kept": self.kept,
             "added": self.added,

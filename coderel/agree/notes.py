@@ -122,8 +122,8 @@ def notes_for(
         )
     if t.kind == "variable" and t.var.multiple:
         notes.append(
-            "multi-select: alpha uses the Jaccard set distance; binary alpha per category is "
-            "in the per-category table"
+            "multi-select: alpha uses the Jaccard set distance; alpha per category (chosen or "
+            "not: alpha_chosen_or_not) is in the per-category table"
         )
     if t.kind == "applicability":
         notes.append(

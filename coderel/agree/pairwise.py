@@ -58,8 +58,8 @@ def category_agreement(
 ) -> dict[Any, dict[str, float | None]]:
     """Per category: Fleiss' (1971, eq. 11) kappa on the units with the most common number of
     values and the proportion of specific agreement pooled over coder pairs
-    (2 n_kk / (n_k. + n_.k)); for multi-select variables, Krippendorff's binary (present/absent)
-    alpha per category."""
+    (2 n_kk / (n_k. + n_.k)); for multi-select variables, Krippendorff's nominal alpha on
+    "chosen or not" per category (``alpha_chosen_or_not``)."""
     var = t.var
     out: dict[Any, dict[str, float | None]] = {}
     if t.kind == "variable" and var.multiple:
@@ -69,7 +69,7 @@ def category_agreement(
             xb = np.where(t.x >= 0, has[t.x], -1)
             a = alpha_point(xb, Scale("categorical", "nominal", 2))
             used = int((xb == 1).sum())
-            out[code] = {"binary_alpha": finite(a), "values_with_category": used}
+            out[code] = {"alpha_chosen_or_not": finite(a), "values_with_category": used}
         return out
     if t.scale.kind != "categorical":
         return out

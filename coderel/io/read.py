@@ -483,7 +483,8 @@ class _Reader:
         unit = _text_of(raw_unit)
         if unit is None:
             if isinstance(raw_unit, CellError | FormulaNoValue):
-                code = "excel-error" if isinstance(raw_unit, CellError) else "formula-no-value"
+                error = isinstance(raw_unit, CellError)
+                code = "spreadsheet-error" if error else "formula-no-value"
                 self.problems.add(
                     code,
                     "the unit ID cell holds no usable value; the row was not read",

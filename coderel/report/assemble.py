@@ -104,7 +104,7 @@ def _category_panels(result: Any, codebook: Codebook) -> tuple[CategoryPanel, ..
 
     Single-choice variables get the confusion table (summed over coder pairs) and the engine's
     per-category Fleiss kappa and specific agreement; multi-select variables get the engine's
-    per-category binary alpha only (a code set has no single confusion table).
+    per-category alpha (chosen or not) only (a code set has no single confusion table).
     """
     panels = []
     for va in result.variables:

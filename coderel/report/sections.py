@@ -349,7 +349,7 @@ CATEGORY_TITLES: dict[str, str] = {
     "label": "Category",
     "fleiss_kappa": "Fleiss' κ",
     "specific_agreement": "Specific agreement",
-    "binary_alpha": "α (chosen or not)",
+    "alpha_chosen_or_not": "α (chosen or not)",
     "share_of_values": "Share of values",
     "values_with_category": "Values with the category",
 }
