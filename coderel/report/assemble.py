@@ -348,6 +348,9 @@ def _adjudication(merged: Any, codebook: Codebook) -> Adjudication:
         rule=str(getattr(merged, "rule", "") or ""),
         totals=tuple(totals.items()),
         by_variable=tuple(by_var),
+        tolerance=tuple(
+            (str(k), float(v)) for k, v in dict(getattr(merged, "tolerance", {})).items()
+        ),
     )
 
 
@@ -368,6 +371,7 @@ def _summary(codings: Codings, result: Any, table: Sequence[VariableRow]) -> Sum
     )
     per_unit = frame.groupby("unit")["coder"].nunique()
     all_coders = int((per_unit == len(coders)).sum())
+    per_coder = frame.groupby("coder")["unit"].nunique()
     main = [r for r in table if r.kind == "variable"]
     verdicts = tuple((v, sum(1 for r in main if r.verdict == v)) for v in VERDICTS)
     return Summary(
@@ -380,6 +384,7 @@ def _summary(codings: Codings, result: Any, table: Sequence[VariableRow]) -> Sum
         cells_filled=filled,
         cells_not_applicable=not_applicable,
         units_all_coders=all_coders,
+        units_per_coder=tuple((c, int(per_coder.get(c, 0))) for c in coders),
     )
 
 
@@ -461,7 +466,9 @@ def build_report(
     numeric = numeric_panels(result)
     stable = stability_panel(stability)
     extra = methods_sentences(numeric, stable, round(repro.ci_level * 100))
-    methods = methods_text(summary=summary, table=table, repro=repro, extra=extra)
+    methods = methods_text(
+        summary=summary, table=table, repro=repro, extra=extra, adjudication=adjudication
+    )
     return ReportContent(
         summary=summary,
         table=table,

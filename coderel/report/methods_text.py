@@ -12,7 +12,7 @@ from typing import TYPE_CHECKING
 from coderel.report.model import MethodsText
 
 if TYPE_CHECKING:
-    from coderel.report.model import Reproducibility, Summary, VariableRow
+    from coderel.report.model import Adjudication, Reproducibility, Summary, VariableRow
 
 MINUS = "\u2212"
 
@@ -210,17 +210,57 @@ def _join(items: Sequence[str]) -> str:
     return ", ".join(items[:-1]) + f", and {items[-1]}"
 
 
+_SETTLED_BY: dict[str, str] = {
+    "agreed": "agreed by every coder who coded the unit",
+    "within_tolerance": "settled because the coders' numbers lay within the tolerance (their "
+    "median kept)",
+    "majority": "settled by a majority of the coders",
+    "adjudicated": "decided by an adjudicator",
+    "single": "coded by one coder only",
+    "not_applicable": "did not apply by the codebook's skip logic",
+    "unresolved": "remain unresolved",
+}
+
+
+def adjudication_sentence(adjudication: Adjudication) -> str:
+    """How the final values were reached, with the merge's counts (e.g. ``Of the 2,000 cells
+    (units × variables) of the final dataset, 1,315 were agreed ..., 510 were decided by an
+    adjudicator ...``)."""
+    parts = []
+    for status, n in adjudication.totals:
+        if n:
+            verb = "" if status == "unresolved" else ("was " if n == 1 else "were ")
+            parts.append(f"{n:,} {verb}{_SETTLED_BY.get(status, status)}")
+    rule = (
+        "a majority of more than half of the coders settled a disagreement"
+        if adjudication.rule == "majority"
+        else "only unanimous values were accepted without an adjudicator"
+    )
+    if adjudication.tolerance:
+        rule += (
+            "; numbers within "
+            + _join([f"{v:g} for {n}" for n, v in adjudication.tolerance])
+            + " counted as agreeing"
+        )
+    return (
+        f"Of the {adjudication.cells:,} cells (units × variables) of the final dataset, "
+        f"{_join(parts)} (rule: {rule})."
+    )
+
+
 def methods_text(
     *,
     summary: Summary,
     table: Sequence[VariableRow],
     repro: Reproducibility,
     extra: tuple[Sequence[str], Sequence[str]] = ((), ()),
+    adjudication: Adjudication | None = None,
 ) -> MethodsText:
     """Write the methods paragraph from the report's summary, table and reproducibility block.
 
     ``extra`` holds further sentences (numeric variables, stability) and their reference keys;
-    they come before the closing sentence on validity.
+    they come before the closing sentence on validity. Every count comes from ``summary`` and
+    ``adjudication`` (the objects the summary and adjudication tables show).
     """
     level = round(repro.ci_level * 100)
     rows = [r for r in table if r.kind == "variable"]
@@ -233,7 +273,14 @@ def methods_text(
         f"{'coders independently' if n_coders != 1 else 'coder'} coded "
         f"{summary.units:,} units on {number_word(len(rows))} "
         f"variable{'s' if len(rows) != 1 else ''} defined in a codebook "
-        f"({repro.codebook_title}, version {repro.codebook_version})."
+        f"({repro.codebook_title}, version {repro.codebook_version})"
+        + (
+            f"; {summary.units_all_coders:,} of the units were coded by every coder ("
+            + ", ".join(f"{c} {n:,}" for c, n in summary.units_per_coder)
+            + ")."
+            if summary.units_all_coders < summary.units and n_coders > 1
+            else "."
+        )
     )
     if n_coders < 2:
         s.append(
@@ -371,6 +418,8 @@ def methods_text(
             groups.setdefault(reason_text(reason), []).append(r.variable)
         parts = [f"{_join(names)}: {why}" for why, names in groups.items()]
         s.append("Alpha was undefined for " + "; and for ".join(parts) + ".")
+    if adjudication is not None:
+        s.append(adjudication_sentence(adjudication))
     s.extend(extra[0])
     refs.extend(k for k in extra[1] if k not in refs)
     s.append(

@@ -170,6 +170,16 @@ class Adjudication:
     totals: tuple[tuple[str, int], ...]
     by_variable: tuple[tuple[str, tuple[int, ...]], ...]
     statuses: tuple[str, ...] = STATUSES
+    #: (variable, tolerance) of the merge's ``--tolerance`` options
+    tolerance: tuple[tuple[str, float], ...] = ()
+
+    @property
+    def cells(self) -> int:
+        """Units x variables: what the totals add up to."""
+        return sum(n for _, n in self.totals)
+
+    def count(self, status: str) -> int:
+        return dict(self.totals).get(status, 0)
 
     @property
     def resolved(self) -> int:
@@ -193,6 +203,16 @@ class Summary:
     cells_filled: int
     cells_not_applicable: int
     units_all_coders: int
+    #: (coder, units the coder coded), coders in the summary's order
+    units_per_coder: tuple[tuple[str, int], ...] = ()
+
+    def units_text(self) -> str:
+        """``80 (78 coded by every coder: ana 80, ben 79, cai 78)``: the one wording of the unit
+        counts, for the summary table and the methods paragraph."""
+        text = f"{self.units:,} ({self.units_all_coders:,} coded by every coder"
+        if self.units_all_coders < self.units and self.units_per_coder:
+            text += ": " + ", ".join(f"{c} {n:,}" for c, n in self.units_per_coder)
+        return text + ")"
 
     @property
     def completeness(self) -> float | None:

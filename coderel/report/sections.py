@@ -169,7 +169,7 @@ def summary_rows(content: ReportContent) -> list[tuple[str, str]]:
     blank = s.cells_total - s.cells_filled - s.cells_not_applicable
     rows = [
         ("Project", s.title),
-        ("Units", f"{s.units:,} ({s.units_all_coders:,} coded by every coder)"),
+        ("Units", s.units_text()),
         ("Coders", f"{len(s.coders)}: {', '.join(s.coders)}"),
         (
             "Variables",
