@@ -42,6 +42,7 @@ VERDICT_COLOURS: dict[str, str] = {
 }
 STATUS_COLOURS: dict[str, str] = {
     "agreed": "#2e6f62",
+    "within_tolerance": "#4f8a7c",
     "majority": "#6f9f8f",
     "adjudicated": "#4d6f9a",
     "single": "#a9b8c9",
@@ -49,6 +50,10 @@ STATUS_COLOURS: dict[str, str] = {
     "not_applicable": "#d8d3c7",
 }
 HEAT = LinearSegmentedColormap.from_list("coderel_heat", ["#f7f5ef", "#9cc3bb", "#1f5a52"])
+#: Off-diagonal cells (confusions) get a warm scale of their own, so that they stand out.
+CONFUSION_HEAT = LinearSegmentedColormap.from_list(
+    "coderel_confusion", ["#f7f5ef", "#e8b49a", "#a4473b"]
+)
 _RC = {
     "svg.fonttype": "none",
     "font.family": "sans-serif",
@@ -184,23 +189,67 @@ def _code_label(code: str, label: str) -> str:
     return f"{code} {label}" if code.lstrip("-").isdigit() else label
 
 
+def heat_shades(matrix: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Colour (hex) and shade (0-1) of every cell of a confusion table.
+
+    The diagonal (agreement) is scaled by its own largest count on a green scale; the off-diagonal
+    cells (confusions) by the largest off-diagonal count on a warm scale, so that 14 confusions
+    stand out even beside a diagonal of 200 (one scale for both would shade them alike).
+    """
+    matrix = np.asarray(matrix, dtype=float)
+    k = matrix.shape[0]
+    diagonal = np.eye(k, dtype=bool)
+    shade = np.zeros_like(matrix)
+    top_diag = matrix[diagonal].max() if k else 0.0
+    top_off = matrix[~diagonal].max() if k > 1 else 0.0
+    if top_diag > 0:
+        shade[diagonal] = matrix[diagonal] / top_diag
+    if top_off > 0:
+        shade[~diagonal] = matrix[~diagonal] / top_off
+    colours = np.empty(matrix.shape, dtype=object)
+    for i in range(k):
+        for j in range(k):
+            cmap = HEAT if i == j else CONFUSION_HEAT
+            r, g, b, _ = cmap(float(shade[i, j]))
+            colours[i, j] = f"#{round(r * 255):02x}{round(g * 255):02x}{round(b * 255):02x}"
+    return colours, shade
+
+
 def confusion_chart(panel: CategoryPanel) -> str:
-    """Heat map of one variable's coder-by-coder table (counts in the cells)."""
+    """Heat map of one variable's coder-by-coder table (counts in the cells).
+
+    Agreement (the diagonal) and confusions (off the diagonal) are shaded on separate scales
+    (:func:`heat_shades`); every cell is a rectangle with the id ``<heat map id>-<row>-<column>``.
+    """
+    from matplotlib.patches import Rectangle
+
     if panel.matrix is None:
         raise ValueError(f"{panel.variable} has no confusion table")
     matrix = np.asarray(panel.matrix, dtype=float)
     k = len(panel.codes)
     size = min(6.0, 1.6 + 0.45 * k)
+    colours, shade = heat_shades(matrix)
     with rc_context(_RC):
         fig = _figure(size + 0.8, size)
         ax = fig.add_subplot()
-        ax.imshow(matrix, cmap=HEAT, vmin=0, vmax=max(1.0, float(matrix.max())))
-        top = matrix.max() if matrix.size else 0
         for i in range(k):
             for j in range(k):
+                cell = Rectangle(
+                    (j - 0.5, i - 0.5), 1, 1, facecolor=colours[i, j], edgecolor="white"
+                )
+                cell.set_gid(f"{panel.heatmap_id}-{i}-{j}")
+                ax.add_patch(cell)
                 value = int(matrix[i, j])
-                colour = "white" if top and value > 0.6 * top else INK
+                colour = "white" if shade[i, j] > 0.6 else INK
                 ax.text(j, i, str(value), ha="center", va="center", color=colour, fontsize=8)
+        ax.set_xlim(-0.5, k - 0.5)
+        ax.set_ylim(k - 0.5, -0.5)
+        ax.set_aspect("equal")
+        ax.set_title(
+            "agreement (diagonal, green) and confusions (off it, red) on separate scales",
+            fontsize=7.5,
+            color=MUTED,
+        )
         labels = [
             _text(_code_label(c, lab), 18) for c, lab in zip(panel.codes, panel.labels, strict=True)
         ]
