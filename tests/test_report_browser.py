@@ -3,7 +3,8 @@
 Checks that the page loads with no request other than the file itself (the Content Security
 Policy Level 3 ``default-src 'none'`` is the page's own guard; here the browser's network events
 are the oracle), that every variable's table row and chart mark is present and visible, and
-saves a full-page screenshot to ``test-output/report.png``.
+saves a full-page screenshot to ``test-output/report.png``; at 420 px width the agreement table's
+key columns stay on screen (``test-output/report-narrow.png``).
 """
 
 from __future__ import annotations
@@ -23,6 +24,8 @@ CB = ROOT / "sample_codebooks" / "wildlife_encounters.yaml"
 OUTPUT = ROOT / "test-output"
 #: The demo's decisions, shipped beside the sample codebook.
 DECISIONS = ROOT / "sample_decisions" / "wildlife_encounters.xlsx"
+#: A phone's width in CSS pixels.
+NARROW = 420
 
 
 def _chromium() -> str | None:
@@ -88,6 +91,23 @@ def test_demo_report_in_headless_chromium(tmp_path):
             assert width <= 1280
             OUTPUT.mkdir(exist_ok=True)
             page.screenshot(path=str(OUTPUT / "report.png"), full_page=True)
+            # On a 420 px wide screen the agreement table's key columns (variable, alpha,
+            # interval, verdict) stay within the window without scrolling (issue 9, item 16).
+            page.set_viewport_size({"width": NARROW, "height": 900})
+            for row in content["table"]:
+                cells = {
+                    "variable": page.locator(f"#{row['id']} th"),
+                    "alpha": page.locator(f"#{row['id']} td.key-alpha"),
+                    "interval": page.locator(f"#{row['id']} td.key-interval"),
+                    "verdict": page.locator(f"#{row['id']} td.key-verdict"),
+                }
+                for name, cell in cells.items():
+                    assert cell.is_visible(), (row["variable"], name)
+                    box = cell.bounding_box()
+                    assert box is not None, (row["variable"], name)
+                    assert box["x"] >= 0, (row["variable"], name, box)
+                    assert box["x"] + box["width"] <= NARROW, (row["variable"], name, box)
+            page.screenshot(path=str(OUTPUT / "report-narrow.png"))
         finally:
             browser.close()
 

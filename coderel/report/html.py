@@ -113,6 +113,13 @@ svg.chart-svg { display: block; width: 100%; height: auto; margin: 0 auto; }
   align-items: start; }
 .panel-body > :only-child { grid-column: 1 / -1; }
 @media (max-width: 56rem) { .panel-body { grid-template-columns: minmax(0, 1fr); } }
+@media (max-width: 40rem) {
+  main { padding: 0 .5rem 2rem; }
+  table.agreement .extra { display: none; }
+  table.agreement th, table.agreement td { padding: .3rem .3rem; }
+  table.agreement th[scope="row"] { overflow-wrap: anywhere; min-width: 5.5rem; }
+  table.agreement td.notes { min-width: 14rem; }
+}
 .panel figure { border: 0; padding: 0; }
 table.categories { font-size: .84rem; }
 table.categories th, table.categories td { padding: .3rem .4rem; }
@@ -251,9 +258,15 @@ def _agreement(content: ReportContent) -> str:
     head = ["Variable", "Level", "Units", "Coders", "α", f"{level} CI"]
     head += ["SE"] if show_se else []
     head += ["Verdict", "Notes"]
+    # On a narrow screen the secondary columns are hidden (CSS), so that variable, alpha,
+    # interval and verdict stay on screen; the notes follow and scroll.
+    secondary = {1, 2, 3, 6} if show_se else {1, 2, 3}
     out = ['<div class="scroll"><table class="agreement"><thead><tr>']
     for i, h in enumerate(head):
-        cls = ' class="num"' if 2 <= i <= (6 if show_se else 5) else ""
+        classes = (["num"] if 2 <= i <= (6 if show_se else 5) else []) + (
+            ["extra"] if i in secondary else []
+        )
+        cls = f' class="{" ".join(classes)}"' if classes else ""
         out.append(f'<th scope="col"{cls}>{_e(h)}</th>')
     out.append("</tr></thead><tbody>")
     for table_row, r in zip(content.table, rows, strict=True):
@@ -264,17 +277,17 @@ def _agreement(content: ReportContent) -> str:
         notes = r["notes"] or r["reason"]
         cells = [
             f'<th scope="row">{_e(r["variable"])}{tag}{label}</th>',
-            f"<td>{_e(r['level'])}</td>",
-            f'<td class="num">{_e(r["units"])}</td>',
-            f'<td class="num">{_e(r["coders"])}</td>',
-            f'<td class="num"><strong>{_e(r["alpha"])}</strong></td>',
-            f'<td class="num">{_e(r["interval"])}</td>',
+            f'<td class="extra">{_e(r["level"])}</td>',
+            f'<td class="num extra">{_e(r["units"])}</td>',
+            f'<td class="num extra">{_e(r["coders"])}</td>',
+            f'<td class="num key-alpha"><strong>{_e(r["alpha"])}</strong></td>',
+            f'<td class="num key-interval">{_e(r["interval"])}</td>',
         ]
         if show_se:
-            cells.append(f'<td class="num">{_e(r["se"])}</td>')
+            cells.append(f'<td class="num extra">{_e(r["se"])}</td>')
         cells += [
-            f'<td><span class="verdict {_e(r["verdict"].replace(" ", "-"))}">'
-            f"{_e(r['verdict'])}</span></td>",
+            f'<td class="key-verdict"><span class="verdict '
+            f'{_e(r["verdict"].replace(" ", "-"))}">{_e(r["verdict"])}</span></td>',
             f'<td class="notes">{_e(notes)}</td>',
         ]
         out.append(f'<tr id="{_e(table_row.row_id)}">{"".join(cells)}</tr>')
