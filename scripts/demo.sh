@@ -38,7 +38,8 @@ step "7. Stability: coder_ana recoded 40 reports two weeks later (test-retest)"
 "$CODEREL" stability --codebook "$CB" "$SHEETS" --occasion coder_ana=demo/retest/coder_ana.csv --out "$OUT/stability.csv"
 
 step "8. The reliability report (with the Stability section)"
-"$CODEREL" report --codebook "$CB" "$SHEETS" --decisions "$DECISIONS" --occasion coder_ana=demo/retest/coder_ana.csv -o "$OUT/report.html" --format html,md,xlsx
+# the report's paths go to stderr with the rest of the log: stdout ends with report.html, once
+"$CODEREL" report --codebook "$CB" "$SHEETS" --decisions "$DECISIONS" --occasion coder_ana=demo/retest/coder_ana.csv -o "$OUT/report.html" --format html,md,xlsx >&2
 
 cat >&2 <<MSG
 
