@@ -119,6 +119,9 @@ def test_five_problems_reported_at_once_with_lines() -> None:
             ],
         ),
         ("cycle.yaml", [("condition-cycle", 5)]),
+        # a misspelled level is one error, not a second one about the applies_when that names
+        # the variable (issue 9, item 19)
+        ("misspelled_level_condition.yaml", [("unknown-level", 5)]),
         ("not_a_mapping.yaml", [("codebook-field", 1)]),
     ],
 )

@@ -52,6 +52,9 @@ def codebook_from_data(
 class CodebookBuilder(FieldChecker):
     """Walks located nodes, collects every problem and builds the model objects."""
 
+    #: variables the codebook names whose own errors kept them from being built
+    unbuilt: frozenset[str] = frozenset()
+
     def __init__(self, problems: Problems, file: str | None) -> None:
         super().__init__(problems, file)
         #: Where each variable's ``renamed_from`` stands (for located messages).
@@ -256,6 +259,8 @@ class CodebookBuilder(FieldChecker):
             )
             return None
         cond_var = by_name.get(target)
+        if cond_var is None and target in self.unbuilt:
+            return None  # the condition variable has errors of its own, reported already
         if cond_var is None:
             self.add(
                 "unknown-condition-variable",
@@ -340,6 +345,9 @@ class CodebookBuilder(FieldChecker):
                     built.append(result)
 
         by_name = {v.name: v for v, _ in built}
+        # variables named in the codebook but not built (their own errors are reported): a
+        # condition naming one of them is not a second error (issue 9, item 19)
+        self.unbuilt = frozenset({name for name, _ in seen.values()} - set(by_name))
         # conditions, once every variable is known
         final: list[Variable] = []
         for var, cond_node in built:
