@@ -79,3 +79,22 @@ def test_no_per_coder_list_when_every_coder_coded_every_unit():
     assert dict(summary_rows(content))["Units"] == "12 (12 coded by every coder)"
     assert "of the units were coded by every coder" not in content.methods.paragraph
     assert "cells (units × variables)" not in content.methods.paragraph  # no merge, no sentence
+
+
+def test_adjudication_sentence_reads_right_for_every_status():
+    from coderel.report.methods_text import adjudication_sentence
+    from coderel.report.model import Adjudication
+
+    adj = Adjudication(
+        rule="unanimous",
+        totals=(("agreed", 1315), ("adjudicated", 510), ("unresolved", 1), ("not_applicable", 175)),
+        by_variable=(),
+        tolerance=(("visitor_distance_m", 10.0),),
+    )
+    assert adjudication_sentence(adj) == (
+        "Of the 2,001 cells (units × variables) of the final dataset, 1,315 were agreed by every "
+        "coder who coded the unit, 510 were decided by an adjudicator, 1 remains unresolved, and "
+        "175 did not apply by the codebook's skip logic (rule: only unanimous values were "
+        "accepted without an adjudicator; numbers within 10 for visitor_distance_m counted as "
+        "agreeing)."
+    )

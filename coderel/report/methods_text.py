@@ -211,14 +211,14 @@ def _join(items: Sequence[str]) -> str:
 
 
 _SETTLED_BY: dict[str, str] = {
-    "agreed": "agreed by every coder who coded the unit",
-    "within_tolerance": "settled because the coders' numbers lay within the tolerance (their "
-    "median kept)",
-    "majority": "settled by a majority of the coders",
-    "adjudicated": "decided by an adjudicator",
-    "single": "coded by one coder only",
+    "agreed": "{be} agreed by every coder who coded the unit",
+    "within_tolerance": "{be} settled because the coders' numbers lay within the tolerance "
+    "(their median kept)",
+    "majority": "{be} settled by a majority of the coders",
+    "adjudicated": "{be} decided by an adjudicator",
+    "single": "{be} coded by one coder only",
     "not_applicable": "did not apply by the codebook's skip logic",
-    "unresolved": "remain unresolved",
+    "unresolved": "{remain} unresolved",
 }
 
 
@@ -229,8 +229,11 @@ def adjudication_sentence(adjudication: Adjudication) -> str:
     parts = []
     for status, n in adjudication.totals:
         if n:
-            verb = "" if status == "unresolved" else ("was " if n == 1 else "were ")
-            parts.append(f"{n:,} {verb}{_SETTLED_BY.get(status, status)}")
+            phrase = _SETTLED_BY.get(status, "{be} " + status.replace("_", " "))
+            phrase = phrase.format(
+                be="was" if n == 1 else "were", remain="remains" if n == 1 else "remain"
+            )
+            parts.append(f"{n:,} {phrase}")
     rule = (
         "a majority of more than half of the coders settled a disagreement"
         if adjudication.rule == "majority"
