@@ -37,7 +37,7 @@ from __future__ import annotations
 import contextlib
 import re
 from collections.abc import Iterable, Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Any
 
 import numpy as np
@@ -175,6 +175,19 @@ class Codings:
         in which units first appear.
         """
         return natural_order(pd.unique(self.frame["unit"]))
+
+    def restricted_to(self, units: Sequence[str]) -> Codings:
+        """The codings of the listed units only (e.g. the reliability sample of ``assign``);
+        texts, problems and sources are kept."""
+        keep = self.frame["unit"].isin(set(map(str, units)))
+        return replace(self, frame=self.frame[keep].reset_index(drop=True))
+
+    def single_coded_units(self) -> int:
+        """How many units only one coder coded (agreement needs two or more values per unit, so
+        these units are left out of it; ``merge`` marks their cells ``single``)."""
+        if not len(self.frame):
+            return 0
+        return int((self.frame.groupby("unit")["coder"].nunique() == 1).sum())
 
     def for_variable(self, name: str) -> pd.DataFrame:
         """Rows of one variable."""

@@ -29,7 +29,7 @@ from __future__ import annotations
 
 import os
 import re
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 from pathlib import Path
 from typing import Any
 
@@ -385,11 +385,24 @@ def template_bytes(codebook: Codebook, coder: str, units: Sequence[str] = ()) ->
 
 
 # ---- entry point -----------------------------------------------------------------------------
+def _checked_units(units: Sequence[str]) -> list[str]:
+    """A unit list stripped; :class:`UsageError` for a blank or repeated ID."""
+    unit_list = [str(u).strip() for u in units]
+    if any(not u for u in unit_list):
+        raise UsageError("a unit ID in the unit list is blank")
+    seen: set[str] = set()
+    for unit in unit_list:
+        if unit in seen:
+            raise UsageError(f"the unit list holds {unit!r} more than once")
+        seen.add(unit)
+    return unit_list
+
+
 def write_templates(
     codebook: Codebook,
     coders: Sequence[str],
     out_dir: str | os.PathLike[str],
-    units: Sequence[str] | None = None,
+    units: Sequence[str] | Mapping[str, Sequence[str]] | None = None,
     *,
     overwrite: bool = False,
     inputs: Sequence[str | os.PathLike[str]] = (),
@@ -405,7 +418,9 @@ def write_templates(
     out_dir
         Folder for the workbooks (created when missing).
     units
-        Unit IDs to pre-fill in the unit column, in order (see :func:`read_unit_list`).
+        Unit IDs to pre-fill in the unit column, in order (see :func:`read_unit_list`): one list
+        for every coder, or a mapping from each coder's name to that coder's own list (as
+        ``coderel assign`` makes them).
     overwrite
         Replace an existing workbook whose bytes differ from the new one. Without it such a
         file, perhaps already filled in by its coder, is kept and :class:`UsageError` raised
@@ -426,12 +441,22 @@ def write_templates(
         input, or an existing different file without ``overwrite``.
     """
     names = check_coder_names(coders)
-    unit_list = [str(u).strip() for u in (units or ())]
-    if any(not u for u in unit_list):
-        raise UsageError("a unit ID in the unit list is blank")
-    if len(set(unit_list)) != len(unit_list):
-        twice = sorted({u for u in unit_list if unit_list.count(u) > 1})
-        raise UsageError(f"the unit list holds {twice[0]!r} more than once")
+    if isinstance(units, Mapping):
+        unknown = sorted(set(map(str, units)) - set(names))
+        if unknown or set(names) - set(units):
+            raise UsageError(
+                "the per-coder unit lists must name exactly the coders "
+                f"({', '.join(names)}); "
+                + (
+                    f"{unknown[0]!r} is not one of them"
+                    if unknown
+                    else f"{sorted(set(names) - set(units))[0]!r} has no list"
+                )
+            )
+        per_coder = {name: _checked_units(units[name]) for name in names}
+    else:
+        shared = _checked_units(units or ())
+        per_coder = dict.fromkeys(names, shared)
     folder = Path(out_dir)
     if folder.exists() and not folder.is_dir():
         raise UsageError(f"the output {folder.name!r} is a file, not a folder")
@@ -444,7 +469,7 @@ def write_templates(
     targets = [folder / f"{name}.xlsx" for name in names]
     protected = [*inputs, *([codebook.source] if codebook.source else [])]
     refuse_overwriting_inputs(targets, protected)
-    contents = [template_bytes(codebook, name, unit_list) for name in names]
+    contents = [template_bytes(codebook, name, per_coder[name]) for name in names]
     if not overwrite:
         for target, data in zip(targets, contents, strict=True):
             if target.exists() and target.read_bytes() != data:

@@ -109,6 +109,13 @@ def agree_command(
         Path | None,
         typer.Option("--out", "-o", help="Write the table (.csv, .xlsx or .parquet)."),
     ] = None,
+    units: Annotated[
+        Path | None,
+        typer.Option(
+            "--units",
+            help="Only these units: a unit list, e.g. reliability-units.txt of 'coderel assign'.",
+        ),
+    ] = None,
 ) -> ExitCode:
     """Every agreement coefficient per variable, with seeded bootstrap intervals."""
     from coderel.agree import agreement
@@ -122,6 +129,17 @@ def agree_command(
     # Cells with errors are left out and the numbers computed without them, but the run is not
     # clean: exit 1 (data problems), as validate does.
     status = ExitCode.DATA_PROBLEMS if codings.problems.errors else ExitCode.OK
+    if units is not None:
+        from coderel.template import read_unit_list
+
+        listed = read_unit_list(units)
+        found = set(codings.units)
+        codings = codings.restricted_to(listed)
+        absent = sum(1 for u in listed if u not in found)
+        say(
+            f"agreement on the {len(listed):,} unit(s) of {units.name}"
+            + (f"; {absent:,} of them are in no sheet" if absent else "")
+        )
     with delayed_progress("bootstrap") as progress:
         result = agreement(
             codings,
@@ -156,8 +174,14 @@ def agree_command(
             f"only {len(result.coders)} coder(s) ({', '.join(result.coders) or 'none'}): agreement "
             "needs at least two coders coding the same units, so every coefficient is undefined"
         )
+    single = codings.single_coded_units()
+    if single:
+        say(
+            f"{single:,} unit(s) coded by one coder only were left out: agreement needs two or "
+            "more coders per unit"
+        )
     if json_out:
-        payload = result.to_dict(pairs=pairs)
+        payload = {**result.to_dict(pairs=pairs), "single_coded_units": single}
         if diagnostics is not None:
             payload["coder_diagnostics"] = diagnostics.to_dict()
         emit_json(payload)

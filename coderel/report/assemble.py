@@ -385,6 +385,7 @@ def _summary(codings: Codings, result: Any, table: Sequence[VariableRow]) -> Sum
         cells_not_applicable=not_applicable,
         units_all_coders=all_coders,
         units_per_coder=tuple((c, int(per_coder.get(c, 0))) for c in coders),
+        units_one_coder=int((per_unit == 1).sum()),
     )
 
 

@@ -205,6 +205,8 @@ class Summary:
     units_all_coders: int
     #: (coder, units the coder coded), coders in the summary's order
     units_per_coder: tuple[tuple[str, int], ...] = ()
+    #: units coded by one coder only (left out of agreement)
+    units_one_coder: int = 0
 
     def units_text(self) -> str:
         """``80 (78 coded by every coder: ana 80, ben 79, cai 78)``: the one wording of the unit
@@ -212,6 +214,8 @@ class Summary:
         text = f"{self.units:,} ({self.units_all_coders:,} coded by every coder"
         if self.units_all_coders < self.units and self.units_per_coder:
             text += ": " + ", ".join(f"{c} {n:,}" for c, n in self.units_per_coder)
+        if self.units_one_coder:
+            text += f"; {self.units_one_coder:,} coded by one coder only, left out of agreement"
         return text + ")"
 
     @property
