@@ -12,38 +12,56 @@ export NO_COLOR=${NO_COLOR:-}
 
 step() { printf '\n==> %s\n' "$*" >&2; }
 
-step "1. Validate the three coders' sheets against the codebook"
+step "1. Plan the reliability sample from a pilot (40 reports coded by two coders)"
+"$CODEREL" plan --codebook "$CB" --pilot demo/pilot --replicates 1000 --out "$OUT/plan.xlsx" >&2
+
+step "2. Every category with a share of 10% or more must show up: the size for that (JSON for draw)"
+"$CODEREL" plan --codebook "$CB" --smallest-share 0.1 --json > "$OUT/plan.json"
+
+step "3. Draw the reliability sample from next season's 1,200 reports, stratified by district"
+"$CODEREL" draw demo/corpus.csv --codebook "$CB" --plan "$OUT/plan.json" --strata district \
+  --min-per-stratum 20 --seed 20261202 -o "$OUT/reliability.txt" >&2
+
+step "4. Assign: every coder codes the reliability sample (blended in), the rest once; one workbook each"
+"$CODEREL" assign demo/corpus.csv --codebook "$CB" --reliability "$OUT/reliability.txt" \
+  --coders ana,ben,cai --seed 20261202 --blend -o "$OUT/assignment" \
+  --templates "$OUT/assignment/workbooks" --overwrite >&2
+
+step "5. Validate the three coders' sheets of the last round against the codebook"
 "$CODEREL" validate --codebook "$CB" "$SHEETS"
 
-step "2. Validate a deliberately messy fourth sheet (problems expected; exit code 1)"
+step "6. Validate a deliberately messy fourth sheet (problems expected; exit code 1)"
 set +e
 "$CODEREL" validate --codebook "$CB" demo/messy --out "$OUT/messy-problems.csv"
 rc=$?
 set -e
 if [ "$rc" -ne 1 ]; then echo "expected exit code 1 for the messy sheet, got $rc" >&2; exit 1; fi
 
-step "3. Blank coding workbooks for a new round (dropdowns of code = label, number limits)"
+step "7. Blank coding workbooks for a new round (dropdowns of code = label, number limits)"
 "$CODEREL" template --codebook "$CB" --coders ana,ben,cai --units demo/units.txt -o "$OUT/templates" --overwrite
 
-step "4. Agreement per variable with 2,000-replicate bootstrap intervals"
+step "8. Agreement per variable with 2,000-replicate bootstrap intervals"
 "$CODEREL" agree --codebook "$CB" "$SHEETS" --out "$OUT/agreement.csv"
 
-step "5. The adjudication list: one row per cell where the coders disagree"
+step "9. The adjudication list: one row per cell where the coders disagree"
 "$CODEREL" adjudicate --codebook "$CB" "$SHEETS" -o "$OUT/adjudication.xlsx"
 
-step "6. The reconciled dataset, with the demo's decisions (sample_decisions/)"
+step "10. The reconciled dataset, with the demo's decisions (sample_decisions/)"
 "$CODEREL" merge --codebook "$CB" "$SHEETS" --decisions "$DECISIONS" --strict -o "$OUT/merged.xlsx"
 
-step "7. Stability: coder_ana recoded 40 reports two weeks later (test-retest)"
+step "11. Stability: coder_ana recoded 40 reports two weeks later (test-retest)"
 "$CODEREL" stability --codebook "$CB" "$SHEETS" --occasion coder_ana=demo/retest/coder_ana.csv --out "$OUT/stability.csv"
 
-step "8. The reliability report (with the Stability section)"
+step "12. The reliability report (with the Stability section)"
 # the report's paths go to stderr with the rest of the log: stdout ends with report.html, once
 "$CODEREL" report --codebook "$CB" "$SHEETS" --decisions "$DECISIONS" --occasion coder_ana=demo/retest/coder_ana.csv -o "$OUT/report.html" --format html,md,xlsx >&2
 
 cat >&2 <<MSG
 
 Demo finished. Outputs in $OUT/:
+  plan.xlsx, plan.json      reliability sample size per variable (pilot-based and for p_c = 0.1)
+  reliability.txt           the drawn reliability sample, with reliability.manifest.json
+  assignment/               one unit list per coder, the design's manifest, workbooks/ per coder
   messy-problems.csv        every problem of the messy sheet, with file, sheet and cell
   templates/                one blank coding workbook per coder
   agreement.csv             coefficients with intervals, one row per variable and coefficient

@@ -204,3 +204,26 @@ def test_cli_bad_input_is_located_message_and_usage_exit(args):
     result = runner.invoke(app, ["plan", "-c", CODEBOOK, *args])
     assert result.exit_code == 2, result.output
     assert "Traceback" not in result.output
+
+
+def test_no_precision_plan_from_perfect_agreement_or_tiny_pilot():
+    perfect = [
+        {"unit": f"U{u}", "coder": c, "variable": "animal", "value": 1 + u % 3}
+        for u in range(30)
+        for c in ("ana", "ben")
+    ]
+    plan = plan_sample(
+        ranger_codebook(),
+        pilot=pilot_from_codings(Codings.from_records(ranger_codebook(), perfect)),
+        replicates=200,
+    )
+    animal = next(v for v in plan.variables if v.variable == "animal")
+    assert animal.pilot_alpha == pytest.approx(1.0)
+    assert animal.n_precision is None
+    assert animal.curve == ()
+    assert any("agreed on every unit" in n for n in animal.notes)
+    tiny = pilot_from_codings(_pilot_codings(n_units=6))
+    plan = plan_sample(ranger_codebook(), pilot=tiny, replicates=200)
+    distance = next(v for v in plan.variables if v.variable == "distance_m")
+    assert distance.n_precision is None
+    assert any("fewer than 10 pilot units" in n for n in distance.notes)

@@ -98,6 +98,12 @@ def precision_plans(
     the target and the first at or below it.
     """
     plans = [_alpha_plan(pv) for pv in pilots]
+    points = [
+        plans[i].point(ALPHA) if pv.pairable_units >= 2 else float("nan")
+        for i, pv in enumerate(pilots)
+    ]
+    # Perfect agreement in the pilot: every resample agrees too, the width would read as zero.
+    perfect = [bool(np.isfinite(p) and p >= 1.0 - 1e-12) for p in points]
     cache: dict[tuple[int, int], np.ndarray] = {}
 
     def widths(indices: list[int], size: int) -> dict[int, float | None]:
@@ -115,7 +121,9 @@ def precision_plans(
         return out
 
     active = [
-        i for i, pv in enumerate(pilots) if pv.pairable_units >= MIN_PILOT_UNITS_FOR_PRECISION
+        i
+        for i, pv in enumerate(pilots)
+        if pv.pairable_units >= MIN_PILOT_UNITS_FOR_PRECISION and not perfect[i]
     ]
     curves: dict[int, list[tuple[int, float | None]]] = {i: [] for i in range(len(pilots))}
     for step, size in enumerate(sizes, start=1):
@@ -124,12 +132,11 @@ def precision_plans(
         if progress is not None:
             progress(step, len(sizes))
     out: list[PrecisionPlan] = []
-    for i, pv in enumerate(pilots):
-        point = plans[i].point(ALPHA) if pv.pairable_units >= 2 else float("nan")
+    for i in range(len(pilots)):
+        point = points[i]
         curve = curves[i]
-        perfect = bool(np.isfinite(point) and point >= 1.0 - 1e-12)
         n = None
-        if i in active and not perfect:
+        if i in active:
             n = _smallest(curve, target, lambda s, i=i: widths([i], s)[i])
         out.append(
             PrecisionPlan(

@@ -404,7 +404,17 @@ def _variable_plan(
                 "the pilot's coders agreed on every unit: every resample agrees too, so the "
                 "bootstrap cannot show how wide the interval will be; no precision plan"
             )
-        elif n_prec is None:
+        elif pilot_alpha is not None and pilot_alpha < codebook.thresholds_for(var.name).tentative:
+            notes.append(
+                f"alpha in the pilot is {pilot_alpha:.3f}, below the tentative threshold "
+                f"{codebook.thresholds_for(var.name).tentative:.3f}: more units only narrow the "
+                "interval around a low value - revise the codebook or train the coders first"
+            )
+        if (
+            n_prec is None
+            and pv.pairable_units >= MIN_PILOT_UNITS_FOR_PRECISION
+            and not (pilot_alpha is not None and pilot_alpha >= 1.0 - 1e-12)
+        ):
             notes.append(
                 f"even {CANDIDATE_SIZES[-1]:,} units do not bring the expected half-width to "
                 f"{precision.target:g} (or alpha is mostly undefined in resamples of the pilot)"
