@@ -180,12 +180,7 @@ def assign_units(
         counts[g] += 1
         for c in g:
             own[c].append(unit)
-    used: set[tuple[str, ...]] = set()
-    for unit in order[full:]:
-        # Last, incomplete round: the unused group whose coders have the fewest units so far.
-        free = [g for g in groups if g not in used]
-        g = min(free, key=lambda g: (sum(len(own[c]) for c in g), max(len(own[c]) for c in g)))
-        used.add(g)
+    for unit, g in _last_round(order[full:], groups, names).items():
         counts[g] += 1
         for c in g:
             own[c].append(unit)
@@ -211,6 +206,46 @@ def assign_units(
         len(remaining),
         {g: counts[g] for g in sorted(counts)} if per_unit > 1 else {},
     )
+
+
+def _last_round(
+    units: list[str], groups: list[tuple[str, ...]], names: list[str]
+) -> dict[str, tuple[str, ...]]:
+    """Groups for the units of the last, incomplete round: each group at most once, and coders'
+    counts within one of each other.
+
+    Greedy first (the unused group whose coders have the fewest units), then exchanges: while
+    one coder has two more units than another, a chosen group holding the first and not the
+    second is replaced by the same group with the second in the first's place, when that group
+    is not chosen yet. Such a group always exists (the first coder is in more chosen groups than
+    the second), and each exchange lowers the sum of squared counts, so the loop ends.
+    """
+    load = dict.fromkeys(names, 0)
+    chosen: dict[str, tuple[str, ...]] = {}
+    used: set[tuple[str, ...]] = set()
+    for unit in units:
+        free = [g for g in groups if g not in used]
+        g = min(free, key=lambda g: (sum(load[c] for c in g), max(load[c] for c in g)))
+        used.add(g)
+        chosen[unit] = g
+        for c in g:
+            load[c] += 1
+    while units and max(load.values()) - min(load.values()) > 1:
+        hi = max(names, key=lambda c: (load[c], c))
+        lo = min(names, key=lambda c: (load[c], c))
+        for unit, g in chosen.items():
+            if hi in g and lo not in g:
+                swapped = tuple(sorted(lo if c == hi else c for c in g))
+                if swapped not in used:
+                    used.discard(g)
+                    used.add(swapped)
+                    chosen[unit] = swapped
+                    load[hi] -= 1
+                    load[lo] += 1
+                    break
+        else:  # pragma: no cover - impossible by the argument above
+            break
+    return chosen
 
 
 @dataclass(frozen=True)
