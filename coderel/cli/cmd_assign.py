@@ -6,14 +6,12 @@ from pathlib import Path
 from typing import Annotated
 
 import typer
-from rich.markup import escape
 from rich.table import Table
 
 from coderel.cli.app import app
 from coderel.cli.common import JsonOption, emit_json, handle_errors, out_console, say
 from coderel.codebook.load import load_codebook
 from coderel.errors import ExitCode, UsageError
-from coderel.protocol.assign import assign_to_files
 
 
 @app.command("assign")
@@ -125,3 +123,15 @@ def assign_command(
             "each coder their own file and do not rename it (the file name is the coder)"
         )
     return ExitCode.OK
+
+
+def escape(text: object) -> str:
+    """Consoles print text as it is (no markup), so nothing needs escaping."""
+    return str(text)
+
+
+def assign_to_files(*args, **kwargs):
+    """Imported on use, so that coderel --help stays light."""
+    from coderel.protocol.assign import assign_to_files as run
+
+    return run(*args, **kwargs)

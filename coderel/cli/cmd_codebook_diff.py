@@ -6,7 +6,6 @@ from pathlib import Path
 from typing import Annotated
 
 import typer
-from rich.markup import escape
 
 from coderel.cli.cmd_codebook import codebook_app
 from coderel.cli.common import JsonOption, emit_json, handle_errors, out_console
@@ -60,3 +59,8 @@ def diff_command(
     for note in result.notes:
         console.print(f"note: {escape(note)}")
     return ExitCode.OK
+
+
+def escape(text: object) -> str:
+    """Consoles print text as it is (no markup), so nothing needs escaping."""
+    return str(text)
