@@ -103,7 +103,7 @@ def collect_files(paths: Sequence[str | Path] | str | Path) -> list[Path]:
             if not found:
                 raise UsageError(f"the folder {path.name!r} holds no .xlsx, .csv or .parquet file")
             files.extend(found)
-        elif path.is_file():
+        elif path.is_file() or (path.is_symlink() and not path.exists()):  # refused when read
             files.append(path)
         else:
             raise UsageError(f"no such file or folder: {path.name!r}")
