@@ -38,7 +38,8 @@ def pair_agreements(t: Target) -> tuple[tuple[PairAgreement, ...], dict]:
             table = confusion_table(x[:, i], x[:, j], k)
             confusion[(coders[i], coders[j])] = table
             kappa = finite(cohen_kappa_table(table)[0])
-        alpha = finite(alpha_point(x[:, [i, j]], t.scale))
+        # only units both coded are pairable: the others add nothing to alpha's sums
+        alpha = finite(alpha_point(x[np.ix_(both, [i, j])], t.scale))
         pairs.append(
             PairAgreement(
                 coders[i],

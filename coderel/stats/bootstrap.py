@@ -280,8 +280,16 @@ def evaluate_plans(
         for done, start in enumerate(starts, 1):
             stop = min(start + block, n_units)
             w = weights.block(start, stop)  # type: ignore[union-attr]
+            wt = None
             for i, plan in enumerate(plans):
-                sums[i] += w @ plan.contributions[start:stop]  # type: ignore[operator]
+                c = plan.contributions[start:stop]
+                if sparse.issparse(c):
+                    # (C^T W^T)^T: scipy's fastest product, sparse rows times a C-ordered block
+                    if wt is None:
+                        wt = np.ascontiguousarray(w.T)
+                    sums[i] += (c.T.tocsr() @ wt).T
+                else:
+                    sums[i] += w @ c  # type: ignore[operator]
             if progress is not None:
                 progress(done, steps)
     results: list[dict[str, Evaluated]] = []
