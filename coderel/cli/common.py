@@ -282,7 +282,9 @@ def problems_table(
                 f"{places:,} places" if places > 1 else p.where(),
                 f"{units:,} units" if units > 1 else (p.unit or ""),
                 p.coder or "",
-                variables[0] if len(variables) == 1 else f"{len(variables)} variables",
+                variables[0]
+                if len(variables) == 1
+                else (f"{len(variables)} variables" if variables else ""),
                 f"{len(row):,} times, first: {p.message}",
                 p.hint or "",
             )
