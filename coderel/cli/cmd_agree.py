@@ -19,6 +19,7 @@ from coderel.cli.common import (
     MemoryOption,
     ReplicatesOption,
     SeedOption,
+    TableOutOption,
     check_table_output,
     delayed_progress,
     emit_json,
@@ -105,10 +106,7 @@ def agree_command(
     ] = False,
     icc_ordinal: IccOrdinalOption = False,
     json_out: JsonOption = False,
-    out: Annotated[
-        Path | None,
-        typer.Option("--out", "-o", help="Write the table (.csv, .xlsx or .parquet)."),
-    ] = None,
+    out: TableOutOption = None,
     units: Annotated[
         Path | None,
         typer.Option(

@@ -14,6 +14,7 @@ from coderel.cli.common import (
     CodebookOption,
     JsonOption,
     SeedOption,
+    TableOutOption,
     check_table_output,
     delayed_progress,
     emit_json,
@@ -120,9 +121,7 @@ def plan_command(
     ] = 1000,
     seed: SeedOption = DEFAULT_SEED,
     json_out: JsonOption = False,
-    out: Annotated[
-        Path | None, typer.Option("--out", "-o", help="Write the plan as a table (.csv/.xlsx).")
-    ] = None,
+    out: TableOutOption = None,
 ) -> ExitCode:
     """How many units to code by two coders: Bloch & Kraemer's minimum per categorical variable
     (as in Krippendorff 2004, ch. 11) and, with a pilot, the size for a wanted interval width."""

@@ -2,10 +2,8 @@
 
 from __future__ import annotations
 
-from pathlib import Path
-from typing import TYPE_CHECKING, Annotated
+from typing import TYPE_CHECKING
 
-import typer
 from rich.table import Table
 
 from coderel.cli.app import app
@@ -19,6 +17,7 @@ from coderel.cli.common import (
     JsonOption,
     ReplicatesOption,
     SeedOption,
+    TableOutOption,
     check_table_output,
     delayed_progress,
     emit_json,
@@ -61,9 +60,7 @@ def stability_command(
     interval_method: IntervalOption = "bca",
     icc_ordinal: IccOrdinalOption = False,
     json_out: JsonOption = False,
-    out: Annotated[
-        Path | None, typer.Option("--out", "-o", help="Write the table (.csv/.xlsx).")
-    ] = None,
+    out: TableOutOption = None,
 ) -> ExitCode:
     """Each coder against their own second coding (test-retest, Krippendorff's stability)."""
     from coderel.io.tables import write_table

@@ -60,6 +60,10 @@ SeedOption = Annotated[
 ReplicatesOption = Annotated[
     int, typer.Option("--replicates", min=0, help="Bootstrap replicates (0: no intervals).")
 ]
+TableOutOption = Annotated[
+    Path | None,
+    typer.Option("--out", "-o", help="Write the table (.csv, .xlsx or .parquet)."),
+]
 IntervalOption = Annotated[
     Literal["bca", "percentile"],
     typer.Option("--interval", help="bca (bias-corrected and accelerated) or percentile."),

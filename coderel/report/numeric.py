@@ -442,6 +442,12 @@ def methods_sentences(
 
 
 # ---- xlsx frames ---------------------------------------------------------------------------
+def _bounds(name: str, ci: tuple[float, float] | None) -> dict[str, float | None]:
+    """An interval as two columns, ``<name>_low`` and ``<name>_high`` (empty without one)."""
+    low, high = ci if ci else (None, None)
+    return {f"{name}_low": low, f"{name}_high": high}
+
+
 def icc_frame(panels: Sequence[NumericPanel]) -> pd.DataFrame:
     rows = []
     for panel in panels:
@@ -455,10 +461,8 @@ def icc_frame(panels: Sequence[NumericPanel]) -> pd.DataFrame:
                     "mcgraw_wong": r.mcgraw_wong,
                     "model": r.model,
                     "icc": r.estimate,
-                    "ci_f_low": r.ci_f[0] if r.ci_f else None,
-                    "ci_f_high": r.ci_f[1] if r.ci_f else None,
-                    "ci_boot_low": r.ci_boot[0] if r.ci_boot else None,
-                    "ci_boot_high": r.ci_boot[1] if r.ci_boot else None,
+                    **_bounds("ci_f", r.ci_f),
+                    **_bounds("ci_boot", r.ci_boot),
                     "f": r.f,
                     "p_value": r.p_value,
                 }
@@ -477,16 +481,13 @@ def limits_frame(panels: Sequence[NumericPanel]) -> pd.DataFrame:
                     "coder_b": p.coder_b,
                     "units": p.units,
                     "ccc": p.ccc,
-                    "ccc_ci_low": p.ccc_ci[0] if p.ccc_ci else None,
-                    "ccc_ci_high": p.ccc_ci[1] if p.ccc_ci else None,
+                    **_bounds("ccc_ci", p.ccc_ci),
                     "mean_difference": p.bias,
                     "sd_difference": p.sd,
                     "lower_limit": p.lower,
-                    "lower_limit_ci_low": p.lower_ci[0] if p.lower_ci else None,
-                    "lower_limit_ci_high": p.lower_ci[1] if p.lower_ci else None,
+                    **_bounds("lower_limit_ci", p.lower_ci),
                     "upper_limit": p.upper,
-                    "upper_limit_ci_low": p.upper_ci[0] if p.upper_ci else None,
-                    "upper_limit_ci_high": p.upper_ci[1] if p.upper_ci else None,
+                    **_bounds("upper_limit_ci", p.upper_ci),
                     "proportional_bias_slope": p.slope,
                     "proportional_bias_p": p.slope_p,
                 }
@@ -507,8 +508,7 @@ def stability_frame(panel: StabilityPanel | None) -> pd.DataFrame:
                 "level": r.level,
                 "units": r.units,
                 "krippendorff_alpha": r.alpha,
-                "alpha_ci_low": r.alpha_ci[0] if r.alpha_ci else None,
-                "alpha_ci_high": r.alpha_ci[1] if r.alpha_ci else None,
+                **_bounds("alpha_ci", r.alpha_ci),
                 "cohen_kappa": r.kappa,
                 "icc_2_1": r.icc,
                 "verdict": r.verdict,
