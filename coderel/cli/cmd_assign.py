@@ -10,7 +10,6 @@ from rich.table import Table
 
 from coderel.cli.app import app
 from coderel.cli.common import JsonOption, emit_json, handle_errors, out_console, say
-from coderel.codebook.load import load_codebook
 from coderel.errors import ExitCode, UsageError
 
 
@@ -57,6 +56,8 @@ def assign_command(
 ) -> ExitCode:
     """Give every coder the reliability units and share the other units out, balanced and
     seeded; write one unit list per coder (and, with --templates, one workbook per coder)."""
+    from coderel.codebook.load import load_codebook
+
     cb = load_codebook(codebook) if codebook is not None else None
     if id_column is None and cb is not None:
         id_column = cb.unit
