@@ -1,6 +1,6 @@
 """Start-up: ``coderel --help`` and ``import coderel.cli`` do not load the heavy libraries.
 
-pandas, pyarrow, openpyxl, matplotlib, scipy and dask load only when a command needs them, so the
+pandas, pyarrow, openpyxl, matplotlib, scipy, dask and the YAML and JSON Schema libraries load only when a command needs them, so the
 CLI answers ``--help`` at once. Checked in a fresh interpreter (a subprocess), since this test
 process has long imported them. A new command module must import its working modules inside the
 command function (see coderel/cli/cmd_agree.py).
@@ -12,7 +12,17 @@ import json
 import subprocess
 import sys
 
-HEAVY = ("pandas", "pyarrow", "openpyxl", "matplotlib", "scipy", "dask", "numpy")
+HEAVY = (
+    "pandas",
+    "pyarrow",
+    "openpyxl",
+    "matplotlib",
+    "scipy",
+    "dask",
+    "numpy",
+    "yaml",
+    "jsonschema",
+)
 
 
 def _loaded(code: str) -> list[str]:
