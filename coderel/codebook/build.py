@@ -19,6 +19,7 @@ from coderel.codebook.checks import (
     kind,
     suggest,
 )
+from coderel.codebook.loops import loops
 from coderel.codebook.model import (
     CATEGORICAL_LEVELS,
     LEVELS,
@@ -398,23 +399,15 @@ class CodebookBuilder(FieldChecker):
 
     def check_cycles(self, variables: list[Variable], nodes: dict[str, Node | None]) -> None:
         parent = {v.name: v.applies_when.variable for v in variables if v.applies_when}
-        reported: set[str] = set()
-        for start in parent:
-            path: list[str] = []
-            current: str | None = start
-            while current is not None and current not in path:
-                path.append(current)
-                current = parent.get(current)
-            if current is not None and current == start and start not in reported:
-                cycle = path
-                reported.update(cycle)
-                self.add(
-                    "condition-cycle",
-                    "applies_when conditions form a loop: " + " -> ".join([*cycle, start]),
-                    nodes.get(start),
-                    variable=start,
-                    hint="a variable cannot depend, directly or not, on itself",
-                )
+        for cycle in loops(parent):
+            start = cycle[0]
+            self.add(
+                "condition-cycle",
+                "applies_when conditions form a loop: " + " -> ".join([*cycle, start]),
+                nodes.get(start),
+                variable=start,
+                hint="a variable cannot depend, directly or not, on itself",
+            )
 
 
 def _fields(var: Variable) -> dict[str, Any]:

@@ -19,6 +19,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any
 
+from coderel.codebook.loops import loops
 from coderel.codebook.model import Code, Codebook, Recode, Variable
 
 if TYPE_CHECKING:
@@ -139,23 +140,16 @@ def check_renames(
                 hint="one earlier variable can become one variable of this version",
             )
         claimed.setdefault(old, name)
-    reported: set[str] = set()
-    for start in parent:
-        path: list[str] = []
-        current: str | None = start
-        while current is not None and current not in path:
-            path.append(current)
-            current = parent.get(current)
-        if current == start and start not in reported:
-            reported.update(path)
-            checker.add(
-                "rename-cycle",
-                "renamed_from entries form a loop: " + " <- ".join([*path, start]),
-                nodes.get(start),
-                variable=start,
-                hint="renamed_from names the variable's name in the earlier version; a swap of "
-                "two names needs a third, temporary name in between versions",
-            )
+    for path in loops(parent):
+        start = path[0]
+        checker.add(
+            "rename-cycle",
+            "renamed_from entries form a loop: " + " <- ".join([*path, start]),
+            nodes.get(start),
+            variable=start,
+            hint="renamed_from names the variable's name in the earlier version; a swap of "
+            "two names needs a third, temporary name in between versions",
+        )
 
 
 # ---- codebook diff -----------------------------------------------------------------------------
