@@ -398,9 +398,29 @@ def _too_long_number(raw: Any) -> Normalised | None:
     )
 
 
+def is_none_code(variable: Variable, raw: Any) -> bool:
+    """Does ``raw`` give a multi-select variable's explicit empty set (its ``none`` code, the
+    code's label, or ``code = label``)?"""
+    none = variable.none
+    if none is None or raw is None or isinstance(raw, bool):
+        return False
+    if isinstance(raw, int | float) and isinstance(none.code, int):
+        return raw == none.code  # exact, no float conversion (a very long integer stays exact)
+    text = str(raw).strip()
+    if text.startswith("'"):
+        text = text[1:].strip()
+    label = none.label.strip().casefold()
+    left, sep, right = text.partition("=")
+    if sep:
+        return left.strip() == str(none.code) and right.strip().casefold() == label
+    return text == str(none.code) or text.casefold() == label
+
+
 def _categorical(
     variable: Variable, raw: Any, *, typed: bool, findings: list[Finding]
 ) -> Normalised:
+    if is_none_code(variable, raw):
+        return Normalised((), None, False, tuple(findings))  # the coded empty set
     matcher = _Matcher(variable)
     code, found = matcher.match(raw, typed=typed)
     if code is not None:
@@ -425,6 +445,13 @@ def _categorical(
             return Normalised(None, None, True, tuple(findings))
         codes: list[Code] = []
         for token in tokens:
+            if is_none_code(variable, token):
+                return _invalid(
+                    "not-in-codebook",
+                    f"{variable.display(variable.none_code)} is combined with other codes",
+                    f"give either codes or {variable.display(variable.none_code)}, not both",
+                    before=findings,
+                )
             token_code, token_found = matcher.match(token, typed=typed)
             if token_code is None:
                 return _invalid(

@@ -175,7 +175,12 @@ def _how(variable: Variable) -> str:
         return f"Type {kind}."
     if variable.multiple:
         codes = ", ".join(variable.display(c) for c in variable.codes)
-        return f"Type every code that applies, separated by ';' (e.g. 1;3). Codes: {codes}."
+        none = (
+            f" If none applies, type {variable.display(variable.none_code)}."
+            if variable.none is not None
+            else ""
+        )
+        return f"Type every code that applies, separated by ';' (e.g. 1;3). Codes: {codes}.{none}"
     return "Choose from the list, or type the code."
 
 
@@ -342,6 +347,8 @@ def _codebook_rows(codebook: Codebook) -> list[list[Any]]:
                 examples = "; ".join(f'"{e}"' for e in c.examples)
                 detail = f"{detail} Examples: {examples}".strip()
             rows.append(["", "", "", c.code, c.label, detail, ""])
+        if v.none is not None:
+            rows.append(["", "", "", v.none.code, v.none.label, "none of the categories", ""])
         for m in v.missing:
             rows.append(["", "", "", m.code, f"missing: {m.label}", "", ""])
     return rows

@@ -12,7 +12,7 @@ import pandas as pd
 from coderel.adjudicate.tokens import NA_TOKEN, NOT_APPLICABLE, Token
 from coderel.codebook import MULTI_SEPARATOR, Variable
 from coderel.codings import SourceFile
-from coderel.normalise import separator_hint
+from coderel.normalise import is_none_code, separator_hint
 from coderel.problems import Problems
 
 
@@ -129,6 +129,11 @@ def parse_decision(var: Variable, raw: Any) -> tuple[Token | None, str | None]:
     parts = [p for p in (s.strip() for s in text.split(MULTI_SEPARATOR)) if p]
     if not parts:
         return None, "empty"
+    if var.multiple and var.none is not None:
+        if len(parts) == 1 and is_none_code(var, parts[0]):
+            return ("value", ()), None  # the coded empty set
+        if any(is_none_code(var, p) for p in parts):
+            return None, f"{var.display(var.none_code)} cannot be combined with other codes"
     codes = []
     for part in parts:
         code = _match_code(var, part)

@@ -102,6 +102,8 @@ def display_token(var: Variable, token: Token) -> str:
     if kind == "missing":
         return var.display(value)
     if var.multiple:
+        if not value:  # the coded empty set ("none of these")
+            return var.display(var.none_code) if var.none is not None else "(none)"
         return "; ".join(var.display(c) for c in value)
     if var.is_numeric:
         return format_number(var, value)

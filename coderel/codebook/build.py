@@ -23,6 +23,7 @@ from coderel.codebook.loops import loops
 from coderel.codebook.model import (
     CATEGORICAL_LEVELS,
     LEVELS,
+    Category,
     Code,
     Codebook,
     Condition,
@@ -118,12 +119,13 @@ class CodebookBuilder(FieldChecker):
         if renamed_from is not None and name is not None:
             self.rename_nodes[name] = keys.get("renamed_from")
         condition_node = keys.get("applies_when")
+        none, none_node = self.none_category(keys.get("none"), name or "?", multiple)
 
         # codes must be unique within the variable, missing codes included
         seen_codes: dict[str, Node] = {}
         for code, code_node in zip(
-            [c.code for c in cats] + [m.code for m in missing],
-            code_nodes + missing_nodes,
+            [c.code for c in cats] + [m.code for m in missing] + ([none.code] if none else []),
+            code_nodes + missing_nodes + ([none_node] if none_node is not None else []),
             strict=True,
         ):
             key = str(code)
@@ -212,8 +214,46 @@ class CodebookBuilder(FieldChecker):
             instructions=instructions,
             thresholds=thresholds,
             renamed_from=renamed_from,
+            none=none,
         )
         return variable, condition_node  # type: ignore[return-value]
+
+    def none_category(
+        self, node: Node | None, name: str, multiple: bool
+    ) -> tuple[Category | None, Node | None]:
+        """``none: {code: 0, label: None of these}``: the coded empty set of a multi-select."""
+        if node is None or node.value is None:
+            return None, None
+        if not multiple:
+            self.add(
+                "codebook-field",
+                "none (the code for 'none of these') is only for multi-select variables",
+                node,
+                variable=name,
+                hint="remove none, or add multiple: true",
+            )
+            return None, None
+        if not node.is_map:
+            self.add(
+                "codebook-field",
+                f"none must be a block with code and label, not {kind(node.value)}",
+                node,
+                variable=name,
+                hint="write it as {code: 0, label: None of these}",
+            )
+            return None, None
+        self.check_keys(node, ("code", "label"), "none", name)
+        code_node = node.value.get("code")
+        if code_node is None:
+            self.add("codebook-field", "none has no code", node, variable=name, hint="add code")
+            return None, None
+        code = self.code(code_node, "the code of none", name)
+        label = self.text(
+            node.value.get("label"), "the label of none", required=True, parent=node, variable=name
+        )
+        if code is None or label is None:
+            return None, None
+        return Category(code, label), code_node
 
     def condition(
         self, node: Node, owner: Variable, by_name: dict[str, Variable]

@@ -58,6 +58,7 @@ VARIABLE_KEYS = (
     "applies_when",
     "thresholds",
     "renamed_from",
+    "none",
 )
 CATEGORY_KEYS = ("code", "label", "description", "examples")
 MISSING_KEYS = ("code", "label")

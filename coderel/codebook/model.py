@@ -84,6 +84,14 @@ class Variable:
     thresholds: Thresholds | None = None
     #: The variable's name in the codebook's earlier version (for ``codebook diff``).
     renamed_from: str | None = None
+    #: multi-select only: the code a coder gives for "none of these categories" - an explicit,
+    #: coded empty set (it counts as the empty set in the Jaccard distance), not a missing code
+    none: Category | None = None
+
+    @property
+    def none_code(self) -> Code | None:
+        """The code of the explicit empty set, ``None`` when the codebook gives none."""
+        return self.none.code if self.none is not None else None
 
     @property
     def is_categorical(self) -> bool:
@@ -116,6 +124,8 @@ class Variable:
         for m in self.missing:
             if m.code == code:
                 return m.label
+        if self.none is not None and self.none.code == code:
+            return self.none.label
         return None
 
     def display(self, code: Code) -> str:

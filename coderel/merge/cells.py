@@ -17,6 +17,8 @@ def final_value(var: Variable, token: Token) -> Any:
     if kind in ("na", "blank", "missing"):
         return None
     if var.multiple:
+        if not value:  # the coded empty set: its code, as the codebook gives it
+            return str(var.none_code) if var.none is not None else ""
         return MULTI_SEPARATOR.join(str(c) for c in value)
     return value
 

@@ -56,7 +56,8 @@ def _label(var: Variable, value: Any) -> Any:
     if var.multiple:
         labels = []
         for part in str(value).split(MULTI_SEPARATOR):
-            code = next((c for c in (*var.codes, *var.missing_codes) if str(c) == part), part)
+            known = (*var.codes, *var.missing_codes, *([var.none_code] if var.none else []))
+            code = next((c for c in known if str(c) == part), part)
             labels.append(var.label_of(code) or part)
         return "; ".join(labels)
     if var.is_numeric:
