@@ -22,6 +22,7 @@ from coderel.agree import agreement
 from coderel.codebook import Category, Codebook, MissingCode, Variable
 from coderel.codebook.load import codebook_problems, load_codebook
 from coderel.codings import Codings
+from coderel.errors import CodebookError
 from coderel.merge import merge, spread_multiselect
 from coderel.normalise import normalise_cell
 from coderel.template import _how
@@ -131,3 +132,30 @@ def test_merge_adjudication_and_template_show_it():
     assert parse_decision(ACTIONS, "0") == (("value", ()), None)
     assert parse_decision(ACTIONS, "0;1")[0] is None
     assert "If none applies, type 0 = None of these." in _how(ACTIONS)
+
+
+def test_table_schema_and_yaml_carry_the_none_code(tmp_path: Path):
+    """The Frictionless Table Schema (v2.0, 2024) has no notion of a coded empty set, so the
+    ``none`` code travels as the extension ``coderel:none``; codebook -> schema -> codebook and
+    codebook -> YAML -> codebook give back the same variable."""
+    from coderel.codebook.frictionless import dump_codebook, from_table_schema, to_table_schema
+
+    path = tmp_path / "cb.yaml"
+    path.write_text(YAML, encoding="utf-8")
+    cb = load_codebook(path)
+    schema = to_table_schema(cb)
+    field = next(f for f in schema["fields"] if f["name"] == "actions")
+    assert field["coderel:none"] == {"value": 0, "label": "None of these"}
+    # neither a category nor a missing value of the standard's own keys
+    assert 0 not in [c["value"] for c in field["categories"]]
+    assert "0" not in [m["value"] for m in field["missingValues"]]
+    back = from_table_schema(schema).variable("actions")
+    assert back.none == Category(0, "None of these")
+    assert back == cb.variable("actions")
+    again = tmp_path / "again.yaml"
+    again.write_text(dump_codebook(cb), encoding="utf-8")
+    assert load_codebook(again).variable("actions") == cb.variable("actions")
+    # a broken extension is a codebook problem, not a traceback
+    field["coderel:none"] = "zero"
+    with pytest.raises(CodebookError):
+        from_table_schema(schema)

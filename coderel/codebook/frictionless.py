@@ -5,7 +5,7 @@ A coding sheet is a table, so its codebook maps onto the open Table Schema stand
 one field per column, ``categories`` with ``value`` and ``label``, ``categoriesOrdered`` for
 ordinal scales, labelled ``missingValues``, ``constraints`` and the ``primaryKey``. What the
 standard does not cover is kept under properties prefixed ``coderel:`` (level of measurement,
-``applies_when``, instructions, examples, thresholds), so that the round trip
+``applies_when``, instructions, examples, thresholds, the ``none`` code of a multi-select), so that the round trip
 YAML -> Table Schema -> codebook gives back the same :class:`~coderel.codebook.model.Codebook`.
 ``docs/codebook.md`` has the full mapping table.
 """
@@ -93,6 +93,10 @@ def _variable_field(var: Variable) -> dict[str, Any]:
         field["categories"] = cats
         if var.level == "ordinal":
             field["categoriesOrdered"] = True
+    if var.none is not None:
+        # the coded empty set of a multi-select: not a category (a list never holds it with
+        # others) and not a missing value (it is a coded answer), so an extension of our own
+        field[EXT + "none"] = {"value": var.none.code, "label": var.none.label}
     if var.missing:
         field["missingValues"] = [dict(_BLANK)] + [
             {"value": str(m.code), "label": m.label} for m in var.missing
@@ -209,6 +213,11 @@ def _variable_from(field: dict[str, Any]) -> dict[str, Any]:
     missing = _missing_from(field, numeric_codes)
     if missing:
         var["missing"] = missing
+    none = field.get(EXT + "none")
+    if isinstance(none, dict):
+        var["none"] = {"code": none.get("value"), "label": none.get("label")}
+    elif none is not None:
+        var["none"] = none  # not a block: the codebook checks say what is wrong with it
     constraints = field.get("constraints") or {}
     if "minimum" in constraints and "maximum" in constraints:
         var["range"] = [constraints["minimum"], constraints["maximum"]]
@@ -330,6 +339,8 @@ def _variable_yaml(var: Variable) -> dict[str, Any]:
                 item["examples"] = list(c.examples)
             cats.append(item)
         out["categories"] = cats
+    if var.none is not None:
+        out["none"] = {"code": var.none.code, "label": var.none.label}
     if var.missing:
         default_label = "cannot be coded"
         out["missing"] = [
