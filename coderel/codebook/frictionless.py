@@ -5,8 +5,9 @@ A coding sheet is a table, so its codebook maps onto the open Table Schema stand
 one field per column, ``categories`` with ``value`` and ``label``, ``categoriesOrdered`` for
 ordinal scales, labelled ``missingValues``, ``constraints`` and the ``primaryKey``. What the
 standard does not cover is kept under properties prefixed ``coderel:`` (level of measurement,
-``applies_when``, instructions, examples, thresholds, the ``none`` code of a multi-select), so that the round trip
-YAML -> Table Schema -> codebook gives back the same :class:`~coderel.codebook.model.Codebook`.
+``applies_when``, instructions, examples, thresholds, the ``none`` code of a multi-select), so
+that the round trip YAML -> Table Schema -> codebook gives back the same
+:class:`~coderel.codebook.model.Codebook`.
 ``docs/codebook.md`` has the full mapping table.
 """
 
