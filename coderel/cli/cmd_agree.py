@@ -34,6 +34,7 @@ from coderel.memory import parse_memory
 
 if TYPE_CHECKING:
     from coderel.agree import AgreementResult, Estimate
+    from coderel.agree.collapse import WhatIf
 
 
 SHOWN = ("krippendorff_alpha", "percent_agreement", "fleiss_kappa", "cohen_kappa", "gwet_ac1")
@@ -84,6 +85,23 @@ def _pairs_tables(result: AgreementResult) -> list[Table]:
     return tables
 
 
+def _what_if_table(what_if: WhatIf) -> Table:
+    table = Table(title="What-if: alpha with categories merged (not a result to report)")
+    for col in ("variable", "merged", "alpha as coded", "alpha merged", "change", "verdict"):
+        table.add_column(col)
+    for r in what_if.rows:
+        change = "-" if r.change is None else f"{r.change:+.3f}"
+        table.add_row(
+            r.variable,
+            r.spec,
+            _fmt(r.original),
+            _fmt(r.collapsed),
+            change,
+            f"{r.original_verdict} -> {r.collapsed_verdict}",
+        )
+    return table
+
+
 @app.command("agree")
 @handle_errors
 def agree_command(
@@ -114,6 +132,14 @@ def agree_command(
             help="Only these units: a unit list, e.g. reliability-units.txt of 'coderel assign'.",
         ),
     ] = None,
+    collapse: Annotated[
+        list[str] | None,
+        typer.Option(
+            "--collapse",
+            help="What-if: alpha with categories merged, beside the original, e.g. "
+            "behaviour=4+5 (the first code is kept; repeatable).",
+        ),
+    ] = None,
 ) -> ExitCode:
     """Every agreement coefficient per variable, with seeded bootstrap intervals."""
     from coderel.agree import agreement
@@ -138,16 +164,25 @@ def agree_command(
             f"agreement on the {len(listed):,} unit(s) of {units.name}"
             + (f"; {absent:,} of them are in no sheet" if absent else "")
         )
+    collapses = ()
+    if collapse:
+        from coderel.agree.collapse import parse_collapses
+
+        collapses = parse_collapses(collapse, codings.codebook)
+    settings = {
+        "replicates": replicates,
+        "seed": seed,
+        "interval_method": interval_method,
+        "memory": parse_memory(memory),
+    }
     with delayed_progress("bootstrap") as progress:
-        result = agreement(
-            codings,
-            replicates=replicates,
-            seed=seed,
-            interval_method=interval_method,
-            icc_ordinal=icc_ordinal,
-            memory=parse_memory(memory),
-            progress=progress,
-        )
+        result = agreement(codings, icc_ordinal=icc_ordinal, progress=progress, **settings)
+    what_if = None
+    if collapses:
+        from coderel.agree.collapse import what_if as collapsed_alpha
+
+        with delayed_progress("bootstrap of the what-if (categories merged)"):
+            what_if = collapsed_alpha(codings, collapses, result, **settings)
     diagnostics = None
     if coders:
         from coderel.agree.coders import coder_diagnostics
@@ -161,6 +196,8 @@ def agree_command(
                 homogeneity=diagnostics.homogeneity_frame(),
                 shares=diagnostics.shares_frame(),
             )
+        if what_if is not None:
+            extra["collapse"] = what_if.to_frame()
         write_table(result.to_frame(), out, sheet="agreement", extra_sheets=extra)
         if pairs and table_format(out) != "xlsx":
             pairs_path = out.with_name(f"{out.stem}-pairs{out.suffix}")
@@ -182,6 +219,8 @@ def agree_command(
         payload = {**result.to_dict(pairs=pairs), "single_coded_units": single}
         if diagnostics is not None:
             payload["coder_diagnostics"] = diagnostics.to_dict()
+        if what_if is not None:
+            payload["collapse"] = what_if.to_dict()
         emit_json(payload)
         return status
     # Two coders: Cohen's kappa; more: Light's mean pairwise kappa (Cohen's is then undefined).
@@ -216,6 +255,9 @@ def agree_command(
             console.print(t)
         for note in diagnostics.notes:
             console.print(note)
+    if what_if is not None:
+        console.print(_what_if_table(what_if))
+        console.print(what_if.note)
     say(
         "Verdicts compare alpha with the codebook's thresholds (conventions: Krippendorff 2004). "
         "Reliability is not validity: agreeing coders can still share a wrong reading."
