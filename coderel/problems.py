@@ -87,6 +87,7 @@ PROBLEM_CODES: dict[str, tuple[Severity, str]] = {
     "key-not-one-coder": ("error", "the answer key holds more or fewer than one coder"),
     "key-unit-not-coded": ("error", "a unit of the answer key was coded by no trainee"),
     "round-name-twice": ("error", "two rounds share one name"),
+    "round-blank": ("error", "a row of a long table with a round column has no round"),
     "recode-unknown-code": (
         "error",
         "a codebook's recode block maps onto, or from, a code the variable does not have",

@@ -91,6 +91,7 @@ def _with_protocol(
     import dataclasses
 
     from coderel.agree.coders import coder_diagnostics
+    from coderel.io.rounds import round_names
     from coderel.report.protocol import protocol_parts
 
     diagnostics = None
@@ -112,14 +113,11 @@ def _with_protocol(
         if key_codings.problems.refused:
             raise InputRefused("the answer key was refused", problems=key_codings.problems)
         scored = score(key_codings, codings, **settings)
-    if round_specs:
+    if round_specs or round_names(codings):
+        from coderel.cli.rounds import read_rounds
         from coderel.protocol.trend import trend
 
-        read = [
-            (name, read_project(codebook, [path], errors_note=f"of round {name} count as blank"))
-            for name, path in round_specs
-        ]
-        trended = trend(read, **settings)
+        trended = trend(read_rounds(codebook, round_specs, codings), **settings)
     return dataclasses.replace(content, protocol=protocol_parts(diagnostics, scored, trended))
 
 
@@ -162,7 +160,9 @@ def report_command(
         list[str] | None,
         typer.Option(
             "--round",
-            help="NAME=PATH of a round (repeat in time order): adds 'Reliability across rounds'.",
+            help="NAME=PATH of a round, or NAME of a round of DATA's 'round' column (repeat in "
+            "time order): adds 'Reliability across rounds' (DATA with a 'round' column adds it "
+            "by itself).",
         ),
     ] = None,
     occasion: OccasionOption = None,
@@ -172,6 +172,7 @@ def report_command(
     """The reliability report: summary, agreement table, charts, coders, methods paragraph."""
     from coderel.adjudicate.rules import parse_tolerances
     from coderel.agree import agreement
+    from coderel.cli.rounds import parse_rounds, round_files
     from coderel.codings import SourceFile
     from coderel.io.atomic import refuse_overwriting_inputs, sha256_file
     from coderel.io.read import collect_files
@@ -186,14 +187,12 @@ def report_command(
         raise UsageError(f"the decisions file {decisions.name!r} does not exist")
     round_specs = []
     if rounds:
-        from coderel.cli.cmd_trend import parse_rounds
-
         round_specs = parse_rounds(rounds)
     if key is not None and not key.exists():
         raise UsageError(f"the answer key {key.name!r} does not exist")
     key_files = set(collect_files([key])) if key is not None else set()
     inputs = [*collect_files(data), codebook, *([decisions] if decisions else [])]
-    inputs += [*key_files, *(f for _, p in round_specs for f in collect_files([p]))]
+    inputs += [*key_files, *round_files(round_specs)]
     refuse_overwriting_inputs(targets, inputs)
     when = report_time(date)
 

@@ -24,30 +24,8 @@ from coderel.cli.common import (
     out_console,
     say,
 )
-from coderel.errors import ExitCode, UsageError
-
-RoundOption = Annotated[
-    list[str],
-    typer.Option(
-        "--round",
-        "-r",
-        help="A round as NAME=PATH (a file or folder of coders' sheets); repeat in time order.",
-    ),
-]
-
-
-def parse_rounds(specs: list[str]) -> list[tuple[str, Path]]:
-    """``NAME=PATH`` pairs in the order given; a name twice or no ``=`` is a usage error."""
-    from coderel.protocol.trend import check_round_names
-
-    out = []
-    for spec in specs:
-        name, sep, path = spec.partition("=")
-        if not sep or not name.strip() or not path.strip():
-            raise UsageError(f"--round {spec!r}: give NAME=PATH, for example --round pilot=sheets/")
-        out.append((name.strip(), Path(path.strip())))
-    check_round_names([n for n, _ in out])
-    return out
+from coderel.cli.rounds import RoundOption
+from coderel.errors import ExitCode
 
 
 def _interval(ci: tuple[float, float] | None) -> str:
@@ -64,7 +42,14 @@ def _signed(x: float | None, ci: tuple[float, float] | None = None) -> str:
 @handle_errors
 def trend_command(
     codebook: CodebookOption,
-    rounds: RoundOption,
+    data: Annotated[
+        list[Path] | None,
+        typer.Argument(
+            help="Long data with a 'round' column (unit, coder, variable, value, round); "
+            "instead of, or beside, --round NAME=PATH.",
+        ),
+    ] = None,
+    rounds: RoundOption = None,
     replicates: ReplicatesOption = DEFAULT_REPLICATES,
     seed: SeedOption = DEFAULT_SEED,
     interval_method: IntervalOption = "bca",
@@ -76,15 +61,16 @@ def trend_command(
 ) -> ExitCode:
     """Alpha per variable per round, its change between rounds, and each coder's drift."""
     from coderel.cli.common import check_table_output, read_project
+    from coderel.cli.rounds import parse_rounds, read_rounds
     from coderel.io.tables import write_table
     from coderel.protocol.trend import trend
 
     parsed = parse_rounds(rounds)
-    check_table_output(out, [p for _, p in parsed], codebook)
-    read = [
-        (name, read_project(codebook, [path], errors_note=f"of round {name} count as blank"))
-        for name, path in parsed
-    ]
+    check_table_output(out, [*(data or []), *(p for _, p in parsed if p is not None)], codebook)
+    column = None
+    if data:
+        column = read_project(codebook, data, errors_note="count as blank")
+    read = read_rounds(codebook, parsed, column)
     with delayed_progress("bootstrap per round") as progress:
         result = trend(
             read,

@@ -7,7 +7,8 @@ name order, skipping hidden files and ``~$`` lock files):
   its text columns, as ``.xlsx``, ``.csv`` or ``.parquet``. The coder is the file's stem; or, in a
   workbook with several non-empty sheets, each sheet's name; or a ``coder`` column;
 * **long tables** whose header is exactly ``unit, coder, variable, value``, optionally with a fifth
-  column ``occasion`` for a coder's second coding (test-retest; :mod:`coderel.io.occasions`).
+  column ``occasion`` for a coder's second coding (test-retest; :mod:`coderel.io.occasions`)
+  and/or a column ``round`` (rounds of the coding protocol; :mod:`coderel.io.rounds`).
 
 Every cell goes through :func:`coderel.normalise.normalise_cell`; every problem is collected with
 its file, sheet, cell, unit, coder and variable, never raised, and an invalid cell gets the value
@@ -51,6 +52,7 @@ from coderel.io.archive import (
 from coderel.io.atomic import sha256_file
 from coderel.io.coverage import coder_key, drop_uncoded, warn_alike_coders
 from coderel.io.occasions import OCCASION_COLUMN, split_occasions, tag_occasions
+from coderel.io.rounds import is_round_table, tag_rounds
 from coderel.io.safe_text import DANGEROUS_PREFIXES
 from coderel.io.text_tables import RawRow, RawTable, read_csv, read_parquet
 from coderel.normalise import (
@@ -280,6 +282,11 @@ class _Reader:
         folded = [h.casefold() for h in table.header]
         while folded and folded[-1] == "":
             folded.pop()
+        if is_round_table(folded):  # rounds in a column: folded into unit IDs (io/rounds.py)
+            known = len(table.problems)
+            table = tag_rounds(table, _text_of)
+            self.problems.extend(table.problems[known:])
+            folded = [h.casefold() for h in table.header if h]
         if tuple(folded) == LONG_HEADER:
             self.read_long(table)
             return
