@@ -19,7 +19,7 @@ from coderel.codebook import Category, Codebook, Variable
 from coderel.codings import Codings
 from coderel.errors import UsageError
 from coderel.protocol.trend import round_seed, trend
-from coderel.stats.bootstrap import evaluate_plans, unit_weights
+from coderel.stats.bootstrap import PoissonUnitWeights, evaluate_plans
 from coderel.stats.intervals import percentile_interval
 from coderel.stats.plan import Scale, build_plan
 
@@ -77,8 +77,8 @@ def test_change_interval_is_the_percentile_interval_of_independent_differences()
     codings = [(n, c) for n, (c, _) in rounds]
     result = trend(codings, replicates=400, seed=11, interval_method="percentile")
     reps = []
-    for i, (_, c) in enumerate(codings[:2]):
-        w = unit_weights(len(c.units), 400, round_seed(11, i))
+    for name, c in codings[:2]:
+        w = PoissonUnitWeights.for_units(c.units, 400, round_seed(11, name))
         x = np.full((len(c.units), 3), -1)
         wide = c.wide("kind")
         for j, coder in enumerate(wide.columns):
@@ -89,7 +89,7 @@ def test_change_interval_is_the_percentile_interval_of_independent_differences()
     assert change.ci == pytest.approx(percentile_interval(reps[1] - reps[0], 0.95))
     assert change.change > 0
     assert change.ci[0] > 0  # agreement clearly rose from the pilot to training 1
-    assert round_seed(11, 0) != round_seed(11, 1)
+    assert round_seed(11, "pilot") != round_seed(11, "training 1")
 
 
 def test_drifting_coder_is_flagged_and_the_others_are_not():

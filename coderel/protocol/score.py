@@ -47,7 +47,7 @@ from coderel.codebook import Codebook, Variable
 from coderel.codings import Codings
 from coderel.errors import DataProblems, UsageError
 from coderel.problems import Problems, make_problem
-from coderel.stats.bootstrap import evaluate_plans, unit_weights
+from coderel.stats.bootstrap import evaluate_plans, make_weights
 from coderel.stats.counts import confusion_table
 from coderel.stats.intervals import interval
 from coderel.stats.kappa import cohen_kappa_table
@@ -376,7 +376,8 @@ def score(
     trainees
         The trainees' codings of (some of) the same units, same codebook.
     replicates, seed, ci_level, interval_method
-        The bootstrap: one seeded matrix of weights over the key's units.
+        The bootstrap: one set of unit weights over the key's units, each weight a pure
+        function of (seed, unit ID, replicate) (:mod:`coderel.stats.bootstrap`).
     progress
         Called as ``progress(done, total)``.
 
@@ -412,7 +413,8 @@ def score(
         for i, name in enumerate(names):
             jobs.append((t, i, name, t.x[:, [i, key_col]]))
     plans = [build_plan(x, t.scale) for t, _, _, x in jobs]
-    weights = unit_weights(len(units), replicates, seed)
+    # keyed by unit ID (seed, unit, replicate): the order of files and rows changes nothing
+    weights = make_weights(units, replicates, seed)
     evaluated = evaluate_plans(
         plans, weights, progress=(lambda d, n: progress(d, n)) if progress else None
     )

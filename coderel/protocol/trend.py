@@ -4,8 +4,11 @@ Per round and variable: Krippendorff's alpha at the variable's level with a seed
 interval over the round's units. Per variable and pair of consecutive rounds: the change in alpha
 with a percentile bootstrap interval of the difference; rounds hold different units, so each
 round is resampled on its own with its own seed (derived from the one seed and the round's
-position), and the difference of two independent replicate arrays is the replicate of the
-difference (Efron & Tibshirani 1993, ch. 8, two-sample problems).
+name, :func:`round_seed`), and the difference of two independent replicate arrays is the
+replicate of the difference (Efron & Tibshirani 1993, ch. 8, two-sample problems). A unit's
+weight in a replicate is a pure function of (round seed, unit ID, replicate)
+(:mod:`coderel.stats.bootstrap`): the order of files and rows changes no number, and a unit
+coded again in a later round is resampled independently there.
 
 Per coder and round: the coder's mean pairwise agreement with the other coders of that round
 (share of identical values over every variable, averaged over the coder's partners), its
@@ -24,6 +27,7 @@ several rounds are not pooled: each round's alpha speaks for its own units). Sag
 
 from __future__ import annotations
 
+import hashlib
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from itertools import pairwise
@@ -38,7 +42,7 @@ from coderel.agree.matrices import build_targets
 from coderel.codebook import Codebook
 from coderel.codings import Codings
 from coderel.errors import UsageError
-from coderel.stats.bootstrap import evaluate_plans, unit_weights
+from coderel.stats.bootstrap import PoissonUnitWeights, UnitWeights, evaluate_plans
 from coderel.stats.coders import pairwise_agreement
 from coderel.stats.intervals import interval, percentile_interval
 from coderel.stats.plan import build_plan
@@ -50,9 +54,15 @@ DRIFT_WORDS = (
 )
 
 
-def round_seed(seed: int, position: int) -> int:
-    """The seed of round ``position`` (0-based): independent streams from one seed."""
-    return int(np.random.SeedSequence([seed, position]).generate_state(1)[0])
+def round_seed(seed: int, name: str) -> int:
+    """The bootstrap seed of the round called ``name``: BLAKE2b of the seed and the name.
+
+    Keyed by the name, not the position, so a round's interval does not change when rounds are
+    added before it or given in another order; two rounds get independent weights even when
+    they hold the same unit IDs.
+    """
+    digest = hashlib.blake2b(f"{int(seed)}\x1fround\x1f{name}".encode(), digest_size=8)
+    return int.from_bytes(digest.digest(), "little") >> 1  # a non-negative 63-bit integer
 
 
 @dataclass(frozen=True)
@@ -197,7 +207,8 @@ class TrendResult:
                 "seed": self.seed,
                 "method": self.method,
                 "ci_level": self.ci_level,
-                "round_seeds": [round_seed(self.seed, i) for i in range(len(self.rounds))],
+                "scheme": "poisson",
+                "round_seeds": {r: round_seed(self.seed, r) for r in self.rounds},
             },
             "alpha": [a.to_dict() for a in self.alphas],
             "changes": [c.to_dict() for c in self.changes],
@@ -233,6 +244,10 @@ class _Round:
     values: dict[str, int]
 
 
+#: Units per block of bootstrap weights for the coders' agreement sums.
+_BLOCK = 4096
+
+
 def _finite(value: float) -> float | None:
     return float(value) if np.isfinite(value) else None
 
@@ -241,7 +256,7 @@ def _round(
     name: str,
     codings: Codings,
     codebook: Codebook,
-    weights: np.ndarray,
+    weights: UnitWeights,
     ci_level: float,
     method: str,
 ) -> _Round:
@@ -249,7 +264,8 @@ def _round(
     targets = [t for t in build_targets(codings, coders, units) if t.kind == "variable"]
     plans = [build_plan(t.x, t.scale) for t in targets]
     evaluated = evaluate_plans(plans, weights)
-    enough = weights.shape[0] >= min_replicates(ci_level)
+    n_reps = weights.replicates
+    enough = n_reps >= min_replicates(ci_level)
     points, reps, alphas = {}, {}, []
     for t, ev in zip(targets, evaluated, strict=True):
         e = ev["krippendorff_alpha"]
@@ -263,7 +279,7 @@ def _round(
         elif n < MIN_UNITS_FOR_INTERVAL:
             est = Estimate(point, reason="too-few-units")
         elif not enough:
-            est = Estimate(point, reason="too-few-replicates" if weights.shape[0] else None)
+            est = Estimate(point, reason="too-few-replicates" if n_reps else None)
         else:
             est = Estimate(point, interval(e.replicates, e.point, e.jackknife, ci_level, method))
         alphas.append(RoundAlpha(name, t.name, n, est))
@@ -277,8 +293,13 @@ def _round(
         both += b
         same += s
     total_both, total_same = both.sum(axis=0), same.sum(axis=0)
-    rep_both = weights @ both if len(weights) else np.empty((0, len(pairs)))
-    rep_same = weights @ same if len(weights) else np.empty((0, len(pairs)))
+    rep_both = np.zeros((n_reps, len(pairs)))
+    rep_same = np.zeros((n_reps, len(pairs)))
+    if n_reps:
+        for start in range(0, len(units), _BLOCK):
+            w = weights.block(start, min(start + _BLOCK, len(units)))
+            rep_both += w @ both[start : start + _BLOCK]
+            rep_same += w @ same[start : start + _BLOCK]
     agree_point, agree_reps, partners, values = {}, {}, {}, {}
     for c, coder in enumerate(coders):
         cols = [p for p, (i, j) in enumerate(pairs) if c in (i, j) and total_both[p] > 0]
@@ -286,7 +307,7 @@ def _round(
         values[coder] = int(total_both[cols].sum()) if cols else 0
         if not cols:
             agree_point[coder] = float("nan")
-            agree_reps[coder] = np.full(len(weights), np.nan)
+            agree_reps[coder] = np.full(n_reps, np.nan)
             continue
         agree_point[coder] = float(np.mean(total_same[cols] / total_both[cols]))
         with np.errstate(invalid="ignore", divide="ignore"):
@@ -324,7 +345,8 @@ def trend(
     rounds
         ``(name, codings)`` in time order; every round read with the same codebook.
     replicates, seed, ci_level, interval_method
-        The bootstrap: round ``i`` draws its own weights with :func:`round_seed` ``(seed, i)``.
+        The bootstrap: each round has its own unit weights, keyed by unit ID with
+        :func:`round_seed` ``(seed, name)``.
         Intervals of changes are percentile intervals of the difference of replicates.
     progress
         Called as ``progress(done, total)`` after each round.
@@ -340,7 +362,7 @@ def trend(
     codebook = rounds[0][1].codebook
     done: list[_Round] = []
     for i, (name, codings) in enumerate(rounds):
-        weights = unit_weights(len(codings.units), replicates, round_seed(seed, i))
+        weights = PoissonUnitWeights.for_units(codings.units, replicates, round_seed(seed, name))
         done.append(_round(name, codings, codebook, weights, ci_level, interval_method))
         if progress is not None:
             progress(i + 1, len(rounds))
