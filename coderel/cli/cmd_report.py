@@ -106,10 +106,10 @@ def _with_protocol(
     settings = {"replicates": replicates, "seed": seed, "interval_method": interval_method}
     if key_files:
         from coderel.errors import InputRefused
-        from coderel.io.read import read_codings
+        from coderel.io.versions import read_versioned
         from coderel.protocol.score import key_codebook, score
 
-        key_codings = read_codings(key_codebook(codings.codebook), sorted(key_files))
+        key_codings = read_versioned(key_codebook(codings.codebook), sorted(key_files))
         if key_codings.problems.refused:
             raise InputRefused("the answer key was refused", problems=key_codings.problems)
         scored = score(key_codings, codings, **settings)

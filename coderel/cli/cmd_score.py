@@ -84,8 +84,9 @@ def score_command(
 ) -> ExitCode:
     """Score each trainee against the answer key: agreement, kappa, pass or fail per variable."""
     from coderel.io.atomic import refuse_overwriting_inputs
-    from coderel.io.read import collect_files, read_codings
+    from coderel.io.read import collect_files
     from coderel.io.tables import write_xlsx
+    from coderel.io.versions import read_versioned
     from coderel.protocol.score import key_codebook, score
 
     key_files = set(collect_files([key]))
@@ -93,7 +94,7 @@ def score_command(
     if not data_files:
         raise UsageError("no trainee's sheet left once the key is set apart: give DATA")
     trainees = read_project(codebook, data_files, errors_note="count as blank")
-    key_codings = read_codings(key_codebook(trainees.codebook), sorted(key_files))
+    key_codings = read_versioned(key_codebook(trainees.codebook), sorted(key_files))
     if key_codings.problems.refused:
         raise InputRefused("the answer key was refused", problems=key_codings.problems)
     key_errors = key_codings.problems.errors

@@ -2,11 +2,17 @@
 
 A coding workbook made by ``coderel template`` carries the codebook's version in its ``codebook``
 sheet (row ``version``). :func:`read_versioned` reads every sheet as :func:`read_codings` does,
-except that sheets made from an earlier version with a ``recode`` block in the codebook
-(:mod:`coderel.codebook.revisions`) have their codes mapped onto this version's codes, and sheets
-made from a version with no recode block get a ``version-no-recode`` warning naming both
-versions. Sheets that carry no version (csv, parquet, workbooks not made by coderel) are read as
-they are. Input files are never changed.
+except for sheets made from another version:
+
+* variables renamed since (``renamed_from: old_name`` in this codebook) are read under their old
+  names and stored under their new ones;
+* with a ``recode`` block from that version (:mod:`coderel.codebook.revisions`), their codes are
+  mapped onto this version's codes;
+* without one, a ``version-no-recode`` warning names both versions and the codes are read as
+  they are.
+
+Sheets that carry no version (csv, parquet, workbooks not made by coderel) are read as they are.
+Input files are never changed.
 """
 
 from __future__ import annotations
@@ -79,6 +85,34 @@ def widened(codebook: Codebook, recode: Recode) -> Codebook:
     return dataclasses.replace(codebook, variables=tuple(variables))
 
 
+def renames(codebook: Codebook) -> dict[str, str]:
+    """Old name -> this version's name, from the variables' ``renamed_from`` keys."""
+    return {v.renamed_from: v.name for v in codebook.variables if v.renamed_from}
+
+
+def earlier_view(codebook: Codebook, version: str) -> Codebook:
+    """The codebook as a sheet made from ``version`` names it: renamed variables (and the
+    conditions that name them) under their old names; the old codes of the recode block from
+    ``version``, if any, accepted (:func:`widened`)."""
+    recode = codebook.recode_from(version)
+    if recode is not None:
+        codebook = widened(codebook, recode)
+    back = {new: old for old, new in renames(codebook).items()}
+    if not back:
+        return codebook
+    variables = []
+    for var in codebook.variables:
+        cond = var.applies_when
+        if cond is not None and cond.variable in back:
+            var = dataclasses.replace(
+                var, applies_when=dataclasses.replace(cond, variable=back[cond.variable])
+            )
+        if var.name in back:
+            var = dataclasses.replace(var, name=back[var.name])
+        variables.append(var)
+    return dataclasses.replace(codebook, variables=tuple(variables))
+
+
 def _recoded(value: Any, mapping: dict[Code, Code], order: dict[Code, int]) -> Any:
     if value is None:
         return None
@@ -102,13 +136,14 @@ def recode_frame(frame: pd.DataFrame, codebook: Codebook, recode: Recode) -> pd.
             index=out.index[rows],
             dtype=object,
         )
-    return out.drop(columns=["applies"])
+    return out.drop(columns=["applies"], errors="ignore")
 
 
 def _combine(codebook: Codebook, parts: list[Codings], problems: Problems) -> Codings:
     frames = [p.frame for p in parts if len(p.frame)]
     frame = pd.concat(frames, ignore_index=True) if frames else parts[0].frame
     texts = [p.texts for p in parts if len(p.texts)]
+    occasions = [p.occasions for p in parts if len(p.occasions)]
     for p in parts:
         problems.extend(p.problems)
     return Codings.from_records(
@@ -117,7 +152,22 @@ def _combine(codebook: Codebook, parts: list[Codings], problems: Problems) -> Co
         texts=pd.concat(texts, ignore_index=True) if texts else parts[0].texts,
         problems=problems,
         sources=[s for p in parts for s in p.sources],
+        occasions=pd.concat(occasions, ignore_index=True) if occasions else None,
     )
+
+
+def _as_now(
+    frame: pd.DataFrame, codebook: Codebook, renamed: dict[str, str], recode: Recode | None
+) -> pd.DataFrame:
+    """Rows read under an earlier version with this version's names and codes."""
+    if not len(frame):
+        return frame
+    frame = frame.copy()
+    if renamed:
+        frame["variable"] = frame["variable"].map(lambda n: renamed.get(n, n))
+    if recode is not None:
+        frame = recode_frame(frame, codebook, recode)
+    return frame
 
 
 def read_versioned(
@@ -127,11 +177,12 @@ def read_versioned(
     limits: Limits = DEFAULT_LIMITS,
     progress: Any = None,
 ) -> Codings:
-    """Read coders' sheets like :func:`coderel.io.read.read_codings`, recoding sheets made from
-    an earlier codebook version (see the module docstring)."""
+    """Read coders' sheets like :func:`coderel.io.read.read_codings`, renaming and recoding
+    sheets made from another codebook version (see the module docstring)."""
     files = collect_files(paths)
     versions = {f: sheet_version(f, limits) for f in files}
     own = str(codebook.version)
+    renamed = renames(codebook)
     groups: dict[str | None, list[Path]] = {}
     problems = Problems()
     for f, version in versions.items():
@@ -144,15 +195,16 @@ def read_versioned(
                     "version-no-recode",
                     f"{f.name} was made from codebook version {version}, this codebook is version "
                     f"{own} and has no recode block from {version}: its codes are read as they "
-                    "are",
+                    "are" + (", its renamed variables under their old names" if renamed else ""),
                     file=f.name,
                     sheet="codebook",
                     hint=f"add a recode block 'from_version: \"{version}\"' to the codebook, or "
                     "check that the codes did not change between the versions",
                 )
             )
-            groups.setdefault(None, []).append(f)
-            continue
+            if not renamed:
+                groups.setdefault(None, []).append(f)
+                continue
         groups.setdefault(version, []).append(f)
     if list(groups) == [None]:
         codings = read_codings(codebook, files, limits=limits, progress=progress)
@@ -165,16 +217,19 @@ def read_versioned(
         if version is None:
             parts.append(read_codings(codebook, group, limits=limits))
             continue
+        read = read_codings(earlier_view(codebook, version), group, limits=limits)
         recode = codebook.recode_from(version)
-        assert recode is not None
-        read = read_codings(widened(codebook, recode), group, limits=limits)
+        frame, occasions = (
+            _as_now(f, codebook, renamed, recode) for f in (read.frame, read.occasions)
+        )
         parts.append(
             Codings.from_records(
                 codebook,
-                recode_frame(read.frame, codebook, recode),
+                frame.drop(columns=["applies"], errors="ignore"),
                 texts=read.texts,
                 problems=read.problems,
                 sources=read.sources,
+                occasions=occasions if len(occasions) else None,
             )
         )
     return _combine(codebook, parts, problems)
