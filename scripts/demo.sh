@@ -56,6 +56,22 @@ step "12. The reliability report (with the Stability section)"
 # the report's paths go to stderr with the rest of the log: stdout ends with report.html, once
 "$CODEREL" report --codebook "$CB" "$SHEETS" --decisions "$DECISIONS" --occasion coder_ana=demo/retest/coder_ana.csv -o "$OUT/report.html" --format html,md,xlsx >&2
 
+CB11=sample_codebooks/wildlife_encounters_v1.1.yaml
+ROUNDS=demo/rounds
+
+step "13. Training: would merging behaviour 4 and 5 help the pilot? (a what-if, codebook 1.0)"
+"$CODEREL" agree --codebook "$CB" "$ROUNDS/pilot" --collapse behaviour=4+5 --out "$OUT/pilot-what-if.xlsx"
+
+step "14. What changed from codebook 1.0 to 1.1 (4 and 5 merged, a training threshold)"
+"$CODEREL" codebook diff "$CB" "$CB11"
+
+step "15. Each trainee of the second training round against the answer key; feedback workbooks"
+"$CODEREL" score --codebook "$CB11" --key demo/keys/training-2.xlsx "$ROUNDS/training-2" -o "$OUT/feedback"
+
+step "16. Alpha per round, the pilot's 1.0 sheets recoded to 1.1 when read; coder drift"
+"$CODEREL" trend --codebook "$CB11" --round pilot="$ROUNDS/pilot" \
+  --round training-1="$ROUNDS/training-1" --round training-2="$ROUNDS/training-2" --out "$OUT/trend.xlsx"
+
 cat >&2 <<MSG
 
 Demo finished. Outputs in $OUT/:
@@ -69,5 +85,8 @@ Demo finished. Outputs in $OUT/:
   merged.xlsx               one row per unit: final value and status per variable (+ audit log)
   stability.csv             each coder against their own recoding, per variable and coefficient
   report.html, report.md, report.xlsx   the reliability report
+  pilot-what-if.xlsx        the pilot's agreement with behaviour 4 and 5 merged (a what-if)
+  feedback/                 one workbook per trainee: every difference from the answer key
+  trend.xlsx                alpha per round and variable; each coder's agreement by round
 MSG
 printf '%s\n' "$OUT/report.html"

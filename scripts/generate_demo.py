@@ -4,6 +4,8 @@ The scenario is invented: rangers of the (invented) Quellbarrow Highlands Nation
 reports of visitor encounters with wildlife; three coders (``coder_ana``, ``coder_ben``,
 ``coder_cai``) code each report with ``sample_codebooks/wildlife_encounters.yaml``. A fourth sheet
 (``coder_dee``) is kept apart in ``demo/messy`` and carries deliberate problems for validation.
+The coding protocol's rounds (a pilot, two training rounds with answer keys, four trainees, one
+drifting; codebook 1.0 then 1.1) are written by ``scripts/demo_rounds.py``.
 
 Every number comes from one seeded :class:`numpy.random.Generator`, and the xlsx files are written
 with fixed timestamps, so two runs give byte-identical files::
@@ -781,6 +783,12 @@ def write_retest(
 
 def generate(out: Path, seed: int = SEED) -> dict[str, object]:
     """Write the demo files under ``out``; return a short summary (counts only)."""
+    sys.path.insert(0, str(ROOT / "scripts"))
+    try:
+        from demo_rounds import write_rounds
+    finally:
+        sys.path.remove(str(ROOT / "scripts"))
+
     rng = np.random.default_rng(seed)
     reports = [make_report(rng, i) for i in range(1, N_REPORTS + 1)]
     codings: dict[str, dict[str, dict[str, object]]] = {}
@@ -798,11 +806,13 @@ def generate(out: Path, seed: int = SEED) -> dict[str, object]:
     write_expected(out, expected)
     write_protocol_files(out, reports, codings, seed)
     recoded = write_retest(out, reports, codings[RETEST_CODER], seed)
+    rounds = write_rounds(sys.modules[__name__], out, seed)
     return {
         "reports": len(reports),
         "coded": {c: len(codings[c]) for c in CODERS},
         "messy_problems": len(expected),
         "recoded": recoded,
+        "rounds": rounds,
     }
 
 
