@@ -32,6 +32,12 @@ def _interval(ci: tuple[float, float] | None) -> str:
     return f" [{ci[0]:.3f}, {ci[1]:.3f}]" if ci else ""
 
 
+def _p(p: float | None) -> str:
+    if p is None:
+        return ""
+    return " p <.001" if p < 0.001 else f" p {p:.3f}".replace("0.", ".", 1)
+
+
 def _signed(x: float | None, ci: tuple[float, float] | None = None) -> str:
     if x is None:
         return "-"
@@ -102,7 +108,7 @@ def trend_command(
             a = result.alpha(r, var).alpha
             cells.append("-" if a.estimate is None else f"{a.estimate:.3f}{_interval(a.ci)}")
         for c in (c for c in result.changes if c.variable == var):
-            cells.append(_signed(c.change, c.ci))
+            cells.append(_signed(c.change, c.ci) + _p(c.p_value))
         table.add_row(var, *cells)
     console.print(table)
     drift = Table(title="Coders: mean pairwise agreement with the others, by round")

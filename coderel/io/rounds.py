@@ -64,8 +64,6 @@ def tag_rounds(table: RawTable, text_of: Callable[[Any], str | None]) -> RawTabl
             rows.append(RawRow(row.number, tuple(out), row.line))
             continue
         if label is None or ROUND_MARK.strip() in label:
-            if all(c is None or str(c).strip() == "" for c in cells):
-                continue
             problems.append(
                 make_problem(
                     "round-blank",

@@ -5,10 +5,11 @@ interval over the round's units. Per variable and pair of consecutive rounds: th
 with a percentile bootstrap interval of the difference; rounds hold different units, so each
 round is resampled on its own with its own seed (derived from the one seed and the round's
 name, :func:`round_seed`), and the difference of two independent replicate arrays is the
-replicate of the difference (Efron & Tibshirani 1993, ch. 8, two-sample problems). A unit's
-weight in a replicate is a pure function of (round seed, unit ID, replicate)
-(:mod:`coderel.stats.bootstrap`): the order of files and rows changes no number, and a unit
-coded again in a later round is resampled independently there.
+replicate of the difference (Efron & Tibshirani 1993, ch. 8, two-sample problems); a
+permutation test of no change shuffles the units of the two rounds between them
+(:mod:`coderel.protocol.permutation`). A unit's weight in a replicate is a pure function of
+(round seed, unit ID, replicate) (:mod:`coderel.stats.bootstrap`): the order of files and rows
+changes no number, and a unit coded again in a later round is resampled independently there.
 
 Per coder and round: the coder's mean pairwise agreement with the other coders of that round
 (share of identical values over every variable, averaged over the coder's partners), its
@@ -42,6 +43,7 @@ from coderel.agree.matrices import build_targets
 from coderel.codebook import Codebook
 from coderel.codings import Codings
 from coderel.errors import UsageError
+from coderel.protocol.permutation import change_under_shuffles, permutation_p, shuffle_seed
 from coderel.stats.bootstrap import PoissonUnitWeights, UnitWeights, evaluate_plans
 from coderel.stats.coders import pairwise_agreement
 from coderel.stats.intervals import interval, percentile_interval
@@ -92,6 +94,8 @@ class RoundChange:
     to_round: str
     change: float | None
     ci: tuple[float, float] | None
+    #: Two-sided permutation p-value of no change (:mod:`coderel.protocol.permutation`).
+    p_value: float | None = None
 
     def to_dict(self) -> dict[str, Any]:
         return {
@@ -100,6 +104,7 @@ class RoundChange:
             "to_round": self.to_round,
             "change": self.change,
             "ci": list(self.ci) if self.ci else None,
+            "p_value": self.p_value,
         }
 
 
@@ -244,6 +249,8 @@ class _Round:
     values: dict[str, int]
 
 
+#: Between a round's position and a unit ID while two rounds are pooled for the permutation test.
+_POOL_MARK = "\x1f"
 #: Units per block of bootstrap weights for the coders' agreement sums.
 _BLOCK = 4096
 
@@ -321,6 +328,35 @@ def _round(
     return _Round(name, points, reps, alphas, coders, agree_point, agree_reps, partners, values)
 
 
+def _change_p_values(
+    earlier: tuple[str, Codings],
+    later: tuple[str, Codings],
+    codebook: Codebook,
+    shuffles: int,
+    seed: int,
+) -> dict[str, float | None]:
+    """Per variable, the permutation p-value of no change in alpha between two rounds."""
+    frames = [
+        c.frame.assign(unit=f"{i}{_POOL_MARK}" + c.frame["unit"].astype(str))
+        for i, (_, c) in enumerate((earlier, later))
+    ]
+    pooled = Codings.from_records(codebook, pd.concat(frames, ignore_index=True))
+    units = pooled.units
+    first = np.array([u.startswith(f"0{_POOL_MARK}") for u in units])
+    pair_seed = shuffle_seed(seed, earlier[0], later[0])
+    out: dict[str, float | None] = {}
+    for t in build_targets(pooled, pooled.coders, units):
+        if t.kind != "variable":
+            continue
+        t = t.own()
+        if t.x.shape[1] < 2:
+            out[t.name] = None
+            continue
+        observed, shuffled = change_under_shuffles(t.x, t.scale, first, shuffles, pair_seed)
+        out[t.name] = permutation_p(observed, shuffled)
+    return out
+
+
 def _difference_interval(
     later: np.ndarray, earlier: np.ndarray, ci_level: float
 ) -> tuple[float, float] | None:
@@ -368,7 +404,12 @@ def trend(
             progress(i + 1, len(rounds))
     variables = tuple(v.name for v in codebook.variables)
     changes = []
-    for earlier, later in pairwise(done):
+    for (earlier, later), (pair_a, pair_b) in zip(pairwise(done), pairwise(rounds), strict=True):
+        p_values = (
+            _change_p_values(pair_a, pair_b, codebook, replicates, seed)
+            if replicates >= min_replicates(ci_level)
+            else {}
+        )
         for var in variables:
             a0, a1 = earlier.alpha_points.get(var), later.alpha_points.get(var)
             change = None
@@ -379,7 +420,8 @@ def trend(
                     ci = _difference_interval(
                         later.alpha_reps[var], earlier.alpha_reps[var], ci_level
                     )
-            changes.append(RoundChange(var, earlier.name, later.name, change, ci))
+            p = p_values.get(var) if change is not None else None
+            changes.append(RoundChange(var, earlier.name, later.name, change, ci, p))
     coder_rows = []
     last_seen: dict[str, _Round] = {}
     for r in done:
@@ -429,6 +471,8 @@ def trend(
         "each round's alpha speaks for its own units; rounds are resampled independently, each "
         "with its own seed, and the interval of a change is the percentile interval of the "
         "difference of the two rounds' replicates",
+        "p of a change: two-sided permutation test of no change (the units of the two rounds "
+        f"shuffled between them {replicates:,} times)",
         "coder agreement: share of identical values with each other coder over every variable, "
         "averaged over the coder's partners",
         DRIFT_WORDS,

@@ -35,6 +35,13 @@ def _ci(ci: tuple[float, float] | None) -> str:
     return f" [{fmt_coef(ci[0], 3)}, {fmt_coef(ci[1], 3)}]" if ci else ""
 
 
+def _p_text(p: float | None) -> str:
+    """``, p = .012`` (APA style, no leading zero), ``, p < .001``, or nothing."""
+    if p is None:
+        return ""
+    return ", p < .001" if p < 0.001 else f", p = {p:.3f}".replace("0.", ".", 1)
+
+
 def _signed(x: float | None, ci: tuple[float, float] | None = None) -> str:
     if x is None:
         return "–"
@@ -278,7 +285,7 @@ def rounds_blocks(result: TrendResult) -> tuple[Block, ...]:
             a = result.alpha(r, var).alpha
             cells.append("–" if a.estimate is None else fmt_coef(a.estimate, 3) + _ci(a.ci))
         for c in (c for c in result.changes if c.variable == var):
-            cells.append(_signed(c.change, c.ci))
+            cells.append(_signed(c.change, c.ci) + _p_text(c.p_value))
         rows.append((var, *cells))
     drift = tuple(
         (
@@ -307,7 +314,8 @@ def rounds_blocks(result: TrendResult) -> tuple[Block, ...]:
             "(Krippendorff, 2004).",
             note=f"Each round resampled on its own ({result.replicates:,} replicates, seeds "
             f"derived from {result.seed}); the interval of a change is the percentile interval of "
-            "the difference of the two rounds' replicates.",
+            "the difference of the two rounds' replicates; p: permutation test of no change (the "
+            "two rounds' units shuffled between them).",
             block_id="rounds-alpha",
         ),
         Block(
