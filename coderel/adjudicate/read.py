@@ -31,6 +31,7 @@ from coderel.io.archive import (
     raise_hint,
 )
 from coderel.io.atomic import sha256_file
+from coderel.io.safe_text import restore
 from coderel.problems import Problems
 
 
@@ -42,9 +43,7 @@ def _clean(value: Any) -> str | None:
             return None
         if value.is_integer():
             value = int(value)
-    text = str(value)
-    if text.startswith("'") and text[1:2] in ("=", "+", "-", "@", "\t", "\r"):
-        text = text[1:]
+    text = restore(str(value))  # marks coderel put on formula-like text when it wrote the list
     return text if text.strip() else None
 
 

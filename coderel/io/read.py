@@ -53,7 +53,7 @@ from coderel.io.atomic import sha256_file
 from coderel.io.coverage import coder_key, drop_uncoded, warn_alike_coders
 from coderel.io.occasions import OCCASION_COLUMN, split_occasions, tag_occasions
 from coderel.io.rounds import is_round_table, tag_rounds
-from coderel.io.safe_text import DANGEROUS_PREFIXES
+from coderel.io.safe_text import restore
 from coderel.io.text_tables import RawRow, RawTable, read_csv, read_parquet
 from coderel.normalise import (
     CellError,
@@ -118,10 +118,8 @@ def collect_files(paths: Sequence[str | Path] | str | Path) -> list[Path]:
 @functools.lru_cache(maxsize=1 << 16)
 def _str_text(raw: str) -> str | None:
     """:func:`_text_of` of a string: IDs and names repeat row after row, so it is cached."""
-    text = raw.strip()
-    if text.startswith("'") and text[1:].startswith(DANGEROUS_PREFIXES):
-        text = text[1:]  # neutralised when coderel wrote it (a template's unit '-002)
-    return text or None
+    # neutralised when coderel wrote it (a template's unit '-002; a CSV's 'a;'=b')
+    return restore(raw.strip()) or None
 
 
 def _text_of(raw: Any) -> str | None:

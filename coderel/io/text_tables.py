@@ -26,7 +26,7 @@ from openpyxl.utils import get_column_letter
 
 from coderel.errors import InputRefused
 from coderel.io.archive import DEFAULT_LIMITS, Limits, raise_hint
-from coderel.io.safe_text import DANGEROUS_PREFIXES
+from coderel.io.safe_text import restore
 from coderel.problems import Problem, make_problem
 
 
@@ -77,10 +77,7 @@ def _header_text(value: Any) -> str:
         return ""
     if isinstance(value, float) and value.is_integer():
         return str(int(value))
-    text = str(value).strip()
-    if text.startswith("'") and text[1:].startswith(DANGEROUS_PREFIXES):
-        text = text[1:]
-    return text
+    return restore(str(value).strip())
 
 
 def read_csv(path: Path, limits: Limits = DEFAULT_LIMITS) -> RawTable:
