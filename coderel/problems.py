@@ -49,6 +49,7 @@ PROBLEM_CODES: dict[str, tuple[Severity, str]] = {
         "a quote in a CSV file is never closed; the rows after it are lost",
     ),
     "too-many-columns": ("error", "a CSV row has more cells than the column limit"),
+    "ragged-row": ("error", "a CSV row has more cells than its header"),
     "empty-sheet": ("error", "a sheet or file holds no data rows"),
     "duplicate-coder": ("error", "two files or sheets claim the same coder"),
     "unknown-column": (

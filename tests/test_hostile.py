@@ -86,6 +86,10 @@ def _problem_codes(stdout: bytes) -> set[str]:
     return {p["code"] for p in data.get("problems", [])}
 
 
+def _located(stdout: bytes) -> set[tuple[str, int]]:
+    return {(p["code"], p.get("line")) for p in json.loads(stdout).get("problems", [])}
+
+
 def _check(name: str, case, tmp_path: Path) -> None:
     args = case.make(tmp_path)
     code, out, err, peak = run_capped(args, seconds=case.seconds, env=dict(case.env))
@@ -95,6 +99,8 @@ def _check(name: str, case, tmp_path: Path) -> None:
     assert code == case.exit_code, (code, text[-2000:])
     if case.codes:
         assert case.codes <= _problem_codes(out), (_problem_codes(out), text[-2000:])
+    if case.located:
+        assert set(case.located) <= _located(out), _located(out)
     print(f"{name}: exit {code}, peak {peak if peak is None else round(peak)} MB")
 
 

@@ -88,11 +88,13 @@ def read_csv(path: Path, limits: Limits = DEFAULT_LIMITS) -> RawTable:
     A quote that is never closed swallows the rest of the file into one cell; that is reported
     as ``unclosed-quote`` with the line where the quote opened.
 
-    Bounds (:class:`coderel.io.archive.Limits`): blank cells at the end of a row past the header
-    are dropped, so one line of 20,000 commas widens nothing; a row with more cells than
-    ``max_columns`` is cut to the header's width and reported (``too-many-columns``, with its
-    line); a field longer than ``max_field_chars`` characters, more than ``max_rows`` rows or
-    more than ``max_cells`` cells refuse the file (:class:`InputRefused`) before rows are widened.
+    Bounds (:class:`coderel.io.archive.Limits`): every row is cut to the header's width, so one
+    line of 20,000 commas widens nothing. A row with more cells than the header is a ragged row
+    (``ragged-row``, with its line; RFC 4180, section 2.4: every line holds the same number of
+    fields), and one with more cells than ``max_columns`` is ``too-many-columns``: a line without
+    quotes is cut after ``max_columns`` separators before the :mod:`csv` module splits it, so
+    its cells are never built. A field longer than ``max_field_chars`` characters, more than
+    ``max_rows`` rows or more than ``max_cells`` cells refuse the file (:class:`InputRefused`).
     """
     data = path.read_bytes()
     try:
@@ -112,7 +114,10 @@ def read_csv(path: Path, limits: Limits = DEFAULT_LIMITS) -> RawTable:
     delimiter = ";" if ";" in first_line and "," not in first_line else ","
     if "\t" in first_line and "," not in first_line and ";" not in first_line:
         delimiter = "\t"
-    reader = csv.reader(io.StringIO(text, newline=""), delimiter=delimiter)
+    cut: dict[int, int] = {}  # physical line -> its cells, for lines cut before splitting
+    reader = csv.reader(
+        _capped_lines(text, delimiter, limits.max_columns, cut), delimiter=delimiter
+    )
     header: tuple[str, ...] | None = None
     header_line: int | None = None
     rows: list[RawRow] = []
@@ -121,6 +126,7 @@ def read_csv(path: Path, limits: Limits = DEFAULT_LIMITS) -> RawTable:
     previous_end = 0
     start_line = 1
     too_wide: list[Problem] = []
+    ragged: list[tuple[int, int, int, int]] = []  # (line, row, cells, cells with a value past it)
     with _field_limit(limits.max_field_chars):
         while True:
             try:
@@ -136,6 +142,8 @@ def read_csv(path: Path, limits: Limits = DEFAULT_LIMITS) -> RawTable:
             record += 1
             start_line = previous_end + 1
             previous_end = reader.line_num
+            # lines of this record cut before splitting (at most a few: they are popped here)
+            counts = [cut.pop(n) for n in [n for n in cut if n <= previous_end]]
             if not any(c.strip() for c in cells):
                 continue
             if header is None:
@@ -148,13 +156,18 @@ def read_csv(path: Path, limits: Limits = DEFAULT_LIMITS) -> RawTable:
                     f"{path.name} has more than {limits.max_rows} rows (line {start_line}); "
                     f"split it, or {raise_hint('max_rows')}"
                 )
-            if len(cells) > len(header):
-                cells = _trim_end(cells, len(header))
-            if len(cells) > limits.max_columns:
-                too_wide.append(_too_wide(path.name, start_line, len(cells), limits))
+            if counts or len(cells) > limits.max_columns:
+                count = max([len(cells), *counts])
+                too_wide.append(_too_wide(path.name, start_line, count, limits))
                 cells = cells[: len(header)]  # widening every row to the limit is the bomb
+            elif len(cells) > len(header):
+                filled = sum(1 for c in cells[len(header) :] if c.strip())
+                ragged.append((start_line, record, len(cells), filled))
+                cells = cells[: len(header)]
             rows.append(RawRow(number=record, cells=tuple(cells), line=start_line))
     problems: tuple[Problem, ...] = tuple(too_wide)
+    if header is not None:
+        problems += _ragged(path.name, len(header), ragged)
     # Only the last record can end inside a quote (it then runs to the end of the file).
     # Lines as the csv reader counts them (``\n``, ``\r`` or ``\r\n``; not ``str.splitlines``).
     lines = io.StringIO(text, newline="").readlines()
@@ -212,12 +225,71 @@ def _field_limit(chars: int) -> Iterator[None]:
         csv.field_size_limit(old)
 
 
-def _trim_end(cells: list[str], keep: int) -> list[str]:
-    """``cells`` without the blank cells at its end past position ``keep``."""
-    end = len(cells)
-    while end > keep and not cells[end - 1].strip():
-        end -= 1
-    return cells[:end]
+def _capped_lines(
+    text: str, delimiter: str, max_columns: int, cut: dict[int, int]
+) -> Iterator[str]:
+    """The lines of ``text`` for the :mod:`csv` module, a line without quotes cut after
+    ``max_columns`` separators (its cell count is put in ``cut`` under its line number), so
+    that a line of a million commas never becomes a million cells.
+
+    Lines end at ``\n``, ``\r`` or ``\r\n``, as the :mod:`csv` module counts them. A line with
+    a quote may hold separators inside a quoted cell and is passed whole (the file-size limit
+    bounds it).
+    """
+    for number, line in enumerate(io.StringIO(text, newline=""), start=1):
+        if len(line) > max_columns and '"' not in line:
+            count = line.count(delimiter)
+            if count >= max_columns:
+                cut[number] = count + 1
+                line = delimiter.join(line.split(delimiter, max_columns)[:max_columns]) + "\n"
+        yield line
+
+
+#: Ragged rows named one by one; past this many, one more problem counts the rest.
+MAX_RAGGED_REPORTED = 20
+
+
+def _ragged(file: str, width: int, ragged: list[tuple[int, int, int, int]]) -> tuple[Problem, ...]:
+    """``ragged-row`` errors: each row with more cells than the header, up to
+    :data:`MAX_RAGGED_REPORTED` of them, then one for the rest; the cell named is the first
+    one past the header."""
+    past = get_column_letter(width + 1)
+    out = []
+    for line, row, count, filled in ragged[:MAX_RAGGED_REPORTED]:
+        held = (
+            f"{filled} of the cells past the header hold a value, which was not read"
+            if filled
+            else "the cells past the header are blank"
+        )
+        out.append(
+            make_problem(
+                "ragged-row",
+                f"line {line} has {count} cells, the header {width}; only the cells under the "
+                f"header were read ({held})",
+                hint="remove the extra separators at the end of this line, or quote a cell "
+                'that holds a separator ("a, b")',
+                file=file,
+                cell=f"{past}{row}",
+                line=line,
+            )
+        )
+    rest = ragged[MAX_RAGGED_REPORTED:]
+    if rest:
+        filled = sum(1 for *_, f in rest if f)
+        shown = ", ".join(str(r[0]) for r in rest[:5])
+        out.append(
+            make_problem(
+                "ragged-row",
+                f"{len(rest)} more lines have more cells than the header ({width}), starting "
+                f"with lines {shown}; only the cells under the header were read"
+                + (f" ({filled} of these lines hold values past it)" if filled else ""),
+                hint="remove the extra separators at the ends of these lines",
+                file=file,
+                cell=f"{past}{rest[0][1]}",
+                line=rest[0][0],
+            )
+        )
+    return tuple(out)
 
 
 def _too_wide(file: str, line: int, count: int, limits: Limits) -> Problem:

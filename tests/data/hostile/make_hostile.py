@@ -232,8 +232,15 @@ def _csv_rows(n: int) -> Iterator[str]:
 
 
 def comma_row(folder: Path) -> list[str]:
-    """Item 2: 20,000 short rows, then one row with 20,000 commas."""
+    """Item 2: 20,000 short rows, then one row with 20,000 commas (line 20,002)."""
     lines = [*_csv_rows(20_000), "R-x,,1,5" + "," * 20_000]
+    return _validate(_csv(folder / "ana.csv", lines))
+
+
+def ragged_row(folder: Path) -> list[str]:
+    """Item 2: under the column limit, a row of 5,000 commas (line 2,002) and one with a value
+    past the header (line 2,004): each a located problem, no row widened."""
+    lines = [*_csv_rows(2_000), "R-x,,1,5" + "," * 5_000, "R-y,,1,5", "R-z,,1,5,lost"]
     return _validate(_csv(folder / "ana.csv", lines))
 
 
@@ -350,6 +357,8 @@ class Case:
     env: tuple[tuple[str, str], ...] = ()
     #: Seconds allowed (the machine is shared; a regression takes minutes, not seconds).
     seconds: int = 120
+    #: (problem code, line) pairs that must be among the problems (a located problem).
+    located: tuple[tuple[str, int], ...] = ()
 
 
 CASES: dict[str, Case] = {
@@ -358,9 +367,19 @@ CASES: dict[str, Case] = {
     "heavy_hidden_sheets": Case(heavy_hidden_sheets, 0),
     "rows_past_limit": Case(rows_past_limit, 3, frozenset({"input-refused"})),
     "long_numbers_xlsx": Case(long_numbers_xlsx, 1, frozenset({"number-too-long"})),
-    "comma_row": Case(comma_row, 0),
-    "wide_row": Case(wide_row, 1, frozenset({"too-many-columns"})),
-    "comma_square": Case(comma_square, 0),
+    "comma_row": Case(
+        comma_row, 1, frozenset({"too-many-columns"}), located=(("too-many-columns", 20_002),)
+    ),
+    "ragged_row": Case(
+        ragged_row,
+        1,
+        frozenset({"ragged-row"}),
+        located=(("ragged-row", 2_002), ("ragged-row", 2_004)),
+    ),
+    "wide_row": Case(
+        wide_row, 1, frozenset({"too-many-columns"}), located=(("too-many-columns", 202),)
+    ),
+    "comma_square": Case(comma_square, 1, frozenset({"ragged-row"}), located=(("ragged-row", 2),)),
     "long_narrative": Case(long_narrative, 0),
     "huge_field": Case(huge_field, 3, frozenset({"input-refused"})),
     "long_numbers_csv": Case(
