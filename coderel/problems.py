@@ -70,6 +70,10 @@ PROBLEM_CODES: dict[str, tuple[Severity, str]] = {
         "error",
         "two rows of an adjudication list are for the same unit and variable",
     ),
+    "duplicate-list-column": (
+        "error",
+        "two columns of an adjudication list have the same header",
+    ),
     "number-too-long": ("error", "a number of more than 300 characters (no codebook value)"),
     "out-of-range": ("error", "a number outside the variable's range"),
     "not-integer": ("error", "a count variable holds a fraction"),
@@ -120,6 +124,10 @@ PROBLEM_CODES: dict[str, tuple[Severity, str]] = {
     "hidden-column": ("warning", "a hidden column was read"),
     "merged-cells": ("warning", "merged cells: only the top-left cell holds a value"),
     "missing-code": ("warning", "a value was coded as missing (cannot be coded from the text)"),
+    "kept-column": (
+        "warning",
+        "a column added to the adjudication list by hand is kept as it is",
+    ),
     "stale-decision": (
         "warning",
         "a decision for a cell the coders no longer disagree on, or a unit not in the data",

@@ -5,6 +5,7 @@ from __future__ import annotations
 import math
 import os
 from collections.abc import Mapping, Sequence
+from dataclasses import replace
 
 from coderel.adjudicate.decisions import hint, parse_decision
 from coderel.adjudicate.model import (
@@ -12,6 +13,7 @@ from coderel.adjudicate.model import (
     STALE_CHECK,
     Adjudication,
     AdjudicationRow,
+    coder_column,
     column_letter,
     main_columns,
 )
@@ -95,14 +97,17 @@ def build_adjudication(
     current = disagreements(codings, settling, tokens_by_cell)
     columns, narratives = _first_texts(codings)
     if previous is not None and not isinstance(previous, Adjudication):
-        previous = read_adjudication(previous, codings.codebook)
+        previous = read_adjudication(previous, codings.codebook, codings.coders)
     old_rows: dict[str, AdjudicationRow] = {}
     old_retired: dict[str, AdjudicationRow] = {}
     problems = Problems()
+    extra_columns: tuple[str, ...] = ()
     if previous is not None:
+        previous = _clear_of(previous, [*codings.coders, *columns])
         old_rows = {r.key: r for r in previous.rows}
         old_retired = {r.key: r for r in previous.retired}
         problems.extend(previous.problems)
+        extra_columns = previous.extra_columns
     rows: list[AdjudicationRow] = []
     kept = added = 0
     changed: list[int] = []
@@ -123,6 +128,7 @@ def build_adjudication(
                 note=old.note,
                 adjudicator=old.adjudicator,
                 check=check,
+                extra=old.extra,
             )
         else:
             added += 1
@@ -146,6 +152,7 @@ def build_adjudication(
                 note=old.note,
                 adjudicator=old.adjudicator,
                 reason=reason,
+                extra=old.extra,
             )
         )
     var_order = {name: i for i, name in enumerate(codings.codebook.names)}
@@ -164,10 +171,36 @@ def build_adjudication(
         added=added,
         moved=moved,
         settling=settling,
+        extra_columns=extra_columns,
     )
     problems.extend(check_decisions(adjudication))
     problems.extend(_changed_since_decision(adjudication, changed))
     return adjudication
+
+
+def _clear_of(previous: Adjudication, names: Sequence[str]) -> Adjudication:
+    """``previous`` with each added column named like a coder or text column of the data now
+    renamed ``NAME (kept)``, so that neither overwrites the other when the list is written."""
+    taken = {coder_column(n) for n in names}
+    renames = {}
+    for column in previous.extra_columns:
+        if column in taken:
+            new = f"{column} (kept)"
+            while new in taken or new in previous.extra_columns:
+                new += "'"
+            renames[column] = new
+    if not renames:
+        return previous
+
+    def moved(row: AdjudicationRow) -> AdjudicationRow:
+        return replace(row, extra={renames.get(k, k): v for k, v in row.extra.items()})
+
+    return replace(
+        previous,
+        rows=tuple(moved(r) for r in previous.rows),
+        retired=tuple(moved(r) for r in previous.retired),
+        extra_columns=tuple(renames.get(c, c) for c in previous.extra_columns),
+    )
 
 
 def _retired_reason(

@@ -34,6 +34,8 @@ FIXED_COLUMNS: tuple[str, ...] = (
     "list",
 )
 KEY_SEPARATOR = "|"
+#: What follows a coder's name in its column header when the name is a fixed column's.
+CODER_SUFFIX = " (coder)"
 #: What the ``check`` column says on a row whose decision was made on other coders' values.
 STALE_CHECK = "coders' values changed since this decision: confirm it by clearing this cell"
 
@@ -53,6 +55,8 @@ class AdjudicationRow:
     #: set while a decision waits to be re-confirmed (:data:`STALE_CHECK`); cleared by the
     #: adjudicator. A decision with a check is not used by ``merge``.
     check: str | None = None
+    #: what the row holds in columns an adjudicator added (header -> text), kept on rewrite
+    extra: Mapping[str, str] = field(default_factory=dict)
 
     @property
     def key(self) -> str:
@@ -78,6 +82,7 @@ class AdjudicationRow:
             "adjudicator": self.adjudicator,
             "check": self.check,
             "reason": self.reason,
+            "extra": dict(self.extra),
         }
 
 
@@ -97,6 +102,8 @@ class Adjudication:
     moved: int = 0
     #: the rule and tolerances that chose the rows (cells they settle are not listed)
     settling: Settling = field(default_factory=Settling)
+    #: columns an adjudicator added to the list, kept (after coderel's own) when it is rewritten
+    extra_columns: tuple[str, ...] = ()
 
     def summary(self) -> pd.DataFrame:
         """Per variable (codebook order): disagreements, decided, open, to check, no longer needed.
@@ -126,7 +133,9 @@ class Adjudication:
 
     def to_frame(self) -> pd.DataFrame:
         """The list as one table (both sheets; ``list`` tells which), without narrative text."""
-        return rows_frame(self.rows, self.retired, self.coders, text_columns=())
+        return rows_frame(
+            self.rows, self.retired, self.coders, text_columns=(), extra_columns=self.extra_columns
+        )
 
     def to_dict(self) -> dict[str, Any]:
         summary = self.summary()
@@ -142,6 +151,7 @@ class Adjudication:
             "kept": self.kept,
             "added": self.added,
             "moved": self.moved,
+            "kept_columns": list(self.extra_columns),
             "per_variable": summary.to_dict(orient="records"),
             "rows": [r.to_dict() for r in self.rows],
             **self.problems.to_dict(),
@@ -151,10 +161,17 @@ class Adjudication:
 # ---- tables --------------------------------------------------------------------------------
 def coder_column(coder: str) -> str:
     """The column of a coder: the coder's name, unless it is one of the fixed column names."""
-    return f"{coder} (coder)" if coder in FIXED_COLUMNS else coder
+    return f"{coder}{CODER_SUFFIX}" if coder in FIXED_COLUMNS else coder
 
 
-def main_columns(coders: Sequence[str], text_columns: Sequence[str]) -> list[str]:
+def main_columns(
+    coders: Sequence[str], text_columns: Sequence[str], extra_columns: Sequence[str] = ()
+) -> list[str]:
+    """Columns of the main list: the header convention :mod:`coderel.adjudicate.read` relies on.
+
+    ``unit``, ``variable``, ``kind``; one column per coder; the text columns; ``decision``,
+    ``note``, ``adjudicator``, ``check``, ``key``; then the columns an adjudicator added.
+    """
     return [
         "unit",
         "variable",
@@ -166,10 +183,11 @@ def main_columns(coders: Sequence[str], text_columns: Sequence[str]) -> list[str
         "adjudicator",
         "check",
         "key",
+        *extra_columns,
     ]
 
 
-def retired_columns(coders: Sequence[str]) -> list[str]:
+def retired_columns(coders: Sequence[str], extra_columns: Sequence[str] = ()) -> list[str]:
     return [
         "unit",
         "variable",
@@ -180,6 +198,7 @@ def retired_columns(coders: Sequence[str]) -> list[str]:
         "adjudicator",
         "reason",
         "key",
+        *extra_columns,
     ]
 
 
@@ -199,6 +218,8 @@ def row_record(
         reason=row.reason,
         key=row.key,
     )
+    for column, text in row.extra.items():
+        record.setdefault(column, text)
     return record
 
 
@@ -216,13 +237,15 @@ def rows_frame(
     *,
     text_columns: Sequence[str],
     narratives: Mapping[str, Mapping[str, str]] | None = None,
+    extra_columns: Sequence[str] = (),
 ) -> pd.DataFrame:
-    """Both lists in one table (the CSV form): main columns plus ``reason`` and ``list``."""
+    """Both lists in one table (the CSV form): main columns plus ``reason`` and ``list``, then
+    the columns an adjudicator added."""
     all_coders = list(coders)
     for r in retired:
         all_coders.extend(c for c in r.values if c not in all_coders)
     columns = main_columns(all_coders, text_columns)
-    columns += ["reason", "list"]
+    columns += ["reason", "list", *extra_columns]
     records = []
     for r in rows:
         texts = {c: (narratives or {}).get(r.unit, {}).get(c, "") for c in text_columns}

@@ -6,13 +6,15 @@ import csv
 import io
 import math
 import os
-from collections.abc import Mapping
+from collections.abc import Collection, Iterable, Mapping
+from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
 from coderel.adjudicate.decisions import Decision, Decisions, hint, parse_decision
 from coderel.adjudicate.model import (
     ABOUT_SHEET,
+    CODER_SUFFIX,
     FIXED_COLUMNS,
     MAIN_SHEET,
     RETIRED_SHEET,
@@ -20,7 +22,8 @@ from coderel.adjudicate.model import (
     AdjudicationRow,
     column_letter,
 )
-from coderel.codebook import Codebook
+from coderel.adjudicate.tokens import BLANK_SHOWN, NONE_SHOWN, NOT_APPLICABLE
+from coderel.codebook import Codebook, Variable
 from coderel.codings import SourceFile
 from coderel.errors import DataProblems, InputRefused
 from coderel.io.archive import (
@@ -164,20 +167,112 @@ def _read_tables(
     return out
 
 
-def _coder_columns(
-    header: list[str], known_text: set[str], coders: set[str] | None = None
-) -> list[tuple[int, str]]:
-    """(column index, coder name) of every coder column of a list's header.
+@dataclass(frozen=True)
+class ListColumns:
+    """The columns of one sheet of a list, told apart by the list's own header convention.
 
-    ``coders``: the coders the list was written for (its ``about`` sheet); a column of another
-    name is then one the adjudicator added, not a coder.
+    coderel writes ``unit``, ``variable``, ``kind``, then one column per coder, then the text
+    columns, then ``decision``, ``note``, ``adjudicator``, ``check``, ``key`` (and ``reason``,
+    ``list`` in the csv form; see :func:`coderel.adjudicate.model.main_columns`). So the coders'
+    columns are the columns between ``kind`` and ``decision`` that are not text columns; a coder
+    named like a fixed column is written ``NAME (coder)``. Every other column is one an
+    adjudicator added: it is kept, never taken for a coder.
     """
-    out = [
-        (i, h[: -len(" (coder)")] if h.endswith(" (coder)") else h)
-        for i, h in enumerate(header)
-        if h and h not in FIXED_COLUMNS and h not in known_text
-    ]
-    return out if coders is None else [(i, c) for i, c in out if c in coders]
+
+    #: (position, coder name) of the coders' columns
+    coders: tuple[tuple[int, str], ...]
+    #: (position, header) of the columns an adjudicator added (kept when the list is rewritten)
+    extra: tuple[tuple[int, str], ...]
+    #: (position, header, position of the first column of that header) of repeated headers
+    duplicates: tuple[tuple[int, str, int], ...]
+
+
+def _shown(var: Variable, text: str) -> bool:
+    """Does ``text`` read as a coder's value of ``var`` as the list shows it
+    (:func:`coderel.adjudicate.tokens.display_token`)?"""
+    if text in (BLANK_SHOWN, NONE_SHOWN, NOT_APPLICABLE):
+        return True
+    if var.is_numeric:
+        try:
+            float(text)
+        except ValueError:
+            return any(text in (str(m), var.display(m)) for m in var.missing_codes)
+        return True
+    return parse_decision(var, text)[0] is not None
+
+
+def _reads_as_coder(
+    position: int, header: list[str], body: list[list[Any]], codebook: Codebook
+) -> bool:
+    """Every filled cell of the column reads as a coder's value of its row's variable, and one
+    at least is filled."""
+    iv = header.index("variable") if "variable" in header else None
+    filled = False
+    for row in body:
+        text = _clean(row[position]) if position < len(row) else None
+        if text is None:
+            continue
+        variable = _clean(row[iv]) if iv is not None and iv < len(row) else None
+        if variable is None or variable not in codebook:
+            continue
+        if not _shown(codebook.variable(variable), text):
+            return False
+        filled = True
+    return filled
+
+
+def list_columns(
+    header: list[str],
+    body: list[list[Any]],
+    codebook: Codebook,
+    known_text: Collection[str],
+    coders: Collection[str] = (),
+    *,
+    complete: bool = False,
+) -> ListColumns:
+    """Tell a sheet's coder columns from the columns an adjudicator added (see
+    :class:`ListColumns`).
+
+    A column between ``kind`` and ``decision`` that is not a text column is a coder's when its
+    header ends in `` (coder)``, when ``coders`` names it (the list's ``about`` sheet, the coders
+    of the data now), or else, unless ``complete`` (the ``about`` sheet names every coder the list
+    was written for), when every filled cell reads as a coder's value of its row's variable (a
+    departed coder's column of a csv list). Any other column is an added one; a
+    column without a header is added when it holds something, under the name ``column F``.
+    """
+    seen: dict[str, int] = {}
+    duplicates = []
+    for i, h in enumerate(header):
+        if not h:
+            continue
+        if h in seen:
+            duplicates.append((i, h, seen[h]))
+        else:
+            seen[h] = i
+    first = {h: i for h, i in seen.items() if h in FIXED_COLUMNS}
+    start = first.get("kind", max(first.get("unit", -1), first.get("variable", -1)))
+    after = [i for h, i in first.items() if h not in ("unit", "variable", "kind") and i > start]
+    end = first.get("decision", min(after, default=len(header)))
+    out_coders, extra = [], []
+    for i, h in enumerate(header):
+        if h in FIXED_COLUMNS and seen.get(h) == i:
+            continue
+        if not h:
+            if any(i < len(r) and _clean(r[i]) for r in body):
+                extra.append((i, f"column {column_letter(i + 1)}"))
+            continue
+        if seen[h] != i or h in known_text:
+            continue
+        name = h[: -len(CODER_SUFFIX)] if h.endswith(CODER_SUFFIX) else h
+        if start < i < end and (
+            h.endswith(CODER_SUFFIX)
+            or name in coders
+            or (not complete and _reads_as_coder(i, header, body, codebook))
+        ):
+            out_coders.append((i, name))
+        else:
+            extra.append((i, h))
+    return ListColumns(tuple(out_coders), tuple(extra), tuple(duplicates))
 
 
 def _about_coders(tables: Mapping[str, Any]) -> set[str] | None:
@@ -190,18 +285,42 @@ def _about_coders(tables: Mapping[str, Any]) -> set[str] | None:
     return names or None
 
 
-def _added_columns(tables: Mapping[str, Any], codebook: Codebook) -> list[str]:
-    """Columns the adjudicator added to the main list that hold something (not kept on rewrite)."""
-    coders = _about_coders(tables)
-    if coders is None:
-        return []
-    header, body, _ = tables[MAIN_SHEET]
-    extra = [
-        (i, header[i])
-        for i, c in _coder_columns(header, _known_text(tables, codebook))
-        if c not in coders
-    ]
-    return [h for i, h in extra if any(i < len(r) and _clean(r[i]) for r in body)]
+def _sheet_name(path: Path, name: str) -> str | None:
+    return name if path.suffix.lower() == ".xlsx" else None
+
+
+def column_problems(path: Path, sheet: str, columns: ListColumns) -> Problems:
+    """``duplicate-list-column`` errors: two columns of one header (which holds the decision,
+    which the note?), each named by its header cell."""
+    problems = Problems()
+    for i, h, j in columns.duplicates:
+        problems.add(
+            "duplicate-list-column",
+            f"columns {column_letter(j + 1)} and {column_letter(i + 1)} are both headed {h!r}; "
+            "which one to read is not clear, so neither is guessed",
+            hint="rename or delete one of the two columns (move what it holds into the other) "
+            "and run again",
+            file=path.name,
+            sheet=_sheet_name(path, sheet),
+            cell=f"{column_letter(i + 1)}1",
+        )
+    return problems
+
+
+def kept_column_problems(path: Path, sheet: str, extra: Iterable[tuple[int, str]]) -> Problems:
+    """One ``kept-column`` warning for each column an adjudicator added."""
+    problems = Problems()
+    for i, h in extra:
+        problems.add(
+            "kept-column",
+            f"column {h!r} is not one coderel writes (not a coder, text or list column); it is "
+            "kept with everything it holds, as one of the last columns of the list",
+            hint="nothing to do; to have it read as a note, move what it holds to 'note'",
+            file=path.name,
+            sheet=_sheet_name(path, sheet),
+            cell=f"{column_letter(i + 1)}1",
+        )
+    return problems
 
 
 def _known_text(tables: Mapping[str, Any], codebook: Codebook) -> set[str]:
@@ -215,27 +334,23 @@ def _known_text(tables: Mapping[str, Any], codebook: Codebook) -> set[str]:
 
 
 def _rows_from(
-    header: list[str],
-    body: list[list[Any]],
-    known_text: set[str],
-    coders: set[str] | None = None,
+    header: list[str], body: list[list[Any]], columns: ListColumns
 ) -> list[AdjudicationRow]:
     if "unit" not in header or "variable" not in header:
         return []
-    coder_cols = _coder_columns(header, known_text, coders)
+    first = {h: i for i, h in reversed(list(enumerate(header))) if h}
 
     def get(row: list[Any], name: str) -> str | None:
-        if name not in header:
-            return None
-        i = header.index(name)
-        return _clean(row[i]) if i < len(row) else None
+        i = first.get(name)
+        return _clean(row[i]) if i is not None and i < len(row) else None
 
     out = []
     for row in body:
         unit, variable = get(row, "unit"), get(row, "variable")
         if unit is None or variable is None:
             continue
-        values = {c: (_clean(row[i]) or "") for i, c in coder_cols if i < len(row)}
+        values = {c: (_clean(row[i]) or "") for i, c in columns.coders if i < len(row)}
+        extra = {h: t for i, h in columns.extra if i < len(row) and (t := _clean(row[i]))}
         out.append(
             AdjudicationRow(
                 unit=unit,
@@ -247,13 +362,23 @@ def _rows_from(
                 adjudicator=get(row, "adjudicator"),
                 reason=get(row, "reason"),
                 check=get(row, "check"),
+                extra=extra,
             )
         )
     return out
 
 
-def read_adjudication(path: str | os.PathLike[str], codebook: Codebook) -> Adjudication:
-    """Read an earlier adjudication list (xlsx or csv) with its decisions, as an object."""
+def read_adjudication(
+    path: str | os.PathLike[str], codebook: Codebook, coders: Collection[str] = ()
+) -> Adjudication:
+    """Read an earlier adjudication list (xlsx or csv) with its decisions, as an object.
+
+    ``coders``: the coders of the data now (their columns are coders' columns wherever the
+    header convention allows, see :func:`list_columns`). Columns an adjudicator added are kept
+    on the rows (:attr:`AdjudicationRow.extra`) with one ``kept-column`` warning each; two
+    columns of one header (``duplicate-list-column``) and two rows of one cell
+    (``duplicate-list-row``) raise :class:`DataProblems`, so nothing is written over them.
+    """
     path = Path(path)
     tables = _read_tables(path)
     known_text = _known_text(tables, codebook)
@@ -265,26 +390,48 @@ def read_adjudication(path: str | os.PathLike[str], codebook: Codebook) -> Adjud
             "decisions cannot be read; nothing was written - restore the header row or choose "
             "another output"
         )
-    added = _added_columns(tables, codebook)
-    if added:
-        raise InputRefused(
-            f"{path.name!r} has column(s) coderel does not keep when it writes the list again: "
-            f"{', '.join(map(repr, added))}; move their content to the 'note' column (or delete "
-            "them) and run again; nothing was written"
-        )
-    coders = _about_coders(tables)
-    rows = _rows_from(header, body, known_text, coders)
-    _refuse_duplicates(path, header, body, numbers)
+    about = _about_coders(tables)
+    named, complete = (about or set()) | set(coders), about is not None
+    csv_form = path.suffix.lower() == ".csv"
+    rh, rb, _ = tables.get(RETIRED_SHEET, ([], [], []))
+    # a csv list is one table (both lists share its header): its columns are told apart once
+    columns = list_columns(
+        header, body + rb if csv_form else body, codebook, known_text, named, complete=complete
+    )
+    problems = column_problems(path, MAIN_SHEET, columns)
+    rows = _rows_from(header, body, columns)
     retired: list[AdjudicationRow] = []
+    retired_columns = None
     if RETIRED_SHEET in tables:
-        rh, rb, _ = tables[RETIRED_SHEET]
-        retired = _rows_from(rh, rb, known_text)  # may hold coders no longer in the data
-    coders = [c for r in rows for c in r.values]
+        # may hold coders no longer in the data
+        retired_columns = (
+            columns
+            if csv_form
+            else list_columns(rh, rb, codebook, known_text, named)  # coders of earlier lists
+        )
+        if not csv_form:
+            problems.extend(column_problems(path, RETIRED_SHEET, retired_columns))
+        retired = _rows_from(rh, rb, retired_columns)
+    problems.extend(duplicate_rows(path, header, body, numbers))
+    if problems:
+        raise DataProblems(
+            f"{path.name!r} has {len(problems)} duplicated row(s) or column(s); nothing was "
+            "written, so no decision or note is lost",
+            problems=problems,
+        )
+    kept = kept_column_problems(path, MAIN_SHEET, columns.extra)
+    extra = [h for _, h in columns.extra]
+    if retired_columns is not None:
+        more = [(i, h) for i, h in retired_columns.extra if h not in extra]
+        kept.extend(kept_column_problems(path, RETIRED_SHEET, more))
+        extra += [h for _, h in more]
     return Adjudication(
         codebook=codebook,
-        coders=tuple(dict.fromkeys(coders)),
+        coders=tuple(dict.fromkeys(c for r in rows for c in r.values)),
         rows=tuple(rows),
         retired=tuple(retired),
+        problems=kept,
+        extra_columns=tuple(extra),
     )
 
 
@@ -321,23 +468,15 @@ def duplicate_rows(
     return problems
 
 
-def _refuse_duplicates(
-    path: Path, header: list[str], body: list[list[Any]], numbers: list[int]
-) -> None:
-    problems = duplicate_rows(path, header, body, numbers)
-    if problems:
-        raise DataProblems(
-            f"{path.name!r} has {len(problems)} duplicated row(s); nothing was written, so no "
-            "decision or note is lost",
-            problems=problems,
-        )
-
-
-def read_decisions(path: str | os.PathLike[str], codebook: Codebook) -> Decisions:
+def read_decisions(
+    path: str | os.PathLike[str], codebook: Codebook, coders: Collection[str] = ()
+) -> Decisions:
     """Read the decisions of an adjudication list (sheet ``to decide`` of xlsx, or csv).
 
     Every filled ``decision`` cell is parsed for its variable; an invalid one becomes a
-    ``bad-decision`` problem with its cell reference (``H14``) and is left out.
+    ``bad-decision`` problem with its cell reference (``H14``) and is left out. Two columns of
+    one header are ``duplicate-list-column`` errors and no decision is read; columns an
+    adjudicator added are not coders (see :func:`list_columns`; ``coders``: the data's now).
     """
     path = Path(path)
     tables = _read_tables(path)
@@ -355,7 +494,15 @@ def read_decisions(path: str | os.PathLike[str], codebook: Codebook) -> Decision
         source = SourceFile(str(path), sha256_file(path), path.stat().st_size)
         return Decisions({}, problems, source)
     icol = {name: header.index(name) for name in header if name}
-    coder_cols = _coder_columns(header, _known_text(tables, codebook), _about_coders(tables))
+    about = _about_coders(tables)
+    named = (about or set()) | set(coders)
+    known = _known_text(tables, codebook)
+    columns = list_columns(header, body, codebook, known, named, complete=about is not None)
+    if columns.duplicates:
+        problems.extend(column_problems(path, MAIN_SHEET, columns))
+        source = SourceFile(str(path), sha256_file(path), path.stat().st_size)
+        return Decisions({}, problems, source)
+    coder_cols = columns.coders
     dcol = column_letter(icol["decision"] + 1)
     sheet = MAIN_SHEET if path.suffix.lower() == ".xlsx" else None
 

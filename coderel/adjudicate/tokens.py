@@ -22,6 +22,9 @@ Kind = Literal["values differ", "applies?", "no value"]
 NA_TOKEN: Token = ("na", None)
 BLANK_TOKEN: Token = ("blank", None)
 NOT_APPLICABLE = "not applicable"
+#: How the list shows a blank entry, and the empty set of a multi-select without a 'none' code.
+BLANK_SHOWN = "(blank)"
+NONE_SHOWN = "(none)"
 
 
 def _absent(value: Any) -> bool:
@@ -98,12 +101,12 @@ def display_token(var: Variable, token: Token) -> str:
     if kind == "na":
         return NOT_APPLICABLE
     if kind == "blank":
-        return "(blank)"
+        return BLANK_SHOWN
     if kind == "missing":
         return var.display(value)
     if var.multiple:
         if not value:  # the coded empty set ("none of these")
-            return var.display(var.none_code) if var.none is not None else "(none)"
+            return var.display(var.none_code) if var.none is not None else NONE_SHOWN
         return "; ".join(var.display(c) for c in value)
     if var.is_numeric:
         return format_number(var, value)

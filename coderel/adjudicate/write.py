@@ -54,6 +54,7 @@ def write_adjudication(adjudication: Adjudication, path: str | os.PathLike[str])
                 adjudication.coders,
                 text_columns=adjudication.text_columns,
                 narratives=adjudication.narratives,
+                extra_columns=adjudication.extra_columns,
             ),
             path,
         )
@@ -76,11 +77,12 @@ def _write_workbook(adj: Adjudication, path: str | os.PathLike[str]) -> None:
     wb = Workbook()
     ws = wb.active
     ws.title = MAIN_SHEET
-    headers = main_columns(adj.coders, adj.text_columns)
+    headers = main_columns(adj.coders, adj.text_columns, adj.extra_columns)
     ws.append([cell_value(h) for h in headers])  # a coder named =HYPERLINK(...) stays text
     for cell in ws[1]:
         cell.font = Font(bold=True)
-    editable = {headers.index(n) + 1 for n in ("decision", "note", "adjudicator", "check")}
+    mine = ("decision", "note", "adjudicator", "check", *adj.extra_columns)
+    editable = {headers.index(n) + 1 for n in mine}
     text_idx = {headers.index(c) + 1 for c in adj.text_columns}
     fill = PatternFill("solid", start_color=_GROUP_FILL, end_color=_GROUP_FILL)
     check_fill = PatternFill("solid", start_color=_CHECK_FILL, end_color=_CHECK_FILL)
@@ -157,7 +159,7 @@ def _write_workbook(adj: Adjudication, path: str | os.PathLike[str]) -> None:
 
     retired_ws = wb.create_sheet(RETIRED_SHEET)
     rcoders = retired_coders(adj)
-    rcols = retired_columns(rcoders)
+    rcols = retired_columns(rcoders, adj.extra_columns)
     frame = pd.DataFrame([row_record(r, rcoders) for r in adj.retired], columns=rcols)
     fill_sheet(retired_ws, frame, width=40)
 
