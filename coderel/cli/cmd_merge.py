@@ -75,7 +75,7 @@ def merge_command(
         errors_note="count as blank (a blank against a value is a disagreement to adjudicate)",
     )
     cb = codings.codebook
-    loaded = read_decisions(decisions, cb) if decisions is not None else None
+    loaded = read_decisions(decisions, cb, codings.coders) if decisions is not None else None
     tolerances = parse_tolerances(tolerance or [], cb)
     result = merge(codings, loaded, rule=rule, tolerance=tolerances)
     bad = Problems(result.problems.errors)

@@ -185,7 +185,7 @@ def merge(
     cb = codings.codebook
     columns = output_columns(cb)
     if decisions is not None and not isinstance(decisions, Decisions):
-        decisions = read_decisions(decisions, cb)
+        decisions = read_decisions(decisions, cb, codings.coders)
     problems = Problems()
     if decisions is not None:
         problems.extend(decisions.problems)
