@@ -242,3 +242,20 @@ def test_adjudicate_and_merge_at_the_command_line(tmp_path):
     proc = _run("merge", "-c", cb, sheets, "--decisions", adj, "-o", merged, "--json")
     assert proc.returncode == 0, proc.stderr.decode()
     assert json.loads(proc.stdout)["status_counts"]["animal"]["adjudicated"] == 2
+
+
+def test_a_long_note_in_a_csv_list_is_read_and_kept(tmp_path):
+    """Issue 12, item 9: a note longer than the csv module's default field limit (131,072
+    characters) in a decisions csv is read (the limit is the project's text limit)."""
+    out = tmp_path / "adj.csv"
+    write_adjudication(build_adjudication(codings(DATA)), out)
+    rows = _csv(out)
+    header = rows[0]
+    note = "The ranger's account, read again. " * 6_000  # 204,000 characters
+    for row in rows[1:]:
+        if row[header.index("variable")] == "species":
+            row[header.index("decision")], row[header.index("note")] = "1", note
+    _save_csv(out, rows)
+    assert read_decisions(out, CB).get("R1", "species").note == note
+    adj = build_adjudication(codings(DATA), out)
+    assert {r.note for r in adj.rows if r.variable == "species"} == {note}
