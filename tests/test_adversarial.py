@@ -950,7 +950,7 @@ def test_write_templates_takes_one_name_as_it_is(tmp_path):
 
 
 # ---- the adjudicator added a column ('my comment') to the list: every decided row was reported as
-# ---- a stale decision, and the next adjudicate run dropped the column with its text ---------------
+# ---- a stale decision, and the next adjudicate run dropped the column with its text (now kept) ----
 def test_column_added_to_the_list_is_neither_a_coder_nor_silently_dropped(tmp_path):
     from openpyxl import load_workbook
 
@@ -981,20 +981,17 @@ def test_column_added_to_the_list_is_neither_a_coder_nor_silently_dropped(tmp_pa
     doc = json.loads(merged.stdout)
     assert doc["totals"]["adjudicated"] == 2
     assert [p["code"] for p in doc["problems"]] == []
-    # adjudicate again: refused while the added column holds text (it would be lost), file kept.
-    before = _sha(listing)
-    again = runner.invoke(app, args)
-    assert again.exit_code == 3
-    assert "'my comment'" in again.output
-    assert _sha(listing) == before
-    # With the column emptied, the list is written again; decisions kept, none stale.
-    wb = load_workbook(listing)
-    wb["to decide"].cell(2, extra).value = None
-    wb.save(listing)
+    # adjudicate again: the column is kept with its text (said once), decisions kept, none stale.
     again = runner.invoke(app, args)
     assert again.exit_code == 0, again.output
     doc = json.loads(again.stdout)
-    assert (doc["decided"], doc["problems"]) == (2, [])
+    assert doc["decided"] == 2
+    assert [(p["code"], p["sheet"]) for p in doc["problems"]] == [("kept-column", "to decide")]
+    assert doc["kept_columns"] == ["my comment"]
+    ws = load_workbook(listing)["to decide"]
+    header = [c.value for c in ws[1]]
+    assert header[-1] == "my comment"
+    assert [row[-1].value for row in ws.iter_rows(min_row=2)] == ["checked twice", None]
 
 
 def test_renamed_main_sheet_of_the_list_says_how_to_recover(tmp_path):
