@@ -9,15 +9,26 @@ from typing import Any
 import numpy as np
 
 from coderel.agree.conventions import MIN_UNITS_FOR_INTERVAL, THIN_DATA
-from coderel.agree.matrices import build_targets
+from coderel.agree.matrices import Target, build_targets
 from coderel.agree.numeric import attach as attach_numeric
 from coderel.agree.results import AgreementResult
 from coderel.agree.variable_row import variable_row
+from coderel.codebook import Codebook
 from coderel.codings import Codings
 from coderel.errors import UsageError
-from coderel.stats.bootstrap import DEFAULT_MEMORY, SCHEMES, evaluate_plans, make_weights
+from coderel.stats.bootstrap import (
+    DEFAULT_MEMORY,
+    SCHEMES,
+    Evaluated,
+    evaluate_plans,
+    make_weights,
+)
 from coderel.stats.intervals import INTERVAL_METHODS
 from coderel.stats.plan import build_plan
+
+#: Sums every plan's contributions with the unit weights: ``evaluate(plans, weights, *,
+#: progress, memory)`` -> one dict of :class:`Evaluated` per plan.
+Evaluator = Callable[..., list[dict[str, Evaluated]]]
 
 
 def check_settings(
@@ -93,11 +104,50 @@ def agreement(
     974-977.
     """
     check_settings(replicates, seed, ci_level, interval_method, bootstrap)
-    cb = codings.codebook
     coders = codings.coders
     units = codings.units
+    targets = build_targets(codings, coders, units)
+    return agreement_of_targets(
+        codings.codebook,
+        targets,
+        units,
+        coders,
+        replicates=replicates,
+        seed=seed,
+        ci_level=ci_level,
+        interval_method=interval_method,
+        icc_ordinal=icc_ordinal,
+        progress=progress,
+        bootstrap=bootstrap,
+        memory=memory,
+    )
+
+
+def agreement_of_targets(
+    cb: Codebook,
+    targets: list[Target],
+    units: list[str],
+    coders: list[str],
+    *,
+    replicates: int,
+    seed: int,
+    ci_level: float,
+    interval_method: str,
+    icc_ordinal: bool = False,
+    progress: Callable[[int, int], None] | None = None,
+    bootstrap: str = "poisson",
+    memory: int = DEFAULT_MEMORY,
+    evaluate: Evaluator = evaluate_plans,
+) -> AgreementResult:
+    """:func:`agreement` from the rows to compute (:func:`coderel.agree.matrices.build_targets`).
+
+    ``evaluate`` sums the plans' contributions with the unit weights (``evaluate_plans`` in this
+    process, or the same sums made partition-wise by :mod:`coderel.engine`); everything else is
+    the same code for every engine.
+    """
+    check_settings(replicates, seed, ci_level, interval_method, bootstrap)
     # Each row over the coders who coded it (a coder of other variables is not one of them).
-    targets = [t.own() for t in build_targets(codings, coders, units)]
+    targets = [t.own() for t in targets]
     plans = [build_plan(t.x, t.scale, icc_ordinal=icc_ordinal) for t in targets]
     n_rows = len(plans)
     steps = [0]  # steps of the bootstrap, then one per variable's row
@@ -111,7 +161,7 @@ def agreement(
     # coefficient: a unit without values for a variable contributes nothing to its sums.
     try:
         weights = make_weights(units, replicates, seed, bootstrap)
-        evaluated_all = evaluate_plans(plans, weights, progress=step, memory=memory)
+        evaluated_all = evaluate(plans, weights, progress=step, memory=memory)
     except MemoryError:
         raise UsageError(
             f"not enough memory for {replicates:,} bootstrap replicates over {len(units):,} "

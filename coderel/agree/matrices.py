@@ -3,6 +3,7 @@ variable's applicability): the rows to compute."""
 
 from __future__ import annotations
 
+from collections.abc import Iterable
 from dataclasses import dataclass, replace
 from typing import Any
 
@@ -10,7 +11,7 @@ import numpy as np
 import pandas as pd
 
 from coderel.agree.conventions import APPLIES_SUFFIX
-from coderel.codebook import Variable
+from coderel.codebook import Codebook, Variable
 from coderel.codebook.model import Thresholds
 from coderel.codings import Codings
 from coderel.stats.plan import Scale
@@ -74,6 +75,18 @@ def build_index(codings: Codings, coders: list[str], units: list[str]) -> UnitIn
     )
 
 
+def canonical_sets(sets: Iterable[frozenset], var: Variable) -> tuple[frozenset, ...]:
+    """Distinct code sets of a multi-select variable in one canonical order (by size, then by the
+    codebook's order of their codes), whatever the order in which rows arrive."""
+    position = {code: i for i, code in enumerate(var.codes)}
+    return tuple(
+        sorted(
+            set(sets),
+            key=lambda c: (len(c), sorted(position.get(v, len(position)) for v in c)),
+        )
+    )
+
+
 def value_matrix(
     ix: UnitIndex, var: Variable, n_units: int, n_coders: int
 ) -> tuple[np.ndarray, Scale]:
@@ -88,13 +101,7 @@ def value_matrix(
         values = [frozenset(v) for v in values]
         # Distinct sets in one canonical order (by the codebook's order of their codes), so the
         # domain never depends on the order in which rows arrive.
-        position = {code: i for i, code in enumerate(var.codes)}
-        sets = tuple(
-            sorted(
-                set(values),
-                key=lambda c: (len(c), sorted(position.get(v, len(position)) for v in c)),
-            )
-        )
+        sets = canonical_sets(set(values), var)
         domain = {s: i for i, s in enumerate(sets)}
         scale = Scale("set", "nominal", len(sets), sets=sets)
     else:
@@ -119,12 +126,28 @@ def applicability_matrix(ix: UnitIndex, var: Variable, n_units: int, n_coders: i
 
 
 def build_targets(codings: Codings, coders: list[str], units: list[str]) -> list[Target]:
-    cb = codings.codebook
     ix = build_index(codings, coders, units)
     n_units, n_coders = len(units), len(coders)
+    matrices: dict[str, tuple[np.ndarray, Scale, np.ndarray | None]] = {}
+    for var in codings.codebook.variables:
+        x, scale = value_matrix(ix, var, n_units, n_coders)
+        xa = None
+        if var.applies_when is not None:
+            xa = applicability_matrix(ix, var, n_units, n_coders)
+        matrices[var.name] = (x, scale, xa)
+    return targets_of(codings.codebook, coders, matrices)
+
+
+def targets_of(
+    cb: Codebook,
+    coders: list[str],
+    matrices: dict[str, tuple[np.ndarray, Scale, np.ndarray | None]],
+) -> list[Target]:
+    """The rows to compute from each variable's units x coders matrix, scale and (for a variable
+    with ``applies_when``) applicability matrix, in codebook order."""
     out: list[Target] = []
     for var in cb.variables:
-        x, scale = value_matrix(ix, var, n_units, n_coders)
+        x, scale, xa = matrices[var.name]
         cats = tuple(var.codes) if var.is_categorical and not var.multiple else ()
         th = cb.thresholds_for(var.name)
         out.append(
@@ -132,8 +155,7 @@ def build_targets(codings: Codings, coders: list[str], units: list[str]) -> list
                 var.name, var.title, var.level, "variable", x, scale, cats, th, var, tuple(coders)
             )
         )
-        if var.applies_when is not None:
-            xa = applicability_matrix(ix, var, n_units, n_coders)
+        if var.applies_when is not None and xa is not None:
             out.append(
                 Target(
                     var.name + APPLIES_SUFFIX,

@@ -28,6 +28,7 @@ from coderel.cli.common import (
     read_project,
     say,
 )
+from coderel.cli.engines import EngineOption, SchedulerOption, agree_on_cluster, use_cluster
 from coderel.cli.occasions import IccOrdinalOption
 from coderel.errors import ExitCode
 from coderel.memory import parse_memory
@@ -140,6 +141,8 @@ def agree_command(
             "behaviour=4+5 (the first code is kept; repeatable).",
         ),
     ] = None,
+    engine: EngineOption = "local",
+    scheduler: SchedulerOption = None,
 ) -> ExitCode:
     """Every agreement coefficient per variable, with seeded bootstrap intervals."""
     from coderel.agree import agreement
@@ -149,45 +152,55 @@ def agree_command(
     check_table_output(out, data, codebook)
     if out is not None and pairs and table_format(out) != "xlsx":
         check_table_output(out.with_name(f"{out.stem}-pairs{out.suffix}"), data, codebook)
-    codings = read_project(codebook, data, errors_note="were left out (exit code 1: data problems)")
-    # Cells with errors are left out and the numbers computed without them, but the run is not
-    # clean: exit 1 (data problems), as validate does.
-    status = ExitCode.DATA_PROBLEMS if codings.problems.errors else ExitCode.OK
-    if units is not None:
-        from coderel.template import read_unit_list
-
-        listed = read_unit_list(units)
-        found = set(codings.units)
-        codings = codings.restricted_to(listed)
-        absent = sum(1 for u in listed if u not in found)
-        say(
-            f"agreement on the {len(listed):,} unit(s) of {units.name}"
-            + (f"; {absent:,} of them are in no sheet" if absent else "")
-        )
-    collapses = ()
-    if collapse:
-        from coderel.agree.collapse import parse_collapses
-
-        collapses = parse_collapses(collapse, codings.codebook)
+    errors_note = "were left out (exit code 1: data problems)"
     settings = {
         "replicates": replicates,
         "seed": seed,
         "interval_method": interval_method,
         "memory": parse_memory(memory),
     }
-    with delayed_progress("bootstrap") as progress:
-        result = agreement(codings, icc_ordinal=icc_ordinal, progress=progress, **settings)
-    what_if = None
-    if collapses:
-        from coderel.agree.collapse import what_if as collapsed_alpha
+    if use_cluster(engine, scheduler, units=units, coders=coders, collapse=collapse):
+        run = agree_on_cluster(
+            codebook, data, scheduler, icc_ordinal=icc_ordinal, errors_note=errors_note, **settings
+        )
+        status = ExitCode.DATA_PROBLEMS if run.problems.errors else ExitCode.OK
+        result, single = run.result, run.single_coded_units
+        what_if = diagnostics = None
+    else:
+        codings = read_project(codebook, data, errors_note=errors_note)
+        # Cells with errors are left out and the numbers computed without them, but the run is not
+        # clean: exit 1 (data problems), as validate does.
+        status = ExitCode.DATA_PROBLEMS if codings.problems.errors else ExitCode.OK
+        if units is not None:
+            from coderel.template import read_unit_list
 
-        with delayed_progress("bootstrap of the what-if (categories merged)"):
-            what_if = collapsed_alpha(codings, collapses, result, **settings)
-    diagnostics = None
-    if coders:
-        from coderel.agree.coders import coder_diagnostics
+            listed = read_unit_list(units)
+            found = set(codings.units)
+            codings = codings.restricted_to(listed)
+            absent = sum(1 for u in listed if u not in found)
+            say(
+                f"agreement on the {len(listed):,} unit(s) of {units.name}"
+                + (f"; {absent:,} of them are in no sheet" if absent else "")
+            )
+        collapses = ()
+        if collapse:
+            from coderel.agree.collapse import parse_collapses
 
-        diagnostics = coder_diagnostics(codings)
+            collapses = parse_collapses(collapse, codings.codebook)
+        with delayed_progress("bootstrap") as progress:
+            result = agreement(codings, icc_ordinal=icc_ordinal, progress=progress, **settings)
+        what_if = None
+        if collapses:
+            from coderel.agree.collapse import what_if as collapsed_alpha
+
+            with delayed_progress("bootstrap of the what-if (categories merged)"):
+                what_if = collapsed_alpha(codings, collapses, result, **settings)
+        diagnostics = None
+        if coders:
+            from coderel.agree.coders import coder_diagnostics
+
+            diagnostics = coder_diagnostics(codings)
+        single = codings.single_coded_units()
     if out is not None:
         extra = {"pairs": result.pairs_frame()} if pairs else {}
         if diagnostics is not None:
@@ -209,7 +222,6 @@ def agree_command(
             f"only {len(result.coders)} coder(s) ({', '.join(result.coders) or 'none'}): agreement "
             "needs at least two coders coding the same units, so every coefficient is undefined"
         )
-    single = codings.single_coded_units()
     if single:
         say(
             f"{single:,} unit(s) coded by one coder only were left out: agreement needs two or "

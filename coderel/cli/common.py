@@ -441,23 +441,29 @@ def read_project(codebook: Path, data: list[Path], *, errors_note: str) -> Codin
     cb = load_codebook(codebook)
     with delayed_progress("reading and checking the sheets") as step:
         codings = read_versioned(cb, data, progress=step)
-    refused = codings.problems.refused
+    tell_read_problems(codings.problems, errors_note=errors_note)
+    return codings
+
+
+def tell_read_problems(problems: Problems, *, errors_note: str) -> None:
+    """Stop (exit 3) when a sheet was refused; say which files were skipped as coderel's own
+    output and how many cells had errors (``errors_note``: what that means for the command)."""
+    refused = problems.refused
     if refused:
         raise InputRefused(
             "nothing was computed or written: a sheet was refused, so its coder's values would "
             "be missing",
             problems=Problems(refused),
         )
-    skipped = [p.file for p in codings.problems if p.code == "own-output"]
+    skipped = [p.file for p in problems if p.code == "own-output"]
     if skipped:
         say(
             f"not read, written by coderel (not coders' sheets): {', '.join(map(str, skipped))}; "
             "keep outputs out of the folder of coders' sheets"
         )
-    errors = len(codings.problems.errors)
+    errors = len(problems.errors)
     if errors:
         say(f"{errors} cell(s) with errors {errors_note}; run 'coderel validate' to see them")
-    return codings
 
 
 @contextmanager

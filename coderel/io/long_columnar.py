@@ -302,7 +302,7 @@ def apply_columns(
             continue
         kept, reader.problems = reader.problems, Problems()
         try:
-            ok = reader.claim(name, claimed_table, f"B{int(cols.numbers[row])}")
+            ok = reader.claim(name, claimed_table, f"B{int(cols.numbers[row])}", long=True)
         finally:
             added, reader.problems = list(reader.problems), kept
         if not ok:

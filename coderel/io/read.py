@@ -51,6 +51,7 @@ from coderel.io.archive import (
 )
 from coderel.io.atomic import sha256_file
 from coderel.io.coverage import coder_key, drop_uncoded, warn_alike_coders
+from coderel.io.long_parts import merge_long_parts
 from coderel.io.occasions import OCCASION_COLUMN, split_occasions, tag_occasions
 from coderel.io.rounds import is_round_table, tag_rounds
 from coderel.io.safe_text import restore
@@ -164,6 +165,11 @@ class _Reader:
     #: coder -> (file, sheet) that first claimed it
     owners: dict[str, tuple[str, str | None]] = field(default_factory=dict)
     refused_coders: set[tuple[str, str, str | None]] = field(default_factory=set)
+    #: long tables read so far: a coder's rows may be spread over several of them (the parts
+    #: of one dataset); repeats across parts are found by :func:`merge_long_parts`
+    long_sources: set[tuple[str, str | None]] = field(default_factory=set)
+    #: coders whose rows came from more than one long table
+    spread_coders: set[str] = field(default_factory=set)
     seen: dict[tuple[str, str, str | None], dict[Any, str]] = field(default_factory=dict)
     #: (variable, typed, type, raw) -> result: a cell's result depends on nothing else, and
     #: coded data repeat the same few values, so each distinct value is normalised once.
@@ -172,11 +178,22 @@ class _Reader:
     frames: list[pd.DataFrame] = field(default_factory=list)
 
     # ---- helpers ---------------------------------------------------------------------------
-    def claim(self, coder: str, table: RawTable, cell: str | None = None) -> bool:
-        """May ``table`` hold rows of ``coder``? Report ``duplicate-coder`` once otherwise."""
+    def claim(
+        self, coder: str, table: RawTable, cell: str | None = None, *, long: bool = False
+    ) -> bool:
+        """May ``table`` hold rows of ``coder``? Report ``duplicate-coder`` once otherwise.
+
+        A coder belongs to one file or sheet, except that long tables (``long``) are parts of
+        one dataset: a coder first seen in a long table may have rows in every long table.
+        """
         source = (table.file, table.sheet)
+        if long:
+            self.long_sources.add(source)
         owner = self.owners.setdefault(coder, source)
         if owner == source:
+            return True
+        if long and owner in self.long_sources:
+            self.spread_coders.add(coder)
             return True
         key = (coder, table.file, table.sheet)
         if key not in self.refused_coders:
@@ -622,7 +639,7 @@ class _Reader:
                 )
                 continue
             if self.owners.get(coder) != source and not self.claim(
-                coder, table, table.cell_ref(1, row.number)
+                coder, table, table.cell_ref(1, row.number), long=True
             ):
                 continue
             variable_name = by_fold_var.get(name.casefold()) if name else None
@@ -1064,6 +1081,8 @@ def read_codings(
         frame = pd.concat([*reader.frames, frame], ignore_index=True)
     frame = frame.astype(object)
     frame = frame.where(frame.notna(), None) if len(frame) else frame
+    if reader.spread_coders:
+        frame = merge_long_parts(frame, reader.spread_coders, reader.problems)
     frame = drop_uncoded(frame, reader.problems)  # one rule for every path: see io/coverage.py
     step(len(files) + 1)
     occasions = None

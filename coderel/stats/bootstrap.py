@@ -43,7 +43,7 @@ import hashlib
 import math
 from collections.abc import Callable, Iterable, Sequence
 from dataclasses import dataclass
-from typing import Literal
+from typing import Any, Literal
 
 import numpy as np
 from scipy import sparse
@@ -218,33 +218,71 @@ class Evaluated:
     jackknife: np.ndarray
 
 
+def contributing_rows(plan: Plan) -> np.ndarray:
+    """Positions of the units with a non-zero contribution (the jackknife's units)."""
+    c = plan.contributions
+    if not c.shape[1]:
+        return np.array([], int)
+    return np.flatnonzero(c.getnnz(axis=1) if sparse.issparse(c) else np.any(c != 0, axis=1))
+
+
+def jackknife_rows(plan: Plan, total: np.ndarray, own: Any) -> dict[str, np.ndarray]:
+    """Leave-one-out values of every formula for units whose contributions are the rows of
+    ``own`` (dense or sparse): ``formula(total - own)``."""
+    jack_sums = total[None, :] - (own.toarray() if sparse.issparse(own) else own)
+    return {name: np.asarray(formula(jack_sums), float) for name, formula in plan.formulas.items()}
+
+
 def _jackknife(plan: Plan, total: np.ndarray, block: int) -> dict[str, np.ndarray]:
     """Leave-one-out values of every formula over the units that contribute, in unit blocks."""
-    c = plan.contributions
-    thin = sparse.issparse(c)
-    if not c.shape[1]:
-        rows = np.array([], int)
-    else:
-        rows = np.flatnonzero(c.getnnz(axis=1) if thin else np.any(c != 0, axis=1))
+    rows = contributing_rows(plan)
     parts: dict[str, list[np.ndarray]] = {name: [] for name in plan.formulas}
     for start in range(0, len(rows), block):
-        own = c[rows[start : start + block]]
-        jack_sums = total[None, :] - (own.toarray() if thin else own)
-        for name, formula in plan.formulas.items():
-            parts[name].append(np.asarray(formula(jack_sums), float))
+        values = jackknife_rows(plan, total, plan.contributions[rows[start : start + block]])
+        for name in plan.formulas:
+            parts[name].append(values[name])
+    return joined(parts)
+
+
+def joined(parts: dict[str, list[np.ndarray]]) -> dict[str, np.ndarray]:
+    """Each formula's jackknife values of consecutive blocks, joined in order."""
     return {
         name: np.concatenate(chunks) if chunks else np.empty(0) for name, chunks in parts.items()
     }
 
 
-def _evaluate(plan: Plan, sums: np.ndarray | None, block: int) -> dict[str, Evaluated]:
+def evaluated(
+    plan: Plan, sums: np.ndarray | None, jack: dict[str, np.ndarray]
+) -> dict[str, Evaluated]:
+    """Point value (all weights 1), replicate values (formulas over ``sums``, R x M) and the
+    jackknife values of every formula of a plan."""
     total = column_sums(plan.contributions)
-    jack = _jackknife(plan, total, block)
     out: dict[str, Evaluated] = {}
     for name, formula in plan.formulas.items():
         point = float(formula(total[None, :])[0])
         reps = formula(sums) if sums is not None else np.empty(0)
         out[name] = Evaluated(point, np.asarray(reps, float), jack[name])
+    return out
+
+
+def _evaluate(plan: Plan, sums: np.ndarray | None, block: int) -> dict[str, Evaluated]:
+    total = column_sums(plan.contributions)
+    return evaluated(plan, sums, _jackknife(plan, total, block))
+
+
+def block_products(contributions: Sequence[Any], w: np.ndarray) -> list[np.ndarray]:
+    """``w @ c`` (R x M) for each plan's contributions ``c`` of one block of units (dense or
+    sparse rows), ``w`` the block's R x units weights."""
+    out = []
+    wt = None
+    for c in contributions:
+        if sparse.issparse(c):
+            # (C^T W^T)^T: scipy's fastest product, sparse rows times a C-ordered block
+            if wt is None:
+                wt = np.ascontiguousarray(w.T)
+            out.append((c.T.tocsr() @ wt).T)
+        else:
+            out.append(w @ c)
     return out
 
 
@@ -280,16 +318,9 @@ def evaluate_plans(
         for done, start in enumerate(starts, 1):
             stop = min(start + block, n_units)
             w = weights.block(start, stop)  # type: ignore[union-attr]
-            wt = None
-            for i, plan in enumerate(plans):
-                c = plan.contributions[start:stop]
-                if sparse.issparse(c):
-                    # (C^T W^T)^T: scipy's fastest product, sparse rows times a C-ordered block
-                    if wt is None:
-                        wt = np.ascontiguousarray(w.T)
-                    sums[i] += (c.T.tocsr() @ wt).T
-                else:
-                    sums[i] += w @ c  # type: ignore[operator]
+            products = block_products([p.contributions[start:stop] for p in plans], w)
+            for i, product in enumerate(products):
+                sums[i] += product
             if progress is not None:
                 progress(done, steps)
     results: list[dict[str, Evaluated]] = []
