@@ -19,6 +19,7 @@ HEAVY = (
     "matplotlib",
     "scipy",
     "dask",
+    "distributed",
     "numpy",
     "yaml",
     "jsonschema",

@@ -38,7 +38,7 @@ def use_cluster(engine: str, scheduler: str | None, **unsupported: object) -> bo
         raise UsageError("--scheduler goes with --engine dask")
     if engine != "dask":
         return False
-    given = [name for name, value in unsupported.items() if value]
+    given = [f"--{name}" for name, value in unsupported.items() if value]
     if given:
         raise UsageError(
             f"{', '.join(given)} cannot be used with --engine dask yet; use --engine local"
@@ -66,7 +66,9 @@ def agree_on_cluster(
     from coderel.codebook.load import load_codebook
     from coderel.engine.agree import agreement_on_cluster
     from coderel.engine.cluster import connect
+    from coderel.engine.partitions import dataset_files
 
+    dataset_files(data)  # refuse other files before a cluster is started
     cb = load_codebook(codebook)
     where = scheduler or "a local cluster (2 worker processes on 127.0.0.1)"
     say(f"computing on {where}")

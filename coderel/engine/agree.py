@@ -52,13 +52,20 @@ def agreement_on_cluster(
     from coderel.agree.driver import agreement_of_targets, check_settings
     from coderel.engine.assemble import assemble
     from coderel.engine.bootstrap import cluster_evaluator
-    from coderel.engine.partitions import dataset_files, file_groups, summarise, unit_keys_of
+    from coderel.engine.partitions import (
+        check_no_occasions,
+        dataset_files,
+        file_groups,
+        summarise,
+        unit_keys_of,
+    )
 
     check_settings(replicates, seed, ci_level, interval_method)
     files = [str(f) for f in dataset_files(paths)]
-    keys = client.gather(client.map(unit_keys_of, files, pure=False))
-    groups = file_groups(keys)
-    del keys
+    found = client.gather(client.map(unit_keys_of, files, pure=False))
+    check_no_occasions(files, [occasion for _, occasion in found])
+    groups = file_groups([keys for keys, _ in found])
+    del found
     cb = client.scatter(codebook, broadcast=True)
     futures = {
         client.submit(summarise, cb, [files[i] for i in g], pure=False): n

@@ -1,13 +1,16 @@
-"""The bootstrap's weighted sums and jackknife values made on the workers.
+"""The bootstrap's weighted sums made on the workers.
 
-The units are cut into the same blocks as :func:`coderel.stats.bootstrap.evaluate_plans` would
-use in this process; each task takes a run of consecutive blocks: the plans' contributions of
-those units and, for Poisson weights, only the units' 64-bit keys (each worker makes the weights
-itself, a pure function of seed, unit ID and replicate). It returns the run's R x M sums (block
-products added in block order, by :func:`block_products`) and the leave-one-out values of its
-units (:func:`jackknife_rows`). The client adds the runs' sums in unit order and joins the
-jackknife values in unit order, then applies the plans' formulas (:func:`evaluated`): the same
-functions as in this process, so the same numbers up to the rounding of adding the runs' sums.
+The units are cut into the same blocks and runs of blocks as in this process
+(:func:`coderel.stats.bootstrap.evaluate_plans`); each task is one run: the plans' contributions
+of its units and, for Poisson weights, only the units' 64-bit keys (the worker makes the weights
+itself, a pure function of seed, unit ID and replicate). It returns the run's R x M sums, made by
+:func:`run_sums`, the function this process uses. The client adds the runs' sums in unit order
+and evaluates the formulas and the jackknife as this process does, so the numbers are the same.
+
+The products run with as many BLAS threads as the client's numpy uses (threadpoolctl): OpenBLAS
+adds a product's terms in an order that depends on its thread count, so this keeps the sums
+identical to the last bit on the same kind of machine. Workers on other processors may round
+differently (differences of about 1e-16).
 """
 
 from __future__ import annotations
@@ -19,58 +22,57 @@ import numpy as np
 
 from coderel.stats.bootstrap import (
     DEFAULT_MEMORY,
+    RUN_BLOCKS,
     Evaluated,
     MatrixUnitWeights,
     PoissonUnitWeights,
     UnitWeights,
-    block_products,
     block_size,
-    contributing_rows,
-    evaluated,
-    jackknife_rows,
-    joined,
+    evaluate_plans,
     poisson_weights,
+    run_sums,
 )
-from coderel.stats.plan import Plan, column_sums
+from coderel.stats.plan import Plan
 
 if TYPE_CHECKING:
     from distributed import Client
 
-#: Runs of blocks per worker: more runs balance the load, fewer send fewer R x M sums back.
-RUNS_PER_WORKER = 2
+
+def blas_threads() -> int | None:
+    """Threads of this process's BLAS (None when threadpoolctl is not installed)."""
+    try:
+        from threadpoolctl import threadpool_info
+    except ImportError:
+        return None
+    counts = [i["num_threads"] for i in threadpool_info() if i.get("user_api") == "blas"]
+    return max(counts) if counts else None
 
 
 def _run(
-    formulas: list[dict[str, Callable]],
     contributions: list[Any],
     weights: tuple[str, np.ndarray, int],
     block: int,
-    totals: list[np.ndarray],
-    jack_rows: list[np.ndarray],
-) -> tuple[list[np.ndarray] | None, list[dict[str, np.ndarray]]]:
-    """One run of blocks on a worker: summed block products and the jackknife values."""
+    threads: int | None,
+) -> list[np.ndarray]:
+    """One run of blocks on a worker: its R x M sums per plan."""
     kind, data, replicates = weights
-    n = contributions[0].shape[0] if contributions else 0
-    sums = None
-    if replicates:
-        sums = [np.zeros((replicates, c.shape[1])) for c in contributions]
-        for start in range(0, n, block):
-            stop = min(start + block, n)
-            if kind == "poisson":
-                w = poisson_weights(data[start:stop], replicates)
-            else:
-                w = data[:, start:stop]
-            for i, product in enumerate(block_products([c[start:stop] for c in contributions], w)):
-                sums[i] += product
-    jack = []
-    for f, c, total, rows in zip(formulas, contributions, totals, jack_rows, strict=True):
-        jack.append(jackknife_rows(Plan(c, f), total, c[rows]))
-    return sums, jack
+
+    def weights_of(start: int, stop: int) -> np.ndarray:
+        if kind == "poisson":
+            return poisson_weights(data[start:stop], replicates)
+        return data[:, start:stop]
+
+    if threads is None:
+        return run_sums(contributions, weights_of, replicates, block)
+    from threadpoolctl import threadpool_limits
+
+    with threadpool_limits(limits=threads, user_api="blas"):
+        return run_sums(contributions, weights_of, replicates, block)
 
 
-def cluster_evaluator(client: Client, *, runs_per_worker: int = RUNS_PER_WORKER):
+def cluster_evaluator(client: Client):
     """An ``evaluate(plans, weights, *, progress, memory)`` like
-    :func:`coderel.stats.bootstrap.evaluate_plans`, made on the workers of ``client``."""
+    :func:`coderel.stats.bootstrap.evaluate_plans` whose sums are made on ``client``'s workers."""
 
     def evaluate(
         plans: Sequence[Plan],
@@ -85,50 +87,41 @@ def cluster_evaluator(client: Client, *, runs_per_worker: int = RUNS_PER_WORKER)
         width = max((p.contributions.shape[1] for p in plans), default=1)
         replicates = weights.replicates if weights is not None else 0
         block = block_size(replicates, width, memory)
-        n_blocks = max(1, -(-n_units // block))
-        workers = max(1, len(client.scheduler_info().get("workers", {})))
-        per_run = -(-n_blocks // min(n_blocks, workers * runs_per_worker)) * block
-        totals = [column_sums(p.contributions) for p in plans]
-        jack_all = [contributing_rows(p) for p in plans]
-        formulas = client.scatter([dict(p.formulas) for p in plans], broadcast=True)
+        run = block * RUN_BLOCKS
+        starts = list(range(0, n_units, run)) if replicates else []
+        threads = blas_threads()
         futures = {}
-        starts = list(range(0, n_units, per_run)) if n_units else []
         for start in starts:
-            stop = min(start + per_run, n_units)
+            stop = min(start + run, n_units)
             if isinstance(weights, PoissonUnitWeights):
                 spec = ("poisson", weights.keys[start:stop], replicates)
             elif isinstance(weights, MatrixUnitWeights):
                 spec = ("matrix", weights.matrix[:, start:stop], replicates)
             else:
-                spec = ("none", np.empty(0), 0)
-            rows = [r[(r >= start) & (r < stop)] - start for r in jack_all]
+                raise TypeError(f"no cluster form of {type(weights).__name__}")
             payload = client.scatter([p.contributions[start:stop] for p in plans])
-            fut = client.submit(
-                _run, formulas, payload, spec, block, totals, rows, pure=False, priority=-start
-            )
+            fut = client.submit(_run, payload, spec, block, threads, pure=False)
             futures[fut] = start
-        results: dict[int, Any] = {}
+        results: dict[int, list[np.ndarray]] = {}
+        steps = len(starts) + len(plans)
         for done, fut in enumerate(as_completed(futures), 1):
             results[futures[fut]] = fut.result()
             fut.release()
             if progress is not None:
-                progress(done, len(starts) + len(plans))
-        sums: list[np.ndarray | None] = [None] * len(plans)
-        if replicates:
-            sums = [np.zeros((replicates, p.contributions.shape[1])) for p in plans]
-        parts: list[dict[str, list[np.ndarray]]] = [{k: [] for k in p.formulas} for p in plans]
+                progress(done, steps)
+        sums = [np.zeros((replicates, p.contributions.shape[1])) for p in plans]
         for start in starts:  # unit order, whatever order the runs finished in
-            run_sums, run_jack = results.pop(start)
-            for i in range(len(plans)):
-                if run_sums is not None:
-                    sums[i] += run_sums[i]  # type: ignore[operator]
-                for name, values in run_jack[i].items():
-                    parts[i][name].append(values)
-        out = []
-        for i, plan in enumerate(plans):
-            out.append(evaluated(plan, sums[i], joined(parts[i])))
+            for i, part in enumerate(results.pop(start)):
+                sums[i] += part
+
+        def done_plan(done: int, _total: int) -> None:
             if progress is not None:
-                progress(len(starts) + i + 1, len(starts) + len(plans))
-        return out
+                progress(len(starts) + done, steps)
+
+        # The formulas and the jackknife on the client, by the in-process function with the
+        # sums already made: the weights of no unit are needed any more.
+        return evaluate_plans(
+            plans, None, sums=sums if replicates else None, progress=done_plan, memory=memory
+        )
 
     return evaluate

@@ -56,7 +56,7 @@ def connect(scheduler: str | None, workers: int = LOCAL_WORKERS) -> Iterator[Cli
             threads_per_worker=1,
             processes=True,
             host="127.0.0.1",
-            dashboard_address=None,
+            dashboard_address="127.0.0.1:0",
         ) as cluster,
         Client(cluster) as client,
     ):

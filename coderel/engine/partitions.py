@@ -24,6 +24,7 @@ import numpy as np
 
 from coderel.codebook import Codebook
 from coderel.errors import UsageError
+from coderel.io.occasions import OCCASION_COLUMN
 from coderel.problems import Problems
 from coderel.stats.plan import Scale
 
@@ -46,8 +47,9 @@ def dataset_files(paths: Sequence[Path]) -> list[Path]:
     return files
 
 
-def unit_keys_of(path: str) -> np.ndarray:
-    """Distinct 64-bit keys of a long Parquet table's unit IDs, as the reader reads the IDs.
+def unit_keys_of(path: str) -> tuple[np.ndarray, bool]:
+    """Distinct 64-bit keys of a long Parquet table's unit IDs, as the reader reads the IDs, and
+    whether the table has an ``occasion`` column.
 
     A file that is not a long table gives no keys (the reader reports it when the group is read).
     """
@@ -58,18 +60,32 @@ def unit_keys_of(path: str) -> np.ndarray:
     from coderel.io.text_tables import _header_text
     from coderel.stats.bootstrap import unit_keys
 
+    none = np.empty(0, dtype=np.uint64)
     try:
         schema = pq.read_schema(path)
-        names = [n for n in schema.names if _header_text(n).casefold() == LONG_HEADER[0]]
+        folded = [_header_text(n).casefold() for n in schema.names]
+        occasion = OCCASION_COLUMN in folded
+        names = [n for n, f in zip(schema.names, folded, strict=True) if f == LONG_HEADER[0]]
         if len(names) != 1:
-            return np.empty(0, dtype=np.uint64)
+            return none, occasion
         column = pq.read_table(path, columns=names).column(0)
     except Exception:  # damaged: the reader reports it
-        return np.empty(0, dtype=np.uint64)
+        return none, False
     values, _ = _encode(column)
     cells, _ = _python_cells(values, column.type)
     texts = {t for t in map(_text_of, cells) if t is not None}
-    return np.unique(unit_keys(sorted(texts), _GROUP_SEED))
+    return np.unique(unit_keys(sorted(texts), _GROUP_SEED)), occasion
+
+
+def check_no_occasions(files: Sequence[str], occasions: Sequence[bool]) -> None:
+    """Refuse test-retest data: which occasion is a coder's first is decided over all of the
+    coder's rows, not per group of units."""
+    named = [Path(f).name for f, has in zip(files, occasions, strict=True) if has]
+    if named:
+        raise UsageError(
+            f"--engine dask does not read the occasion column yet ({', '.join(named[:3])}); "
+            "use --engine local for test-retest data"
+        )
 
 
 def file_groups(keys: Sequence[np.ndarray]) -> list[list[int]]:

@@ -286,6 +286,34 @@ def block_products(contributions: Sequence[Any], w: np.ndarray) -> list[np.ndarr
     return out
 
 
+#: Blocks of units per run: a run's block products are added up from zero, then the runs' sums
+#: are added in unit order. The same order on one machine or many (a worker makes one run), so
+#: the sums do not depend on the engine or the number of workers.
+RUN_BLOCKS = 8
+
+
+def run_sums(
+    contributions: Sequence[Any],
+    weights_of: Callable[[int, int], np.ndarray],
+    replicates: int,
+    block: int,
+    step: Callable[[], None] | None = None,
+) -> list[np.ndarray]:
+    """R x M sums of one run of units: the plans' contributions of these units (dense or sparse
+    rows) times their weights (``weights_of(start, stop)``, positions within the run), block by
+    block, each block's product added in order."""
+    n = contributions[0].shape[0] if contributions else 0
+    sums = [np.zeros((replicates, c.shape[1])) for c in contributions]
+    for start in range(0, n, block):
+        stop = min(start + block, n)
+        products = block_products([c[start:stop] for c in contributions], weights_of(start, stop))
+        for i, product in enumerate(products):
+            sums[i] += product
+        if step is not None:
+            step()
+    return sums
+
+
 def evaluate_plans(
     plans: Sequence[Plan],
     weights: UnitWeights | np.ndarray | None,
@@ -293,14 +321,17 @@ def evaluate_plans(
     progress: Progress | None = None,
     memory: int = DEFAULT_MEMORY,
     block_units: int | None = None,
+    sums: Sequence[np.ndarray] | None = None,
 ) -> list[dict[str, Evaluated]]:
     """Point, bootstrap and jackknife values of every coefficient of every plan.
 
     The units are walked in blocks: each block's weights (R x block) are made once and multiplied
     with every plan's contributions of those units, the products adding up to the R x M sums of
-    each plan. ``block_units`` (else chosen from ``memory`` bytes) sets the block; the results do
-    not depend on it beyond floating-point rounding of the sums. ``progress(done, total)`` is
-    called after each block of units and each plan's formulas.
+    each plan, in runs of :data:`RUN_BLOCKS` blocks (:func:`run_sums`). ``block_units`` (else
+    chosen from ``memory`` bytes) sets the block; the results do not depend on it beyond
+    floating-point rounding of the sums. ``progress(done, total)`` is called after each block of
+    units and each plan's formulas. ``sums`` (one R x M array per plan, made elsewhere from the
+    same weights, e.g. on a cluster's workers) skips the weighting.
     """
     if isinstance(weights, np.ndarray):
         weights = MatrixUnitWeights(weights)
@@ -310,19 +341,35 @@ def evaluate_plans(
     width = max((p.contributions.shape[1] for p in plans), default=1)
     replicates = weights.replicates if weights is not None else 0
     block = block_units or block_size(replicates, width, memory)
-    starts = range(0, n_units, block) if replicates else range(0)
+    if sums is not None:
+        replicates = sums[0].shape[0] if len(sums) else 0
+        block = block_units or block_size(replicates, width, memory)
+        sums = list(sums)
+        weights, starts = None, range(0)
+    else:
+        starts = range(0, n_units, block) if replicates else range(0)
+        sums = [None] * len(plans)
     steps = len(starts) + len(plans)
-    sums: list[np.ndarray | None] = [None] * len(plans)
-    if replicates:
+    if replicates and weights is not None:
         sums = [np.zeros((replicates, p.contributions.shape[1])) for p in plans]
-        for done, start in enumerate(starts, 1):
-            stop = min(start + block, n_units)
-            w = weights.block(start, stop)  # type: ignore[union-attr]
-            products = block_products([p.contributions[start:stop] for p in plans], w)
-            for i, product in enumerate(products):
-                sums[i] += product
+        done = [0]
+
+        def step() -> None:
+            done[0] += 1
             if progress is not None:
-                progress(done, steps)
+                progress(done[0], steps)
+
+        for start in range(0, n_units, block * RUN_BLOCKS):
+            stop = min(start + block * RUN_BLOCKS, n_units)
+            part = run_sums(
+                [p.contributions[start:stop] for p in plans],
+                lambda a, b, start=start: weights.block(start + a, start + b),  # type: ignore[union-attr]
+                replicates,
+                block,
+                step,
+            )
+            for i, run in enumerate(part):
+                sums[i] += run
     results: list[dict[str, Evaluated]] = []
     for i, plan in enumerate(plans):
         results.append(_evaluate(plan, sums[i], block))
