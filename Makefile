@@ -7,7 +7,7 @@ BIN := $(VENV)/bin
 STAMP := $(VENV)/.installed-test
 DEMO_OUT := demo-output
 
-.PHONY: demo test lint format bench bench-scale venv clean browser
+.PHONY: demo test lint format bench bench-scale bench-engine venv clean browser
 
 $(BIN)/python:
 	$(PYTHON) -m venv $(VENV)
@@ -46,6 +46,12 @@ SETS ?= a,b,c,d,r
 COMMANDS ?= validate,agree,merge,report
 bench-scale: $(STAMP)
 	$(BIN)/python benchmarks/bench_scale.py --sets $(SETS) --commands $(COMMANDS)
+
+# agree --engine dask (a local cluster of 2 worker processes) against the default engine on a
+# dataset partitioned by unit: LABELS=1M,5M.
+LABELS ?= 1M
+bench-engine: $(STAMP)
+	$(BIN)/python benchmarks/bench_engine.py --labels $(LABELS)
 
 demo: $(VENV)/.installed
 	bash scripts/demo.sh $(BIN)/coderel $(DEMO_OUT)

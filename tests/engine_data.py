@@ -14,9 +14,10 @@ CODEBOOK = Path(__file__).resolve().parents[1] / "sample_codebooks" / "wildlife_
 CODERS = ("ana", "ben", "cai", "dev")
 
 
-def long_table(n_units: int, seed: int = 14) -> pa.Table:
-    """unit, coder, variable, value (text) for ``n_units`` units and four coders; each coder
-    codes a unit with probability 0.9, agrees with the unit's true value with probability 0.8."""
+def long_table(n_units: int, seed: int = 14, first: int = 0) -> pa.Table:
+    """unit, coder, variable, value (text) for ``n_units`` units (IDs from ``r<first>``) and four
+    coders; each coder codes a unit with probability 0.9 and gives the unit's true value with
+    probability 0.8."""
     rng = np.random.default_rng(seed)
     n_c = len(CODERS)
     units = np.repeat(np.arange(n_units), n_c)
@@ -67,7 +68,7 @@ def long_table(n_units: int, seed: int = 14) -> pa.Table:
         keep = rng.random(n) >= 0.02  # some cells left blank
         parts.append((name, keep, values))
     parts.append(("spray_worked", sprayed, spray))
-    unit_ids = np.char.add("r", units.astype(str))
+    unit_ids = np.char.add("r", (units + first).astype(str))
     coder_ids = np.array(CODERS)[coders]
     tables = [
         pa.table(

@@ -1,0 +1,137 @@
+"""Benchmark of ``agree --engine dask`` against the in-process engine on a partitioned dataset.
+
+Generates, with a seed, a long table on the demo codebook (10 variables of every level, a
+multi-select and a conditional variable, 4 coders, ~33 labels per unit; tests/engine_data.py)
+written as Parquet parts partitioned by unit, part by part (memory bounded by one part). Then runs
+``coderel agree --json`` in a fresh process with the default engine and with ``--engine dask
+--scheduler`` on a local cluster of 2 worker processes (one thread each, 127.0.0.1) started here,
+and prints wall seconds, the command's peak resident memory, each worker's peak resident memory
+(asked of the workers) and the largest difference between the two engines' numbers (every float
+of the JSON). Run with ``make bench-engine`` (``LABELS=1M,5M``; ``--skip-local`` for sizes the
+in-process engine cannot hold). Figures are measured on whatever machine runs this; not timed tests.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import os
+import resource
+import subprocess
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+import pyarrow.parquet as pq
+
+sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
+from tests.engine_data import CODEBOOK, long_table
+
+LABELS_PER_UNIT = 33  # about, with the generator's 10% uncoded units and 2% blank cells
+#: Parts stay under the per-file limit of 2,000,000 cells (docs/limits.md): ~400,000 rows.
+UNITS_PER_PART = 12_000
+
+
+def _size(text: str) -> int:
+    text = text.strip().upper()
+    scale = {"K": 10**3, "M": 10**6}.get(text[-1], 1)
+    return int(float(text.rstrip("KM")) * scale)
+
+
+def generate(labels: int, folder: Path) -> int:
+    """Parts of ``UNITS_PER_PART`` units each; return the number of labels written."""
+    folder.mkdir(parents=True, exist_ok=True)
+    units = max(1, labels // LABELS_PER_UNIT)
+    written = 0
+    for part, first in enumerate(range(0, units, UNITS_PER_PART)):
+        n = min(UNITS_PER_PART, units - first)
+        table = long_table(n, seed=1000 + part, first=first)
+        pq.write_table(table, folder / f"part-{part:04d}.parquet")
+        written += table.num_rows
+    return written
+
+
+#: The environment as it was before a cluster was started here: distributed sets
+#: OMP_NUM_THREADS=1 (and the like) in its own process, which a command started from it would
+#: inherit (one BLAS thread instead of the machine's).
+ENVIRONMENT = dict(os.environ)
+
+
+def run(args: list[str], out: Path) -> tuple[float, float, int]:
+    """Wall seconds, peak RSS (GB) and exit code of one command in a fresh process."""
+    start = time.perf_counter()
+    with open(out, "wb") as sink:
+        proc = subprocess.Popen(args, stdout=sink, stderr=subprocess.DEVNULL, env=ENVIRONMENT)
+        _, status, usage = os.wait4(proc.pid, 0)
+    return time.perf_counter() - start, usage.ru_maxrss / 1024**2, os.waitstatus_to_exitcode(status)
+
+
+def _floats(a, b, worst: list[float]) -> None:
+    if isinstance(a, dict):
+        for k in a:
+            _floats(a[k], b[k], worst)
+    elif isinstance(a, list):
+        for x, y in zip(a, b, strict=True):
+            _floats(x, y, worst)
+    elif isinstance(a, float) and isinstance(b, float) and a == a:
+        worst[0] = max(worst[0], abs(a - b))
+    elif a != b:
+        worst[0] = float("inf")
+
+
+def _peak_gb() -> float:
+    return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024**2
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__.split("\n")[0])
+    parser.add_argument("--labels", default="1M", help="sizes, e.g. 1M,5M")
+    parser.add_argument("--replicates", type=int, default=2000)
+    parser.add_argument("--skip-local", action="store_true")
+    parser.add_argument("--keep", type=Path, default=None, help="folder to keep data in")
+    opts = parser.parse_args()
+    from distributed import Client, LocalCluster
+
+    coderel = str(Path(sys.executable).with_name("coderel"))
+    root = opts.keep or Path(tempfile.mkdtemp(prefix="coderel-engine-"))
+    print(f"{'labels':>12}  {'engine':8}{'wall s':>9}{'peak GB':>9}{'worker GB':>11}  exit")
+    for size in opts.labels.split(","):
+        folder = root / size / "data"
+        started = time.perf_counter()
+        labels = generate(_size(size), folder)
+        print(f"{labels:>12,}  {'(data)':8}{time.perf_counter() - started:>9.1f}", flush=True)
+        base = [coderel, "agree", "-c", str(CODEBOOK), str(folder), "--json"]
+        base += ["--replicates", str(opts.replicates)]
+        outputs = {}
+        if not opts.skip_local:
+            out = root / size / "local.json"
+            wall, peak, code = run(base, out)
+            outputs["local"] = out
+            print(f"{labels:>12,}  {'local':8}{wall:>9.1f}{peak:>9.2f}{'':>11}  {code}", flush=True)
+        with (
+            LocalCluster(
+                n_workers=2,
+                threads_per_worker=1,
+                processes=True,
+                host="127.0.0.1",
+                dashboard_address="127.0.0.1:0",
+            ) as cluster,
+            Client(cluster) as client,
+        ):
+            out = root / size / "dask.json"
+            args = [*base, "--engine", "dask", "--scheduler", cluster.scheduler_address]
+            wall, peak, code = run(args, out)
+            outputs["dask"] = out
+            workers = client.run(_peak_gb)
+            most = max(workers.values())
+            print(f"{labels:>12,}  {'dask':8}{wall:>9.1f}{peak:>9.2f}{most:>11.2f}  {code}")
+        if len(outputs) == 2:
+            worst = [0.0]
+            a, b = (json.loads(p.read_text()) for p in outputs.values())
+            _floats(a, b, worst)
+            print(f"{labels:>12,}  largest difference between the engines: {worst[0]:.3g}")
+
+
+if __name__ == "__main__":
+    main()
