@@ -1,6 +1,6 @@
 """A seeded long table on the demo codebook (every level of measurement, a multi-select variable,
 skip logic, missing codes and a few invalid cells), written as a dataset of Parquet files: split
-by unit (``by="unit"``) or one file per coder (``by="coder"``, so every unit is in every file)."""
+by unit (``by="unit"``), or one file per coder or per variable (every unit in many files)."""
 
 from __future__ import annotations
 
@@ -86,12 +86,12 @@ def long_table(n_units: int, seed: int = 14, first: int = 0) -> pa.Table:
 
 def write_dataset(table: pa.Table, folder: Path, by: str = "unit", parts: int = 6) -> Path:
     """The table as Parquet files in ``folder``: ``parts`` files by a hash of the unit ID, or
-    one file per coder."""
+    one file per coder or per variable (every unit in many files)."""
     folder.mkdir(parents=True, exist_ok=True)
-    if by == "coder":
-        coders = table.column("coder").to_numpy(zero_copy_only=False)
-        for c in sorted(set(coders)):
-            pq.write_table(table.filter(pa.array(coders == c)), folder / f"{c}.parquet")
+    if by in ("coder", "variable"):
+        column = table.column(by).to_numpy(zero_copy_only=False)
+        for c in sorted(set(column)):
+            pq.write_table(table.filter(pa.array(column == c)), folder / f"{c}.parquet")
         return folder
     units = table.column("unit").to_numpy(zero_copy_only=False)
     number = np.char.lstrip(units.astype(str), "r").astype(np.int64)

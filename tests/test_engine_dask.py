@@ -2,8 +2,9 @@
 
 A real ``distributed.LocalCluster`` with 2 worker processes on 127.0.0.1 computes ``agree`` on a
 generated dataset (the demo codebook: every level of measurement, a multi-select variable, skip
-logic, missing codes, a few invalid cells) written as Parquet parts, partitioned by unit and one
-file per coder (every unit in every part); the oracle is the in-process engine on the same files,
+logic, missing codes, a few invalid cells) written as Parquet parts, partitioned by unit, one file
+per coder and one per variable (every unit in several parts: the rows are repartitioned by a
+hash of the unit ID on the workers); the oracle is the in-process engine on the same files,
 itself checked against published values elsewhere (tests/test_agree_published.py). Estimates,
 intervals, standard errors and every other number agree to 1e-12 (the sums of the workers' runs
 are added in another order than one process adds its blocks: rounding only), everything else is
@@ -48,6 +49,7 @@ def dataset(tmp_path_factory):
     return {
         "unit": write_dataset(table, root / "by_unit", by="unit", parts=5),
         "coder": write_dataset(table, root / "by_coder", by="coder"),
+        "variable": write_dataset(table, root / "by_variable", by="variable"),
         "labels": table.num_rows,
     }
 
@@ -74,7 +76,7 @@ def _compare(a, b, path="", worst=None):
     return worst[0]
 
 
-@pytest.mark.parametrize("layout", ["unit", "coder"])
+@pytest.mark.parametrize("layout", ["unit", "coder", "variable"])
 def test_dask_engine_gives_the_in_process_numbers(cluster, dataset, layout):
     from coderel.agree import agreement
     from coderel.engine.agree import agreement_on_cluster
@@ -89,7 +91,8 @@ def test_dask_engine_gives_the_in_process_numbers(cluster, dataset, layout):
             client, cb, [folder], replicates=400, seed=5, icc_ordinal=True, memory=2**20
         )
     assert run.labels == len(codings.frame) > 30_000
-    assert run.groups == (5 if layout == "unit" else 1)
+    # by unit: one partition per file; else the rows repartitioned by a hash of the unit ID
+    assert run.partitions == {"unit": 5, "coder": 4, "variable": 10}[layout]
     assert len(run.problems.errors) == len(codings.problems.errors) > 0
     assert run.single_coded_units == codings.single_coded_units()
     worst = _compare(local.to_dict(pairs=True), run.result.to_dict(pairs=True))
@@ -108,7 +111,7 @@ def test_agree_command_on_a_scheduler_matches_the_default_engine(cluster, datase
     )
     assert local.exit_code == remote.exit_code == 1, remote.output  # a few invalid cells
     _compare(json.loads(local.stdout), json.loads(remote.stdout))
-    assert "group(s) of units on the workers" in remote.stderr
+    assert "partition(s) by unit on the workers" in remote.stderr
 
 
 def test_agree_starts_a_local_cluster_without_an_address(tmp_path):

@@ -91,7 +91,7 @@ def agree_on_cluster(
         )
     tell_read_problems(run.problems, errors_note=errors_note)
     say(
-        f"read {run.labels:,} label(s) from {run.files:,} file(s) in {run.groups:,} group(s) of "
-        "units on the workers"
+        f"read {run.labels:,} label(s) from {run.files:,} file(s) in {run.partitions:,} "
+        "partition(s) by unit on the workers"
     )
     return run

@@ -27,7 +27,7 @@ class ClusterRun:
     problems: Problems
     single_coded_units: int
     files: int
-    groups: int
+    partitions: int
     labels: int
 
 
@@ -56,7 +56,6 @@ def agreement_on_cluster(
         check_no_occasions,
         dataset_files,
         file_groups,
-        summarise,
         unit_keys_of,
     )
 
@@ -67,16 +66,14 @@ def agreement_on_cluster(
     groups = file_groups([keys for keys, _ in found])
     del found
     cb = client.scatter(codebook, broadcast=True)
-    futures = {
-        client.submit(summarise, cb, [files[i] for i in g], pure=False): n
-        for n, g in enumerate(groups)
-    }
-    summaries = [None] * len(groups)
+    tasks = _reading_tasks(client, cb, files, groups)
+    futures = {fut: n for n, fut in enumerate(tasks)}
+    summaries = [None] * len(tasks)
     for done, fut in enumerate(as_completed(futures), 1):
         summaries[futures[fut]] = fut.result()
         fut.release()
         if reading is not None:
-            reading(done, len(groups))
+            reading(done, len(tasks))
     problems = Problems()
     for s in summaries:
         problems.extend(s.problems)  # type: ignore[union-attr]
@@ -98,4 +95,34 @@ def agreement_on_cluster(
         memory=memory,
         evaluate=cluster_evaluator(client),
     )
-    return ClusterRun(result, problems, single, len(files), len(groups), labels)
+    return ClusterRun(result, problems, single, len(files), len(tasks), labels)
+
+
+def _reading_tasks(client: Client, cb, files: list[str], groups: list[list[int]]) -> list:
+    """One task per group of one file; the files of groups of several files (they share units)
+    repartitioned by a hash of the unit ID into as many buckets, each bucket one task. Files
+    that cannot be read column by column keep their group, read by one task."""
+    from coderel.engine.partitions import summarise
+    from coderel.engine.shuffle import bucket, is_split, split_file, summarise_bucket
+
+    tasks = [
+        client.submit(summarise, cb, [files[i] for i in g], pure=False)
+        for g in groups
+        if len(g) == 1
+    ]
+    shared = [g for g in groups if len(g) > 1]
+    if not shared:
+        return tasks
+    mixed = sorted(i for g in shared for i in g)
+    workers = max(1, len(client.scheduler_info().get("workers", {})))
+    n = max(len(mixed), 2 * workers)
+    splits = [client.submit(split_file, files[i], n, pure=False) for i in mixed]
+    if not all(client.gather([client.submit(is_split, f, pure=False) for f in splits])):
+        del splits
+        return tasks + [
+            client.submit(summarise, cb, [files[i] for i in g], pure=False) for g in shared
+        ]
+    for j in range(n):
+        pieces = [client.submit(bucket, f, j, pure=False) for f in splits]
+        tasks.append(client.submit(summarise_bucket, cb, pieces, pure=False))
+    return tasks

@@ -136,10 +136,15 @@ class Summary:
 def summarise(codebook: Codebook, files: list[str]) -> Summary:
     """Read one group of files with the in-process reader and summarise it per unit (a task run
     on a worker)."""
-    from coderel.agree.matrices import applicability_matrix, build_index, value_matrix
     from coderel.io.read import read_codings
 
-    codings = read_codings(codebook, [Path(f) for f in files])
+    return summarise_codings(codebook, read_codings(codebook, [Path(f) for f in files]))
+
+
+def summarise_codings(codebook: Codebook, codings) -> Summary:
+    """The per-unit summary of the codings of a group of units."""
+    from coderel.agree.matrices import applicability_matrix, build_index, value_matrix
+
     units, coders = codings.units, codings.coders
     ix = build_index(codings, coders, units)
     matrices: dict[str, tuple[np.ndarray, Scale, np.ndarray | None]] = {}

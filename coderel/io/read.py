@@ -1076,6 +1076,30 @@ def read_codings(
                 SourceFile(path=str(path), sha256=sha256_file(path), size=path.stat().st_size)
             )
         step(done)
+    return _assemble(codebook, reader, sources, lambda k: step(len(files) + k))
+
+
+def read_long_parts(codebook: Codebook, parts: Sequence[Any]) -> Codings:
+    """Codings from long tables already read column by column, in reading order: the parts of one
+    dataset, e.g. the rows of a group of units gathered from several files on a cluster's worker
+    (:mod:`coderel.engine.shuffle`). Values and problems (with each row's own file and cell) are
+    those of :func:`read_codings` on the files, for these rows. ``parts`` are
+    :class:`coderel.io.long_columnar.Columns`."""
+    from coderel.io import long_columnar
+
+    reader = _Reader(codebook)
+    for cols in parts:
+        long_columnar.apply_columns(reader, cols, _text_of, _closest)
+    return _assemble(codebook, reader, [], lambda _k: None)
+
+
+def _assemble(
+    codebook: Codebook,
+    reader: _Reader,
+    sources: list[SourceFile],
+    step: Callable[[int], None],
+) -> Codings:
+    """The long table from everything read: parts merged, whole-table checks, Codings."""
     frame = pd.DataFrame(reader.records, columns=RECORD_COLUMNS)
     if reader.frames:
         frame = pd.concat([*reader.frames, frame], ignore_index=True)
@@ -1084,18 +1108,18 @@ def read_codings(
     if reader.spread_coders:
         frame = merge_long_parts(frame, reader.spread_coders, reader.problems)
     frame = drop_uncoded(frame, reader.problems)  # one rule for every path: see io/coverage.py
-    step(len(files) + 1)
+    step(1)
     occasions = None
     if len(frame):
         frame = reader.check_skip_logic(frame)
         frame, occasions = split_occasions(frame, reader.problems)
         warn_alike_coders(frame, reader.problems)
         reader.check_blank_variables(frame)
-        step(len(files) + 2)
+        step(2)
         reader.check_partial_units(frame)
     else:
         frame["applies"] = []
-    step(len(files) + 3)
+    step(3)
     texts = pd.DataFrame(reader.texts, columns=list(TEXT_COLUMNS)).astype(object)
     return Codings.from_records(
         codebook,
