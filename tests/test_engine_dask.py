@@ -180,3 +180,14 @@ def test_test_retest_data_is_refused_by_the_dask_engine(tmp_path):
     result = CliRunner().invoke(app, args)
     assert result.exit_code == 2
     assert "occasion" in result.stderr
+
+
+def test_an_address_where_no_scheduler_answers_is_a_usage_error(tmp_path, monkeypatch):
+    from coderel.engine import cluster
+
+    monkeypatch.setattr(cluster, "CONNECT_TIMEOUT", 2)
+    folder = write_dataset(long_table(20, seed=2), tmp_path / "d", by="unit", parts=2)
+    args = ["agree", "-c", str(CODEBOOK), str(folder), "--engine", "dask"]
+    result = CliRunner().invoke(app, [*args, "--scheduler", "tcp://127.0.0.1:1"])
+    assert result.exit_code == 2
+    assert "no Dask scheduler answered at 'tcp://127.0.0.1:1'" in result.stderr
