@@ -232,7 +232,7 @@ def test_unit_ids_differing_in_leading_zeros_are_pointed_out(tmp_path):
 
 
 def test_loose_unit_id():
-    from coderel.io.read import _loose_id
+    from coderel.io.table_checks import _loose_id
 
     assert _loose_id("ENC-007") == _loose_id("enc-7") == "enc-7"
     assert _loose_id("001") == _loose_id("1") == "1"

@@ -1,6 +1,6 @@
 """Long tables (unit, coder, variable, value) read column by column with pyarrow.
 
-The row-by-row reader (:meth:`coderel.io.read._Reader.read_long`) turns every cell into a Python
+The row-by-row reader (:func:`coderel.io.long_rows.read_long`) turns every cell into a Python
 value and checks it in a loop: fine for a coder's sheet, far too slow for millions of labels. This
 path reads the four columns with pyarrow, works on the **distinct** values of each column (a unit
 ID, coder name, variable name or raw value is turned into text, looked up and normalised once, by
@@ -241,10 +241,10 @@ def apply_columns(
     text_of: Callable[[Any], str | None],
     closest: Callable[[str, list[str]], str | None],
 ) -> None:
-    """Add the long table's records, texts and problems to ``reader`` (a ``_Reader``), exactly as
-    its row-by-row ``read_long`` would. ``text_of`` and ``closest`` are the row reader's own
-    functions (an ID or name as text; the closest known name), passed in so that this module
-    does not import the reader."""
+    """Add the long table's records, texts and problems to ``reader`` (a
+    :class:`coderel.io.reader.SheetReader`), exactly as the row-by-row ``read_long`` would.
+    ``text_of`` and ``closest`` are the row reader's own functions (:mod:`coderel.io.names`: an
+    ID or name as text; the closest known name)."""
     cb = reader.codebook
     place = _Places(cols)
     n = len(cols.numbers)
@@ -505,7 +505,7 @@ def _absent(
 
 @dataclasses.dataclass(frozen=True)
 class _ClaimTable:
-    """What ``_Reader.claim`` needs of a table: its file and sheet."""
+    """What ``SheetReader.claim`` needs of a table: its file and sheet."""
 
     file: str
     sheet: str | None = None

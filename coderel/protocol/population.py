@@ -20,7 +20,7 @@ from pathlib import Path
 from coderel.errors import DataProblems, InputRefused, UsageError
 from coderel.io.archive import DEFAULT_LIMITS, check_parquet, check_text
 from coderel.io.atomic import sha256_file
-from coderel.io.read import _text_of as id_text
+from coderel.io.names import text_of as id_text
 from coderel.io.text_tables import RawTable, read_csv, read_parquet
 from coderel.problems import Problems
 
