@@ -27,6 +27,20 @@ def value_counts(x: np.ndarray, k: int) -> np.ndarray:
     return counts.reshape(n_units, k).astype(float)
 
 
+def unit_value_sums(x: np.ndarray, table: np.ndarray, units: np.ndarray) -> np.ndarray:
+    """Per unit, the sum over its values of ``table[value]`` (rows of a K x r table, or entries
+    of a length-K vector), for the units where ``units`` holds and zero elsewhere.
+
+    The same as ``value_counts(x, K) @ table`` without the units x K matrix.
+    """
+    table = np.asarray(table, dtype=float)
+    out = np.zeros((x.shape[0], *table.shape[1:]))
+    for j in range(x.shape[1]):
+        given = (x[:, j] >= 0) & units
+        out[given] += table[x[given, j]]
+    return out
+
+
 def values_per_unit(x: np.ndarray) -> np.ndarray:
     """Number of values m_u per unit."""
     return (x >= 0).sum(axis=1).astype(float)

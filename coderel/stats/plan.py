@@ -38,7 +38,9 @@ from coderel.stats.counts import (
     one_hot,
     unit_agreeing_pairs,
     unit_disagreement,
+    unit_value_sums,
     value_counts,
+    values_per_unit,
 )
 from coderel.stats.numeric_plan import add_numeric, numeric_values
 
@@ -150,8 +152,7 @@ def _domain_distance(scale: Scale):
             return A.ratio_distance(values)
         return A.interval_distance(_standardise(values))
     if scale.kind == "set":
-        delta = A.jaccard_delta(list(scale.sets))
-        return lambda a, b: delta[a, b]
+        return A.jaccard_distance(list(scale.sets))
     return lambda a, b: (a != b).astype(float)
 
 
@@ -177,30 +178,44 @@ def add_percent(b: _Builder, x: np.ndarray) -> Formula:
 
 
 def add_alpha(b: _Builder, x: np.ndarray, scale: Scale) -> Formula:
-    """Krippendorff's alpha at the scale's level (coincidence sums per unit)."""
-    counts = value_counts(x, scale.size)
-    pairable = counts.sum(axis=1) >= 2
-    cp = counts * pairable[:, None]
-    if scale.ordinal:
-        iu = np.triu_indices(scale.size, 1)
-        s_n, s_o = b.add(cp), b.add(coincidences_upper(cp, iu))
-        return lambda s: A.alpha_ordinal(s[:, s_n], s[:, s_o], iu)
-    d = unit_disagreement(x, _domain_distance(scale))
-    if scale.kind == "numeric" and scale.level == "interval":
-        values = np.asarray(scale.values, dtype=float)
-        v = _standardise(values)
-        s1 = cp @ v
-        s2 = cp @ v**2
-        s_m, s_1, s_2, s_d = b.add(cp.sum(axis=1)), b.add(s1), b.add(s2), b.add(d)
-        return lambda s: A.alpha_interval_moments(s[:, s_m], s[:, s_1], s[:, s_2], s[:, s_d])
-    s_n, s_d = b.add(cp), b.add(d)
+    """Krippendorff's alpha at the scale's level (coincidence sums per unit).
+
+    Categorical variables sum per-unit value counts; interval variables the count, sum and sum
+    of squares of their values; ratio and set variables the features of
+    :func:`coderel.stats.alpha.metric_factor` (K x rank numbers instead of a K x K matrix of
+    distances, and rank numbers per unit instead of K).
+    """
     if scale.kind == "categorical":
+        counts = value_counts(x, scale.size)
+        cp = counts * (counts.sum(axis=1) >= 2)[:, None]
+        if scale.ordinal:
+            iu = np.triu_indices(scale.size, 1)
+            s_n, s_o = b.add(cp), b.add(coincidences_upper(cp, iu))
+            return lambda s: A.alpha_ordinal(s[:, s_n], s[:, s_o], iu)
+        s_n, s_d = b.add(cp), b.add(unit_disagreement(x, _domain_distance(scale)))
         return lambda s: A.alpha_nominal(s[:, s_n], s[:, s_d])
+    m = values_per_unit(x)
+    pairable = m >= 2
+    d = unit_disagreement(x, _domain_distance(scale))
+    s_m = b.add(np.where(pairable, m, 0.0))
+    if scale.kind == "numeric" and scale.level == "interval":
+        v = _standardise(np.asarray(scale.values, dtype=float))
+        s_1, s_2 = b.add(unit_value_sums(x, v, pairable)), b.add(unit_value_sums(x, v**2, pairable))
+        s_d = b.add(d)
+        return lambda s: A.alpha_interval_moments(s[:, s_m], s[:, s_1], s[:, s_2], s[:, s_d])
     if scale.kind == "numeric":
-        delta = A.ratio_delta(np.asarray(scale.values, dtype=float))
+        factor = A.ratio_factor(np.asarray(scale.values, dtype=float))
     else:
-        delta = A.jaccard_delta(list(scale.sets))
-    return lambda s: A.alpha_with_metric(s[:, s_n], s[:, s_d], delta)
+        factor = A.jaccard_factor(list(scale.sets))
+    if factor is None:  # ratio values of both signs: the K x K distances
+        delta = A.ratio_delta(np.asarray(scale.values, dtype=float))
+        counts = value_counts(x, scale.size)
+        s_n, s_d = b.add(counts * pairable[:, None]), b.add(d)
+        return lambda s: A.alpha_with_metric(s[:, s_n], s[:, s_d], delta)
+    s_g = b.add(unit_value_sums(x, factor.diagonal, pairable))
+    s_f = _as_slice(b.add(unit_value_sums(x, factor.factor, pairable)))
+    s_d = b.add(d)
+    return lambda s: A.alpha_factored(s[:, s_m], s[:, s_g], s[:, s_f], s[:, s_d], factor)
 
 
 @dataclass(frozen=True)
