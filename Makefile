@@ -42,7 +42,7 @@ bench: $(STAMP)
 
 # Crowd-scale data sets (issue 14): wall time and peak memory of whole commands.
 # Pick with SETS=a,d COMMANDS=validate,agree (defaults: every set and command).
-SETS ?= a,b,c,d,r
+SETS ?= a,b,c,d,r,j
 COMMANDS ?= validate,agree,merge,report
 bench-scale: $(STAMP)
 	$(BIN)/python benchmarks/bench_scale.py --sets $(SETS) --commands $(COMMANDS)

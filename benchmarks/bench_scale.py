@@ -11,6 +11,8 @@ b   5M labels: 20,000 units x 5 coders x 50 variables
 c   9M labels: 100,000 units x 3 coders x 30 variables
 d   crowd: 200,000 items x 20 labellers, each item labelled by 3-5 of them, 5 variables (~4M)
 r   one ratio variable with ~10,000 distinct values at 20,000 units x 3 coders
+j   adjudication: 20,000 units x 3 coders x 6 variables (its commands: adjudicate, run twice, the
+    second time keeping the decisions of the first list, then merge with that list)
 
 Categorical variables have 5 categories; each coder reports the unit's true category with
 probability 0.8, otherwise a category drawn uniformly; 5% of values are left out. The figures are
@@ -40,9 +42,12 @@ SETS = {
     "c": {"units": 100_000, "coders": 3, "variables": 30},
     "d": {"units": 200_000, "coders": 20, "variables": 5, "per_unit": (3, 5)},
     "r": {"units": 20_000, "coders": 3, "variables": 1, "ratio_values": 10_000},
+    "j": {"units": 20_000, "coders": 3, "variables": 6},
 }
 LEVELS = ("nominal", "ordinal", "nominal", "ordinal", "ratio")
 COMMANDS = ("validate", "agree", "merge", "report")
+#: Set j times the adjudication round trip instead.
+ADJUDICATION = ("adjudicate", "adjudicate-again", "merge-decided")
 
 
 def _codebook(spec: dict) -> Codebook:
@@ -119,22 +124,23 @@ def run(args: list[str], out: Path) -> tuple[float, float, int]:
 
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.split("\n")[0])
-    parser.add_argument("--sets", default="a,b,c,d,r")
+    parser.add_argument("--sets", default="a,b,c,d,r,j")
     parser.add_argument("--commands", default=",".join(COMMANDS))
     parser.add_argument("--replicates", type=int, default=2000)
     parser.add_argument("--keep", type=Path, default=None, help="folder to keep data in")
     opts = parser.parse_args()
     coderel = [str(Path(sys.executable).with_name("coderel"))]
     root = opts.keep or Path(tempfile.mkdtemp(prefix="coderel-bench-"))
-    print(f"{'set':4}{'labels':>12}  {'command':10}{'wall s':>9}{'peak GB':>9}  exit")
+    print(f"{'set':4}{'labels':>12}  {'command':16}{'wall s':>9}{'peak GB':>9}  exit")
     for name in opts.sets.split(","):
         folder = root / name
         started = time.perf_counter()
         cb, data, labels = generate(name, folder)
         made = time.perf_counter() - started
-        print(f"{name:4}{labels:>12,}  {'(generate)':10}{made:>9.1f}", flush=True)
-        for command in opts.commands.split(","):
-            args = [*coderel, command, "-c", str(cb), str(data)]
+        print(f"{name:4}{labels:>12,}  {'(generate)':16}{made:>9.1f}", flush=True)
+        commands = ADJUDICATION if name == "j" else opts.commands.split(",")
+        for command in commands:
+            args = [*coderel, command.split("-")[0], "-c", str(cb), str(data)]
             if command in ("agree", "report"):
                 args += ["--replicates", str(opts.replicates)]
             if command == "agree":
@@ -143,8 +149,13 @@ def main() -> None:
                 args += ["-o", str(folder / "merged.parquet")]
             elif command == "report":
                 args += ["-o", str(folder / "report.html")]
+            elif command.startswith("adjudicate"):
+                args += ["-o", str(folder / "adjudication.xlsx")]
+            elif command == "merge-decided":
+                args += ["-o", str(folder / "merged.parquet")]
+                args += ["--decisions", str(folder / "adjudication.xlsx")]
             wall, peak, code = run(args, folder / f"{command}.out")
-            row = f"{name:4}{labels:>12,}  {command:10}{wall:>9.1f}{peak:>9.2f}  {code}"
+            row = f"{name:4}{labels:>12,}  {command:16}{wall:>9.1f}{peak:>9.2f}  {code}"
             print(row, flush=True)
 
 

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import os
+from copy import copy
 
 import pandas as pd
 
@@ -68,7 +69,9 @@ def write_adjudication(adjudication: Adjudication, path: str | os.PathLike[str])
 
 def _write_workbook(adj: Adjudication, path: str | os.PathLike[str]) -> None:
     from openpyxl import Workbook
+    from openpyxl.cell import WriteOnlyCell
     from openpyxl.styles import Alignment, Font, PatternFill, Protection
+    from openpyxl.worksheet.cell_range import MultiCellRange
     from openpyxl.worksheet.datavalidation import DataValidation
 
     from coderel.io.tables import cell_value, fill_sheet, save_workbook
@@ -90,21 +93,35 @@ def _write_workbook(adj: Adjudication, path: str | os.PathLike[str]) -> None:
     shade, last_unit = False, None
     ranges: dict[str, list[str]] = {}
     dcol = column_letter(headers.index("decision") + 1)
+    # A cell's style depends on its column, the row's shade and its check mark: each of these few
+    # styles is made once on a model cell and copied (styling every cell anew costs more than
+    # writing it).
+    styles: dict[tuple[int, bool, bool], object] = {}
+
+    def style(j: int, shaded: bool, marked: bool) -> object:
+        key = (j, shaded, marked and j in (check_col, decision_col))
+        if key not in styles:
+            model = WriteOnlyCell(ws)
+            if j in editable:
+                model.protection = Protection(locked=False)
+            if j in text_idx:
+                model.alignment = Alignment(wrap_text=True, vertical="top")
+            if shaded:
+                model.fill = fill
+            if key[2]:
+                model.fill = check_fill
+            styles[key] = model._style
+        return styles[key]
+
     for i, row in enumerate(adj.rows, start=2):
         texts = {c: adj.narratives.get(row.unit, {}).get(c, "") for c in adj.text_columns}
         record = row_record(row, adj.coders, texts)
         ws.append([cell_value(record.get(h)) for h in headers])
         if row.unit != last_unit:
             shade, last_unit = (not shade), row.unit
-        for j, cell in enumerate(ws[i], start=1):
-            if j in editable:
-                cell.protection = Protection(locked=False)
-            if j in text_idx:
-                cell.alignment = Alignment(wrap_text=True, vertical="top")
-            if shade:
-                cell.fill = fill
-            if row.to_check and j in (check_col, decision_col):
-                cell.fill = check_fill
+        for j in range(1, len(headers) + 1):
+            cell = ws.cell(row=i, column=j)  # not ws[i]: it scans every cell of the sheet
+            cell._style = copy(style(j, shade, row.to_check))
         ranges.setdefault(row.variable, []).append(f"{dcol}{i}")
     widths = {"unit": 12, "variable": 20, "kind": 14, "decision": 30, "note": 30}
     widths.update({"adjudicator": 16, "check": 40, "key": 24})
@@ -143,8 +160,7 @@ def _write_workbook(adj: Adjudication, path: str | os.PathLike[str]) -> None:
         dv.promptTitle = var.name[:32]
         dv.prompt = _input_message(var)
         dv.showInputMessage = True
-        for ref in ranges[var.name]:
-            dv.add(ref)
+        dv.sqref = MultiCellRange(" ".join(ranges[var.name]))  # dv.add: a scan per cell
         ws.add_data_validation(dv)
     lists.sheet_state = "hidden"
 
