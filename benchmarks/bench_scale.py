@@ -12,7 +12,8 @@ c   9M labels: 100,000 units x 3 coders x 30 variables
 d   crowd: 200,000 items x 20 labellers, each item labelled by 3-5 of them, 5 variables (~4M)
 r   one ratio variable with ~10,000 distinct values at 20,000 units x 3 coders
 j   adjudication: 20,000 units x 3 coders x 6 variables (its commands: adjudicate, run twice, the
-    second time keeping the decisions of the first list, then merge with that list)
+    second time keeping the decisions of the first list, then merge with that list; the same
+    three with the list as csv instead of xlsx)
 
 Categorical variables have 5 categories; each coder reports the unit's true category with
 probability 0.8, otherwise a category drawn uniformly; 5% of values are left out. The figures are
@@ -47,7 +48,10 @@ SETS = {
 LEVELS = ("nominal", "ordinal", "nominal", "ordinal", "ratio")
 COMMANDS = ("validate", "agree", "merge", "report")
 #: Set j times the adjudication round trip instead.
-ADJUDICATION = ("adjudicate", "adjudicate-again", "merge-decided")
+ADJUDICATION = (
+    *("adjudicate", "adjudicate-again", "merge-decided"),
+    *("adjudicate-csv", "adjudicate-again-csv", "merge-decided-csv"),
+)
 
 
 def _codebook(spec: dict) -> Codebook:
@@ -131,13 +135,13 @@ def main() -> None:
     opts = parser.parse_args()
     coderel = [str(Path(sys.executable).with_name("coderel"))]
     root = opts.keep or Path(tempfile.mkdtemp(prefix="coderel-bench-"))
-    print(f"{'set':4}{'labels':>12}  {'command':16}{'wall s':>9}{'peak GB':>9}  exit")
+    print(f"{'set':4}{'labels':>12}  {'command':21}{'wall s':>9}{'peak GB':>9}  exit")
     for name in opts.sets.split(","):
         folder = root / name
         started = time.perf_counter()
         cb, data, labels = generate(name, folder)
         made = time.perf_counter() - started
-        print(f"{name:4}{labels:>12,}  {'(generate)':16}{made:>9.1f}", flush=True)
+        print(f"{name:4}{labels:>12,}  {'(generate)':21}{made:>9.1f}", flush=True)
         commands = ADJUDICATION if name == "j" else opts.commands.split(",")
         for command in commands:
             args = [*coderel, command.split("-")[0], "-c", str(cb), str(data)]
@@ -149,13 +153,15 @@ def main() -> None:
                 args += ["-o", str(folder / "merged.parquet")]
             elif command == "report":
                 args += ["-o", str(folder / "report.html")]
-            elif command.startswith("adjudicate"):
-                args += ["-o", str(folder / "adjudication.xlsx")]
-            elif command == "merge-decided":
-                args += ["-o", str(folder / "merged.parquet")]
-                args += ["--decisions", str(folder / "adjudication.xlsx")]
+            adjudication = folder / (
+                "adjudication.csv" if "csv" in command else "adjudication.xlsx"
+            )
+            if command.startswith("adjudicate"):
+                args += ["-o", str(adjudication)]
+            elif command.startswith("merge-decided"):
+                args += ["-o", str(folder / "merged.parquet"), "--decisions", str(adjudication)]
             wall, peak, code = run(args, folder / f"{command}.out")
-            row = f"{name:4}{labels:>12,}  {command:16}{wall:>9.1f}{peak:>9.2f}  {code}"
+            row = f"{name:4}{labels:>12,}  {command:21}{wall:>9.1f}{peak:>9.2f}  {code}"
             print(row, flush=True)
 
 
