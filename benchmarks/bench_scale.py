@@ -10,7 +10,7 @@ a   300k labels: 2,000 units x 3 coders x 50 variables
 b   5M labels: 20,000 units x 5 coders x 50 variables
 c   9M labels: 100,000 units x 3 coders x 30 variables
 d   crowd: 200,000 items x 20 labellers, each item labelled by 3-5 of them, 5 variables (~4M)
-r   one ratio variable with ~10,000 distinct values at 20,000 units x 3 coders
+r   one ratio variable with 10,000 distinct values at 20,000 units x 3 coders
 j   adjudication: 20,000 units x 3 coders x 6 variables (its commands: adjudicate, run twice, the
     second time keeping the decisions of the first list, then merge with that list; the same
     three with the list as csv instead of xlsx)
@@ -88,8 +88,10 @@ def generate(name: str, folder: Path, seed: int = 14) -> tuple[Path, Path, int]:
     tables = []
     for j, var in enumerate(cb.variables):
         if "ratio_values" in spec:
-            domain = np.round(rng.lognormal(3, 1, spec["ratio_values"]), 2)
-            truth = rng.integers(0, len(domain), n_units)
+            # distinct values, three decimals; every one is some unit's true value
+            pool = np.unique(np.round(rng.lognormal(3, 1, 3 * spec["ratio_values"]), 3))
+            domain = rng.choice(pool, spec["ratio_values"], replace=False)
+            truth = rng.permutation(np.resize(np.arange(len(domain)), n_units))
             noise = rng.random(len(units)) < 0.2
             idx = np.where(noise, rng.integers(0, len(domain), len(units)), truth[units])
             values = pa.array(domain[idx])
