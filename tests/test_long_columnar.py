@@ -181,3 +181,24 @@ def test_a_big_long_csv_is_not_refused_by_the_sheet_size_limit(tmp_path):
     refused = read_codings(cb, [wide], limits=small).problems.refused
     assert refused
     assert "over the limit" in refused[0].message
+
+
+def test_a_long_table_past_the_spreadsheet_row_limit_is_read(tmp_path):
+    # A spreadsheet's row and cell limits (docs/limits.md) do not refuse a long table read
+    # column by column; its memory is bounded by LONG_FILE_BYTES and LONG_ROWS instead.
+    cb = load_codebook(CB)
+    rows = [(f"R{u}", c, "species", "1") for u in range(300) for c in ("ana", "ben")]
+    frame = pd.DataFrame(rows, columns=["unit", "coder", "variable", "value"])
+    parquet = tmp_path / "long.parquet"
+    frame.to_parquet(parquet, index=False)
+    csv_path = tmp_path / "long.csv"
+    _write_csv(csv_path, rows)
+    small = read_module.Limits(max_rows=100, max_cells=400, max_uncompressed_bytes=1000)
+    for path in (parquet, csv_path):
+        codings = read_codings(cb, [path], limits=small)
+        assert not codings.problems.refused, path.name
+        assert len(codings.units) == 300
+    # a wide sheet of the same size is still refused by them
+    wide = tmp_path / "wide.parquet"
+    pd.DataFrame({"report_id": [f"R{u}" for u in range(300)], "species": 1}).to_parquet(wide)
+    assert read_codings(cb, [wide], limits=small).problems.refused

@@ -18,8 +18,9 @@ A file takes this path only when the row reader would read it exactly as here:
 
 Every other file is read by the row reader, with the same result. Safety limits: the same checks
 as the row reader (:func:`coderel.io.archive.check_text`, :func:`check_parquet`), with the
-per-file size limit raised to :data:`LONG_FILE_BYTES`, since this path holds only compact column
-arrays, not a Python object per cell.
+limits that stand for a spreadsheet's size raised (:func:`long_limits`: file and unpacked size
+:data:`LONG_FILE_BYTES`, rows :data:`LONG_ROWS`), since this path holds only compact column arrays,
+not a Python object per cell.
 """
 
 from __future__ import annotations
@@ -43,6 +44,23 @@ if TYPE_CHECKING:
 LONG_HEADER: tuple[str, ...] = ("unit", "coder", "variable", "value")
 #: Size limit of one long table read column by column (memory, not parse time, is the bound).
 LONG_FILE_BYTES = 4 * 1024**3
+#: Row limit of one long table read column by column (a label per row, about 60 bytes of memory
+#: each while read, more when rows have problems); raised with ``CODEREL_MAX_ROWS``.
+LONG_ROWS = 20_000_000
+
+
+def long_limits(limits: Limits) -> Limits:
+    """``limits`` for a long table read column by column: a spreadsheet's row and cell counts are
+    no bound here, its memory is; limits set higher (``CODEREL_MAX_ROWS``...) stay higher."""
+    return dataclasses.replace(
+        limits,
+        max_file_bytes=max(limits.max_file_bytes, LONG_FILE_BYTES),
+        max_uncompressed_bytes=max(limits.max_uncompressed_bytes, LONG_FILE_BYTES),
+        max_rows=max(limits.max_rows, LONG_ROWS),
+        max_cells=max(limits.max_cells, 5 * LONG_ROWS),
+    )
+
+
 _LETTERS = "ABCD"
 
 
@@ -109,13 +127,15 @@ def read_parquet_columns(path: Path, limits: Limits) -> Columns | None:
     """The four columns of a long Parquet table, or None when the file is not one."""
     import pyarrow.parquet as pq
 
-    check_parquet(path, dataclasses.replace(limits, max_file_bytes=LONG_FILE_BYTES))
+    check_parquet(path, long_limits(limits))
     try:
         schema = pq.read_schema(path)
     except Exception:  # damaged: the row reader reports it
         return None
     # pandas keeps a named index as a column of the file; the row reader does not see it
-    index = set((schema.pandas_metadata or {}).get("index_columns", []) if schema.metadata else [])
+    # (a RangeIndex is kept as metadata only, given as a dict instead of a column name)
+    stored = (schema.pandas_metadata or {}).get("index_columns", []) if schema.metadata else []
+    index = {name for name in stored if isinstance(name, str)}
     names = [n for n in schema.names if n not in index]
     header = tuple(_header_text(n) for n in names)
     if tuple(h.casefold() for h in header) != LONG_HEADER:
@@ -161,7 +181,7 @@ def read_csv_columns(path: Path, limits: Limits) -> Columns | None:
     header = tuple(_header_text(c) for c in first_line.split(delimiter))
     if tuple(h.casefold() for h in header) != LONG_HEADER:
         return None
-    check_text(path, dataclasses.replace(limits, max_file_bytes=LONG_FILE_BYTES))
+    check_text(path, long_limits(limits))
     data = path.read_bytes()
     if b'"' in data or b"\r" in data or b"\n\n" in data:
         return None

@@ -340,6 +340,6 @@ __all__ = [
     "collect_files",
     "missing_count",
     "own_output",
-    "read_long_parts",
     "read_codings",
+    "read_long_parts",
 ]
