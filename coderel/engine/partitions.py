@@ -56,7 +56,7 @@ def unit_keys_of(path: str) -> tuple[np.ndarray, bool]:
     import pyarrow.parquet as pq
 
     from coderel.io.long_columnar import LONG_HEADER, _encode, _python_cells
-    from coderel.io.read import _text_of
+    from coderel.io.names import text_of as _text_of
     from coderel.io.text_tables import _header_text
     from coderel.stats.bootstrap import unit_keys
 

@@ -25,7 +25,7 @@ def split_file(path: str, n: int) -> list | None:
     the file cannot be read column by column (dates in a column, a wide sheet...)."""
     from coderel.io.archive import DEFAULT_LIMITS
     from coderel.io.long_columnar import read_parquet_columns
-    from coderel.io.read import _text_of
+    from coderel.io.names import text_of as _text_of
     from coderel.stats.bootstrap import unit_keys
 
     cols = read_parquet_columns(Path(path), DEFAULT_LIMITS)
