@@ -65,9 +65,7 @@ def build_index(codings: Codings, coders: list[str], units: list[str]) -> UnitIn
     order = np.argsort(var_codes, kind="stable")
     bounds = np.searchsorted(var_codes[order], np.arange(len(var_names) + 1))
     rows_of = {str(name): order[bounds[i] : bounds[i + 1]] for i, name in enumerate(var_names)}
-    applies = frame["applies"].to_numpy(dtype=object)
-    is_true = np.fromiter((a is True for a in applies), dtype=bool, count=len(applies))
-    is_false = np.fromiter((a is False for a in applies), dtype=bool, count=len(applies))
+    is_true, is_false = _true_false(frame["applies"])
     values = frame["value"].to_numpy(dtype=object)
     has_value = ~pd.isna(frame["value"]).to_numpy()
     return UnitIndex(
@@ -87,32 +85,59 @@ def canonical_sets(sets: Iterable[frozenset], var: Variable) -> tuple[frozenset,
     )
 
 
+def _true_false(applies: pd.Series) -> tuple[np.ndarray, np.ndarray]:
+    """Which rows hold ``True`` and which ``False`` (the objects themselves, as ``is`` tells;
+    anything else, such as ``None``, is neither), judged once per distinct object."""
+    if applies.dtype == bool:
+        flags = applies.to_numpy()
+        return flags, ~flags
+    codes, distinct = pd.factorize(applies.to_numpy(dtype=object), use_na_sentinel=False)
+    objects = list(distinct)
+    # factorize may fold equal objects of different types (1 and True): those keep a row loop
+    if any(type(o) is not bool and o == True for o in objects if o is not None):  # noqa: E712
+        arr = applies.to_numpy(dtype=object)
+        is_true = np.fromiter((a is True for a in arr), dtype=bool, count=len(arr))
+        is_false = np.fromiter((a is False for a in arr), dtype=bool, count=len(arr))
+        return is_true, is_false
+    true_of = np.array([o is True for o in objects] + [False], dtype=bool)
+    false_of = np.array([o is False for o in objects] + [False], dtype=bool)
+    return true_of[codes], false_of[codes]
+
+
+def _distinct(values: np.ndarray) -> tuple[np.ndarray, list[Any]]:
+    """Each value's position among the distinct values, and those values (first seen first):
+    later steps convert and look up each distinct value once, not each row's."""
+    if not len(values):
+        return np.empty(0, dtype=np.int64), []
+    codes, distinct = pd.factorize(values, use_na_sentinel=False)
+    return codes.astype(np.int64, copy=False), list(distinct)
+
+
 def value_matrix(
     ix: UnitIndex, var: Variable, n_units: int, n_coders: int
 ) -> tuple[np.ndarray, Scale]:
     """Units x coders value indices over ALL project units (-1: no value), and the scale."""
     rows = ix.rows_of.get(var.name, np.empty(0, dtype=np.int64))
     rows = rows[ix.counts[rows]]
-    values = list(ix.values[rows])
+    codes, distinct = _distinct(ix.values[rows])
     if var.is_categorical and not var.multiple:
         domain = {code: i for i, code in enumerate(var.codes)}
         scale = Scale("categorical", var.level, len(domain))
     elif var.multiple:
-        values = [frozenset(v) for v in values]
+        distinct = [frozenset(v) for v in distinct]
         # Distinct sets in one canonical order (by the codebook's order of their codes), so the
         # domain never depends on the order in which rows arrive.
-        sets = canonical_sets(set(values), var)
+        sets = canonical_sets(distinct, var)
         domain = {s: i for i, s in enumerate(sets)}
         scale = Scale("set", "nominal", len(sets), sets=sets)
     else:
-        values = [float(v) for v in values]
-        distinct = np.array(sorted(set(values)), dtype=float)
-        domain = {v: i for i, v in enumerate(distinct.tolist())}
-        scale = Scale("numeric", var.level, len(distinct), values=distinct)
+        distinct = [float(v) for v in distinct]
+        numbers = np.array(sorted(set(distinct)), dtype=float)
+        domain = {v: i for i, v in enumerate(numbers.tolist())}
+        scale = Scale("numeric", var.level, len(numbers), values=numbers)
+    index_of = np.array([domain[v] for v in distinct], dtype=int)
     x = np.full((n_units, n_coders), -1, dtype=int)
-    x[ix.unit[rows], ix.coder[rows]] = np.fromiter(
-        (domain[v] for v in values), dtype=int, count=len(values)
-    )
+    x[ix.unit[rows], ix.coder[rows]] = index_of[codes]
     return x, scale
 
 
