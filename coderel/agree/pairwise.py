@@ -27,19 +27,24 @@ def pair_agreements(t: Target) -> tuple[tuple[PairAgreement, ...], dict]:
     x, k, coders = t.x, t.scale.size, t.coders
     categorical = t.scale.kind == "categorical"
     pairs, confusion = [], {}
+    # columns held contiguously and each pair's work on the units both coded (a crowd design
+    # has many coders, each unit coded by a few)
+    columns = np.asfortranarray(x)
+    present = columns >= 0
     for i, j in combinations(range(x.shape[1]), 2):
-        both = (x[:, i] >= 0) & (x[:, j] >= 0)
-        n = int(both.sum())
+        rows = np.flatnonzero(present[:, i] & present[:, j])
+        n = len(rows)
         if n == 0:
             continue
-        same = float(np.mean(x[both, i] == x[both, j]))
+        a, b = columns[rows, i], columns[rows, j]
+        same = float(np.mean(a == b))
         kappa, table = None, None
         if categorical:
-            table = confusion_table(x[:, i], x[:, j], k)
+            table = confusion_table(a, b, k)
             confusion[(coders[i], coders[j])] = table
             kappa = finite(cohen_kappa_table(table)[0])
         # only units both coded are pairable: the others add nothing to alpha's sums
-        alpha = finite(alpha_point(x[np.ix_(both, [i, j])], t.scale))
+        alpha = finite(alpha_point(np.column_stack((a, b)), t.scale))
         pairs.append(
             PairAgreement(
                 coders[i],
