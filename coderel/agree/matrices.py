@@ -59,8 +59,8 @@ class UnitIndex:
 
 def build_index(codings: Codings, coders: list[str], units: list[str]) -> UnitIndex:
     frame = codings.frame
-    unit = pd.Categorical(frame["unit"], categories=units).codes.astype(np.int64)
-    coder = pd.Categorical(frame["coder"], categories=coders).codes.astype(np.int64)
+    unit = _positions(frame["unit"], units)
+    coder = _positions(frame["coder"], coders)
     var_codes, var_names = pd.factorize(frame["variable"])
     order = np.argsort(var_codes, kind="stable")
     bounds = np.searchsorted(var_codes[order], np.arange(len(var_names) + 1))
@@ -83,6 +83,17 @@ def canonical_sets(sets: Iterable[frozenset], var: Variable) -> tuple[frozenset,
             key=lambda c: (len(c), sorted(position.get(v, len(position)) for v in c)),
         )
     )
+
+
+def _positions(column: pd.Series, names: list[str]) -> np.ndarray:
+    """Each row's position in ``names`` (-1 where absent), looked up once per distinct name."""
+    codes, distinct = pd.factorize(column)
+    if not len(distinct):
+        return np.full(len(codes), -1, dtype=np.int64)
+    where = pd.Index(distinct, dtype=object).get_indexer(pd.Index(names, dtype=object))
+    position = np.full(len(distinct), -1, dtype=np.int64)
+    position[where[where >= 0]] = np.flatnonzero(where >= 0)
+    return np.where(codes >= 0, position[np.maximum(codes, 0)], -1).astype(np.int64)
 
 
 def _true_false(applies: pd.Series) -> tuple[np.ndarray, np.ndarray]:
