@@ -12,6 +12,7 @@ import pandas as pd
 from coderel.codebook import Codebook
 from coderel.codings import Codings
 from coderel.problems import Problems
+from coderel.progress import Progress
 
 
 @dataclass(frozen=True)
@@ -50,12 +51,15 @@ class ValidationResult:
         return {**self.problems.to_dict(), "summary": self.summary()}
 
 
-def validate(codebook: Codebook, paths: Sequence[str | Path]) -> ValidationResult:
+def validate(
+    codebook: Codebook, paths: Sequence[str | Path], *, progress: Progress | None = None
+) -> ValidationResult:
     """Read every sheet and collect all problems; input files are only read, never changed.
 
     Sheets made from an earlier codebook version are recoded by the codebook's ``recode`` block
     (:func:`coderel.io.versions.read_versioned`), or warned about when there is none.
+    ``progress`` is told of each phase (:mod:`coderel.progress`).
     """
     from coderel.io.versions import read_versioned
 
-    return ValidationResult(read_versioned(codebook, paths))
+    return ValidationResult(read_versioned(codebook, paths, progress=progress))

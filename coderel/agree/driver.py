@@ -16,6 +16,7 @@ from coderel.agree.variable_row import variable_row
 from coderel.codebook import Codebook
 from coderel.codings import Codings
 from coderel.errors import UsageError
+from coderel.progress import report
 from coderel.stats.bootstrap import (
     DEFAULT_MEMORY,
     SCHEMES,
@@ -79,7 +80,8 @@ def agreement(
         Also give ordinal variables the intraclass correlations, Lin's coefficient and limits of
         agreement, on their category positions (interval and ratio variables always get them).
     progress
-        Called as ``progress(done, total)`` while the work advances.
+        Called as ``progress(done, total, phase)`` while the work advances; phases "summarising
+        units", "resampling units", "intervals per variable" (:mod:`coderel.progress`).
     bootstrap
         ``"poisson"`` (unit weights a pure function of seed, unit ID and replicate; results do not
         depend on row order or blocking) or ``"multinomial"`` (the classic draw of U units per
@@ -106,6 +108,7 @@ def agreement(
     check_settings(replicates, seed, ci_level, interval_method, bootstrap)
     coders = codings.coders
     units = codings.units
+    report(progress, 0, 1, "summarising units")
     targets = build_targets(codings, coders, units)
     return agreement_of_targets(
         codings.codebook,
@@ -154,8 +157,7 @@ def agreement_of_targets(
 
     def step(done: int, total: int) -> None:
         steps[0] = total
-        if progress is not None:
-            progress(done, total + n_rows)
+        report(progress, done, total + n_rows, "resampling units")
 
     # ONE seeded set of unit weights over the project's units, reused for every variable and
     # coefficient: a unit without values for a variable contributes nothing to its sums.
@@ -183,8 +185,7 @@ def agreement_of_targets(
                 units=units,
             )
         rows.append(row)
-        if progress is not None:
-            progress(steps[0] + len(rows), steps[0] + n_rows)
+        report(progress, steps[0] + len(rows), steps[0] + n_rows, "intervals per variable")
     return AgreementResult(
         tuple(rows),
         replicates,

@@ -30,5 +30,15 @@ def _root(
     version: bool = typer.Option(
         False, "--version", callback=_version, is_eager=True, help="Print the version and exit."
     ),
+    quiet: bool = typer.Option(
+        False,
+        "--quiet",
+        "-q",
+        help="No progress bars and no informational messages on stderr (errors, problems and "
+        "warnings are still shown); put it before the command: coderel --quiet agree ...",
+    ),
 ) -> None:
     """Reliability of coded narrative data; every command offers --json; all offline."""
+    from coderel.cli.common import set_quiet
+
+    set_quiet(quiet)

@@ -24,6 +24,7 @@ from coderel.cli.common import (
     delayed_progress,
     emit_json,
     handle_errors,
+    inform,
     out_console,
     read_project,
     say,
@@ -160,9 +161,15 @@ def agree_command(
         "memory": parse_memory(memory),
     }
     if use_cluster(engine, scheduler, units=units, coders=coders, collapse=collapse):
-        run = agree_on_cluster(
-            codebook, data, scheduler, icc_ordinal=icc_ordinal, errors_note=errors_note, **settings
-        )
+        with delayed_progress("agreement on the cluster"):
+            run = agree_on_cluster(
+                codebook,
+                data,
+                scheduler,
+                icc_ordinal=icc_ordinal,
+                errors_note=errors_note,
+                **settings,
+            )
         status = ExitCode.DATA_PROBLEMS if run.problems.errors else ExitCode.OK
         result, single = run.result, run.single_coded_units
         what_if = diagnostics = None
@@ -178,7 +185,7 @@ def agree_command(
             found = set(codings.units)
             codings = codings.restricted_to(listed)
             absent = sum(1 for u in listed if u not in found)
-            say(
+            inform(
                 f"agreement on the {len(listed):,} unit(s) of {units.name}"
                 + (f"; {absent:,} of them are in no sheet" if absent else "")
             )
@@ -187,19 +194,20 @@ def agree_command(
             from coderel.agree.collapse import parse_collapses
 
             collapses = parse_collapses(collapse, codings.codebook)
-        with delayed_progress("bootstrap") as progress:
+        with delayed_progress("agreement per variable") as progress:
             result = agreement(codings, icc_ordinal=icc_ordinal, progress=progress, **settings)
         what_if = None
         if collapses:
             from coderel.agree.collapse import what_if as collapsed_alpha
 
-            with delayed_progress("bootstrap of the what-if (categories merged)"):
+            with delayed_progress("resampling units with categories merged"):
                 what_if = collapsed_alpha(codings, collapses, result, **settings)
         diagnostics = None
         if coders:
             from coderel.agree.coders import coder_diagnostics
 
-            diagnostics = coder_diagnostics(codings)
+            with delayed_progress("comparing each coder with the others"):
+                diagnostics = coder_diagnostics(codings)
         single = codings.single_coded_units()
     if out is not None:
         extra = {"pairs": result.pairs_frame()} if pairs else {}
@@ -211,12 +219,13 @@ def agree_command(
             )
         if what_if is not None:
             extra["collapse"] = what_if.to_frame()
-        write_table(result.to_frame(), out, sheet="agreement", extra_sheets=extra)
+        with delayed_progress(f"writing {out.name}"):
+            write_table(result.to_frame(), out, sheet="agreement", extra_sheets=extra)
         if pairs and table_format(out) != "xlsx":
             pairs_path = out.with_name(f"{out.stem}-pairs{out.suffix}")
             write_table(result.pairs_frame(), pairs_path, sheet="pairs")
-            say(f"pairs written to {pairs_path}")
-        say(f"table written to {out}")
+            inform(f"pairs written to {pairs_path}")
+        inform(f"table written to {out}")
     if len(result.coders) < 2:
         say(
             f"only {len(result.coders)} coder(s) ({', '.join(result.coders) or 'none'}): agreement "

@@ -13,9 +13,11 @@ from coderel.cli.common import (
     DataArgument,
     JsonOption,
     check_table_output,
+    delayed_progress,
     emit_json,
     folded_note,
     handle_errors,
+    inform,
     out_console,
     problems_table,
     say,
@@ -40,9 +42,12 @@ def validate_command(
     from coderel.validate import validate
 
     check_table_output(out, data, codebook)
-    result = validate(load_codebook(codebook), data)
+    cb = load_codebook(codebook)
+    with delayed_progress("reading the sheets") as step:
+        result = validate(cb, data, progress=step)
     if out is not None:
-        write_table(result.to_frame(), out, sheet="problems")
+        with delayed_progress(f"writing {out.name}"):
+            write_table(result.to_frame(), out, sheet="problems")
     if json_out:
         emit_json(result.to_dict())
     else:
@@ -57,7 +62,7 @@ def validate_command(
             f"{s['errors']} error(s), {s['warnings']} warning(s)."
         )
         if out is not None:
-            say(f"problem list written to {out}")
+            inform(f"problem list written to {out}")
     if result.refused:
         return ExitCode.INPUT_REFUSED
     return ExitCode.OK if result.ok else ExitCode.DATA_PROBLEMS

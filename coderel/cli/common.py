@@ -13,7 +13,7 @@ import math
 import os
 import re
 import sys
-import time
+import threading
 import traceback
 from collections.abc import Callable, Iterator
 from contextlib import contextmanager
@@ -22,7 +22,6 @@ from typing import TYPE_CHECKING, Annotated, Any, Literal, TypeVar
 
 import typer
 from rich.console import Console
-from rich.progress import BarColumn, Progress, TaskProgressColumn, TextColumn, TimeElapsedColumn
 from rich.table import Table
 from rich.text import Text
 
@@ -183,9 +182,23 @@ def _silence_stdout() -> None:
         pass
 
 
+#: Settings of this run of the command line, set by the root command (``coderel --quiet``).
+_RUN = {"quiet": False}
+
+
+def set_quiet(quiet: bool) -> None:
+    """``--quiet``: no progress bars and no informational messages (errors and problems stay)."""
+    _RUN["quiet"] = quiet
+
+
+def is_quiet() -> bool:
+    """Whether ``--quiet`` was given."""
+    return _RUN["quiet"]
+
+
 def show_progress() -> bool:
-    """Progress bars only on an interactive terminal."""
-    return _is_terminal(sys.stderr) and "CI" not in os.environ
+    """Progress bars only on an interactive terminal, and not with ``--quiet``."""
+    return not _RUN["quiet"] and _is_terminal(sys.stderr) and "CI" not in os.environ
 
 
 def _jsonable(obj: Any) -> Any:
@@ -235,8 +248,18 @@ def emit_json(obj: Any) -> None:
 
 
 def say(message: str, style: str | None = None) -> None:
-    """A message for the person at the terminal (stderr); no markup is read in it."""
+    """A message for the person at the terminal (stderr); no markup is read in it.
+
+    Errors, problems and warnings about the numbers use ``say``: ``--quiet`` never hides them.
+    """
     err_console().print(message, style=style)
+
+
+def inform(message: str) -> None:
+    """An informational message on stderr (what was written where, counts read): ``--quiet``
+    silences it."""
+    if not _RUN["quiet"]:
+        say(message)
 
 
 #: A kind of problem (code) found more often than this for one coder is shown as one summary row
@@ -439,7 +462,7 @@ def read_project(codebook: Path, data: list[Path], *, errors_note: str) -> Codin
     from coderel.io.versions import read_versioned
 
     cb = load_codebook(codebook)
-    with delayed_progress("reading and checking the sheets") as step:
+    with delayed_progress("reading the sheets") as step:
         codings = read_versioned(cb, data, progress=step)
     tell_read_problems(codings.problems, errors_note=errors_note)
     return codings
@@ -466,37 +489,100 @@ def tell_read_problems(problems: Problems, *, errors_note: str) -> None:
         say(f"{errors} cell(s) with errors {errors_note}; run 'coderel validate' to see them")
 
 
+#: Seconds a phase runs before its bar appears; ``CODEREL_PROGRESS_AFTER`` overrides it (tests
+#: set 0 to see every phase at once).
+PROGRESS_AFTER = 1.0
+
+
+def _progress_after(after: float | None) -> float:
+    value = os.environ.get("CODEREL_PROGRESS_AFTER")
+    if value is not None:
+        try:
+            return max(0.0, float(value))
+        except ValueError:
+            pass
+    return PROGRESS_AFTER if after is None else after
+
+
+def _no_progress(done: int, total: int, phase: str | None = None) -> None:
+    return None
+
+
 @contextmanager
 def delayed_progress(
-    description: str, *, after: float = 1.0
-) -> Iterator[Callable[[int, int], None]]:
-    """A ``progress(done, total)`` callback that shows a rich progress bar on stderr once the
-    work has taken longer than ``after`` seconds, and only on an interactive terminal."""
-    start = time.monotonic()
-    state: dict[str, Any] = {}
-    enabled = show_progress()
+    description: str, *, after: float | None = None
+) -> Iterator[Callable[..., None]]:
+    """A progress callback (see :mod:`coderel.progress`) for the phase ``description``.
 
-    def update(done: int, total: int) -> None:
-        if not enabled:
-            return
-        if "bar" not in state:
-            if time.monotonic() - start < after:
+    A rich progress bar appears on stderr once the phase has run ``after`` seconds (default
+    :data:`PROGRESS_AFTER`), even when the work inside never calls the callback (a bar without
+    a total, with the time elapsed), and only on an interactive terminal without ``--quiet``.
+    ``progress(done, total, phase)`` renames the bar for a new phase; the bar is erased at the
+    end. rich.progress is imported only when a bar is shown (``coderel --help`` stays light).
+    """
+    if not show_progress():
+        yield _no_progress
+        return
+    lock = threading.Lock()
+    state: dict[str, Any] = {"description": description, "done": 0, "total": None}
+
+    def start() -> None:  # called with the lock held
+        from rich.progress import (
+            BarColumn,
+            Progress,
+            TaskProgressColumn,
+            TextColumn,
+            TimeElapsedColumn,
+        )
+
+        bar = Progress(
+            TextColumn("{task.description}", markup=False),
+            BarColumn(),
+            TaskProgressColumn(),
+            TimeElapsedColumn(),
+            console=err_console(),
+            transient=True,
+        )
+        bar.start()
+        state["bar"] = bar
+        state["task"] = bar.add_task(
+            shown(state["description"]), total=state["total"], completed=state["done"]
+        )
+        bar.refresh()
+
+    def on_time() -> None:
+        with lock:
+            if not state.get("stopped") and "bar" not in state:
+                start()
+
+    def update(done: int, total: int, phase: str | None = None) -> None:
+        with lock:
+            state.update(done=done, total=total)
+            if phase == state["description"]:
+                phase = None
+            if phase is not None:
+                state["description"] = phase
+            bar = state.get("bar")
+            if bar is None:
                 return
-            bar = Progress(
-                TextColumn("{task.description}"),
-                BarColumn(),
-                TaskProgressColumn(),
-                TimeElapsedColumn(),
-                console=err_console(),
-                transient=True,
-            )
-            bar.start()
-            state["bar"] = bar
-            state["task"] = bar.add_task(description, total=total)
-        state["bar"].update(state["task"], completed=done, total=total)
+            if phase is None:
+                bar.update(state["task"], completed=done, total=total)
+            else:
+                bar.update(state["task"], completed=done, total=total, description=shown(phase))
+                bar.refresh()
 
+    delay = _progress_after(after)
+    timer = threading.Timer(delay, on_time)
+    timer.daemon = True
+    if delay <= 0:
+        on_time()
+    else:
+        timer.start()
     try:
         yield update
     finally:
-        if "bar" in state:
-            state["bar"].stop()
+        timer.cancel()
+        with lock:
+            state["stopped"] = True
+            if "bar" in state:
+                state["bar"].stop()

@@ -60,6 +60,7 @@ from coderel.io.rounds import is_round_table, tag_rounds
 from coderel.io.table_checks import check_blank_variables, check_partial_units, check_skip_logic
 from coderel.io.text_tables import RawTable, read_csv, read_parquet
 from coderel.io.wide import read_wide
+from coderel.progress import Progress, report
 
 
 def own_output(tables: Sequence[RawTable], codebook: Codebook) -> str | None:
@@ -227,7 +228,7 @@ def read_codings(
     paths: Sequence[str | Path] | str | Path,
     *,
     limits: Limits = DEFAULT_LIMITS,
-    progress: Callable[[int, int], None] | None = None,
+    progress: Progress | None = None,
 ) -> Codings:
     """Read coders' sheets (files or folders) into one long table, collecting every problem.
 
@@ -241,7 +242,9 @@ def read_codings(
     limits
         Safety limits applied before a file is parsed.
     progress
-        Called as ``progress(done, total)`` after each file and each check of the whole table.
+        Called as ``progress(done, total)`` after each file and each check of the whole table,
+        and with a phase (``"reading coder_ana.xlsx"``, ``"checking values"``) as each begins
+        (:mod:`coderel.progress`).
 
     Returns
     -------
@@ -259,16 +262,17 @@ def read_codings(
     sources: list[SourceFile] = []
     steps = len(files) + 3
 
-    def step(done: int) -> None:
-        if progress is not None:
-            progress(done, steps)
+    def step(done: int, phase: str | None = None) -> None:
+        report(progress, done, steps, phase)
 
     for done, path in enumerate(files, 1):
+        step(done - 1, f"reading {path.name}")
         if _read_file(reader, path, limits):
             sources.append(
                 SourceFile(path=str(path), sha256=sha256_file(path), size=path.stat().st_size)
             )
         step(done)
+    step(len(files), "checking values")
     return _assemble(codebook, reader, sources, lambda k: step(len(files) + k))
 
 

@@ -215,9 +215,11 @@ def read_versioned(
     parts = []
     for version, group in groups.items():
         if version is None:
-            parts.append(read_codings(codebook, group, limits=limits))
+            parts.append(read_codings(codebook, group, limits=limits, progress=progress))
             continue
-        read = read_codings(earlier_view(codebook, version), group, limits=limits)
+        read = read_codings(
+            earlier_view(codebook, version), group, limits=limits, progress=progress
+        )
         recode = codebook.recode_from(version)
         frame, occasions = (
             _as_now(f, codebook, renamed, recode) for f in (read.frame, read.occasions)
