@@ -42,6 +42,7 @@ from coderel.codebook import Codebook, Variable
 from coderel.errors import UsageError
 from coderel.io.atomic import refuse_overwriting_inputs, write_bytes
 from coderel.io.tables import cell_value, workbook_bytes
+from coderel.progress import Progress, report
 
 __all__ = [
     "CODEBOOK_SHEET",
@@ -413,6 +414,7 @@ def write_templates(
     *,
     overwrite: bool = False,
     inputs: Sequence[str | os.PathLike[str]] = (),
+    progress: Progress | None = None,
 ) -> list[Path]:
     """Write one blank coding workbook ``<coder>.xlsx`` per coder into ``out_dir``.
 
@@ -435,6 +437,8 @@ def write_templates(
     inputs
         Files that must never be written over (the codebook, the unit list); the codebook's own
         ``source`` is always included.
+    progress
+        Told of each workbook made ("making ana.xlsx"; :mod:`coderel.progress`).
 
     Returns
     -------
@@ -476,7 +480,11 @@ def write_templates(
     targets = [folder / f"{name}.xlsx" for name in names]
     protected = [*inputs, *([codebook.source] if codebook.source else [])]
     refuse_overwriting_inputs(targets, protected)
-    contents = [template_bytes(codebook, name, per_coder[name]) for name in names]
+    contents = []
+    for done, (name, target) in enumerate(zip(names, targets, strict=True)):
+        report(progress, done, len(names), f"making {target.name}")
+        contents.append(template_bytes(codebook, name, per_coder[name]))
+    report(progress, len(names), len(names), "writing the workbooks")
     if not overwrite:
         for target, data in zip(targets, contents, strict=True):
             if target.exists() and target.read_bytes() != data:

@@ -190,3 +190,59 @@ def test_the_library_names_phases_in_order_through_the_callback():
     assert done == sorted(done)
     assert all(0 <= d <= t for d, t, _ in calls)
     assert calls[-1][0] == calls[-1][1]  # it ends at the total
+
+
+def _phases_of(command: str, tmp_path: Path) -> tuple[list[str], list[str]]:
+    """The arguments of one command on the demo project, and the phases it must name."""
+    decisions = ROOT / "sample_decisions" / "wildlife_encounters.xlsx"
+    if command == "adjudicate":
+        return (
+            ["adjudicate", "-c", str(CB), str(SHEETS), "-o", str(tmp_path / "to_decide.xlsx")],
+            ["reading coder_cai.xlsx", "finding disagreements", "writing to_decide.xlsx"],
+        )
+    if command == "merge":
+        return (
+            [
+                "merge",
+                "-c",
+                str(CB),
+                str(SHEETS),
+                "--decisions",
+                str(decisions),
+                "-o",
+                str(tmp_path / "merged.xlsx"),
+            ],
+            ["reading wildlife_encounters.xlsx", "settling cells", "writing merged.xlsx"],
+        )
+    if command == "report":
+        return (
+            [
+                "report",
+                "-c",
+                str(CB),
+                str(SHEETS),
+                "--replicates",
+                "20",
+                "-o",
+                str(tmp_path / "report.html"),
+            ],
+            ["resampling units", "assembling the report", "drawing charts", "writing report.html"],
+        )
+    return (
+        ["template", "-c", str(CB), "--coders", "ana,ben", "-o", str(tmp_path / "blank")],
+        ["making ana.xlsx", "making ben.xlsx"],
+    )
+
+
+@pytest.mark.parametrize("command", ["adjudicate", "merge", "report", "template"])
+def test_each_long_command_names_its_phases_on_a_terminal(command, tmp_path):
+    args, phases = _phases_of(command, tmp_path)
+    code, _out, err = _run(args, terminal=True)
+    assert code == 0, err
+    for phase in phases:
+        assert phase in err
+    quiet_code, _out, quiet_err = _run(["--quiet", *args], terminal=True)
+    assert quiet_code == 0
+    for phase in phases:
+        assert phase not in quiet_err
+    assert "written" not in quiet_err

@@ -16,8 +16,10 @@ from coderel.cli.common import (
     JsonOption,
     RuleOption,
     ToleranceOption,
+    delayed_progress,
     emit_json,
     handle_errors,
+    inform,
     out_console,
     print_problems,
     read_project,
@@ -72,8 +74,10 @@ def adjudicate_command(
     )
     settling = Settling(rule, parse_tolerances(tolerance or [], codings.codebook))
     previous = out if out.exists() else None
-    adjudication = build_adjudication(codings, previous, settling)
-    write_adjudication(adjudication, out)
+    with delayed_progress("finding disagreements"):
+        adjudication = build_adjudication(codings, previous, settling)
+    with delayed_progress(f"writing {out.name}"):
+        write_adjudication(adjudication, out)
     sheet = None if out.suffix.lower() == ".csv" else MAIN_SHEET
     problems = Problems(
         replace(p, file=out.name, sheet=sheet if p.sheet == MAIN_SHEET else p.sheet)
@@ -101,7 +105,7 @@ def adjudicate_command(
         out_console().print(table)
     print_problems(problems)
     verb = "updated" if previous is not None else "written"
-    say(
+    inform(
         f"{out} {verb}: {len(adjudication.rows)} disagreement(s) to decide "
         f"({adjudication.added} new, {adjudication.kept} kept from the earlier list), "
         f"{decided} decided, {len(adjudication.rows) - decided} open; "

@@ -9,7 +9,14 @@ import typer
 from rich.table import Table
 
 from coderel.cli.app import app
-from coderel.cli.common import JsonOption, emit_json, handle_errors, out_console, say
+from coderel.cli.common import (
+    JsonOption,
+    delayed_progress,
+    emit_json,
+    handle_errors,
+    inform,
+    out_console,
+)
 from coderel.errors import ExitCode, UsageError
 
 
@@ -65,19 +72,21 @@ def assign_command(
         raise UsageError("name the unit-ID column: --id COLUMN or --codebook CODEBOOK")
     if templates is not None and cb is None:
         raise UsageError("--templates needs the codebook (--codebook)")
-    run = assign_to_files(
-        corpus,
-        reliability,
-        coders.split(","),
-        out_dir,
-        seed=seed,
-        id_column=id_column,
-        per_unit=per_unit,
-        blend=blend,
-        codebook=cb,
-        templates_dir=templates,
-        overwrite=overwrite,
-    )
+    with delayed_progress("assigning units") as step:
+        run = assign_to_files(
+            corpus,
+            reliability,
+            coders.split(","),
+            out_dir,
+            seed=seed,
+            id_column=id_column,
+            per_unit=per_unit,
+            blend=blend,
+            codebook=cb,
+            templates_dir=templates,
+            overwrite=overwrite,
+            progress=step,
+        )
     a = run.assignment
     if json_out:
         emit_json({**run.manifest, "folder": str(run.folder)})
@@ -119,7 +128,7 @@ def assign_command(
     console.print(f"record of the reliability sample: {run.files['reliability-units.txt']}")
     console.print(f"manifest: {run.files['assignment.manifest.json']}")
     if "templates" in run.manifest:
-        say(
+        inform(
             f"{len(run.manifest['templates'])} coding workbook(s) written to {templates}; give "
             "each coder their own file and do not rename it (the file name is the coder)"
         )

@@ -21,6 +21,7 @@ from coderel.cli.common import (
     JsonOption,
     emit_json,
     handle_errors,
+    inform,
     out_console,
     print_problems,
     say,
@@ -168,7 +169,7 @@ def convert_command(
             }
         )
     else:
-        say(f"{len(cb.variables)} variable(s) written to {out} ({target_form}).")
+        inform(f"{len(cb.variables)} variable(s) written to {out} ({target_form}).")
     return ExitCode.OK
 
 
@@ -195,5 +196,5 @@ def schema_command(
         typer.echo(text, nl=False)
     else:
         write_text(out, text)
-        say(f"JSON Schema written to {out}")
+        inform(f"JSON Schema written to {out}")
     return ExitCode.OK

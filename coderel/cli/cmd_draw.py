@@ -10,7 +10,14 @@ import typer
 from rich.table import Table
 
 from coderel.cli.app import app
-from coderel.cli.common import JsonOption, emit_json, handle_errors, out_console, say
+from coderel.cli.common import (
+    JsonOption,
+    delayed_progress,
+    emit_json,
+    handle_errors,
+    out_console,
+    say,
+)
 from coderel.errors import ExitCode, UsageError
 
 
@@ -73,18 +80,19 @@ def draw_command(
     columns = tuple(c.strip() for c in strata.split(",")) if strata else ()
     if any(not c for c in columns):
         raise UsageError("a stratum column name is empty (check the commas in --strata)")
-    run = draw_to_files(
-        population,
-        out,
-        id_column=id_column or "",
-        seed=chosen,
-        size=size,
-        share=share,
-        plan=plan,
-        strata_columns=columns,
-        min_per_stratum=min_per_stratum,
-        exclude=list(exclude or []),
-    )
+    with delayed_progress(f"reading {population.name} and drawing"):
+        run = draw_to_files(
+            population,
+            out,
+            id_column=id_column or "",
+            seed=chosen,
+            size=size,
+            share=share,
+            plan=plan,
+            strata_columns=columns,
+            min_per_stratum=min_per_stratum,
+            exclude=list(exclude or []),
+        )
     d = run.draw
     if json_out:
         emit_json(

@@ -16,9 +16,11 @@ from coderel.cli.common import (
     JsonOption,
     RuleOption,
     ToleranceOption,
+    delayed_progress,
     emit_json,
     err_console,
     handle_errors,
+    inform,
     out_console,
     print_problems,
     read_project,
@@ -75,9 +77,13 @@ def merge_command(
         errors_note="count as blank (a blank against a value is a disagreement to adjudicate)",
     )
     cb = codings.codebook
-    loaded = read_decisions(decisions, cb, codings.coders) if decisions is not None else None
+    loaded = None
+    if decisions is not None:
+        with delayed_progress(f"reading {decisions.name}"):
+            loaded = read_decisions(decisions, cb, codings.coders)
     tolerances = parse_tolerances(tolerance or [], cb)
-    result = merge(codings, loaded, rule=rule, tolerance=tolerances)
+    with delayed_progress("settling cells"):
+        result = merge(codings, loaded, rule=rule, tolerance=tolerances)
     bad = Problems(result.problems.errors)
     written = False
     reason = None
@@ -88,13 +94,14 @@ def merge_command(
     log = None
     was_out_of_step = False
     if reason is None:
-        log, was_out_of_step = write_audited(
-            result,
-            out,
-            lambda: write_merged(result, out, cb, spread=spread),
-            codebook_path=codebook,
-            spread=spread,
-        )
+        with delayed_progress(f"writing {out.name}"):
+            log, was_out_of_step = write_audited(
+                result,
+                out,
+                lambda: write_merged(result, out, cb, spread=spread),
+                codebook_path=codebook,
+                spread=spread,
+            )
         written = True
         if was_out_of_step:
             say(
@@ -119,14 +126,14 @@ def merge_command(
     _print_unresolved(result.unresolved_records())
     totals = result.totals()
     counts = ", ".join(f"{totals[s]} {s}" for s in STATUSES if totals[s])
-    say(
+    inform(
         f"{result.units} unit(s) x {len(cb.variables)} variable(s) = {result.cells} cell(s): "
         f"{counts} (rule: {Settling(rule, tolerances).describe()})."
     )
     if not written:
         say(f"nothing written: {reason}", style="red")
         return ExitCode.DATA_PROBLEMS
-    say(f"dataset written to {out}; audit line appended to {log}")
+    inform(f"dataset written to {out}; audit line appended to {log}")
     if result.unresolved:
         say(
             "unresolved cells are empty in the dataset; decide them with 'coderel adjudicate' "

@@ -19,9 +19,9 @@ from coderel.cli.common import (
     delayed_progress,
     emit_json,
     handle_errors,
+    inform,
     out_console,
     read_project,
-    say,
 )
 from coderel.errors import ExitCode
 
@@ -136,7 +136,7 @@ def plan_command(
     if pilot:
         codings = read_project(codebook, list(pilot), errors_note="were left out of the pilot")
         pilot_data = pilot_from_codings(codings)
-    with delayed_progress("precision plan") as progress:
+    with delayed_progress("precision of alpha at each sample size") as progress:
         result = plan_sample(
             cb,
             pilot=pilot_data,
@@ -156,7 +156,7 @@ def plan_command(
             sheet="plan",
             extra_sheets={"precision curve": curve} if len(curve) else None,
         )
-        say(f"plan written to {out}")
+        inform(f"plan written to {out}")
     if json_out:
         emit_json(result.to_dict())
     else:

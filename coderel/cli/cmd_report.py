@@ -26,6 +26,7 @@ from coderel.cli.common import (
     delayed_progress,
     emit_json,
     handle_errors,
+    inform,
     read_project,
     say,
 )
@@ -96,7 +97,8 @@ def _with_protocol(
 
     diagnostics = None
     if 2 <= len(codings.coders) <= MAX_DIAGNOSED_CODERS:
-        diagnostics = coder_diagnostics(codings)
+        with delayed_progress("comparing each coder with the others"):
+            diagnostics = coder_diagnostics(codings)
     elif len(codings.coders) > MAX_DIAGNOSED_CODERS:
         say(
             f"{len(codings.coders)} coders: coder diagnostics left out of the report (more than "
@@ -109,15 +111,21 @@ def _with_protocol(
         from coderel.io.versions import read_versioned
         from coderel.protocol.score import key_codebook, score
 
-        key_codings = read_versioned(key_codebook(codings.codebook), sorted(key_files))
+        with delayed_progress("reading the answer key") as step:
+            key_codings = read_versioned(
+                key_codebook(codings.codebook), sorted(key_files), progress=step
+            )
         if key_codings.problems.refused:
             raise InputRefused("the answer key was refused", problems=key_codings.problems)
-        scored = score(key_codings, codings, **settings)
+        with delayed_progress("scoring trainees against the key") as step:
+            scored = score(key_codings, codings, progress=step, **settings)
     if round_specs or round_names(codings):
         from coderel.cli.rounds import read_rounds
         from coderel.protocol.trend import trend
 
-        trended = trend(read_rounds(codebook, round_specs, codings), **settings)
+        read = read_rounds(codebook, round_specs, codings)
+        with delayed_progress("agreement per round") as step:
+            trended = trend(read, progress=step, **settings)
     return dataclasses.replace(content, protocol=protocol_parts(diagnostics, scored, trended))
 
 
@@ -214,7 +222,7 @@ def report_command(
     if not codings.occasions.empty:
         from coderel.stability import stability
 
-        with delayed_progress("stability") as step:
+        with delayed_progress("each coder against themselves (stability)") as step:
             stable = stability(
                 codings,
                 replicates=replicates,
@@ -229,13 +237,15 @@ def report_command(
         from coderel.adjudicate import read_decisions
         from coderel.merge import merge
 
-        read = read_decisions(decisions, cb)
+        with delayed_progress(f"reading {decisions.name}"):
+            read = read_decisions(decisions, cb)
         if read.problems:
             say(
                 f"{len(read.problems)} problem(s) in the decisions file; those decisions were "
                 "left out; correct them in the adjudication list"
             )
-        merged = merge(codings, read, rule=rule, tolerance=tolerances)
+        with delayed_progress("settling cells with the decisions"):
+            merged = merge(codings, read, rule=rule, tolerance=tolerances)
         decisions_source = read.source or SourceFile(
             str(decisions), sha256_file(decisions), decisions.stat().st_size
         )
@@ -246,30 +256,36 @@ def report_command(
     options += [f"--occasion {spec}" for spec in occasion or []]
     if icc_ordinal:
         options.append("--icc-ordinal")
-    content = build_report(
-        codings,
-        result,
-        merged,
-        command=_command_line(codebook, data, decisions, options),
-        decisions_source=decisions_source,
-        codebook_source=SourceFile(str(codebook), sha256_file(codebook), codebook.stat().st_size),
-        generated=when,
-        stability=stable,
-    )
+    with delayed_progress("assembling the report"):
+        content = build_report(
+            codings,
+            result,
+            merged,
+            command=_command_line(codebook, data, decisions, options),
+            decisions_source=decisions_source,
+            codebook_source=SourceFile(
+                str(codebook), sha256_file(codebook), codebook.stat().st_size
+            ),
+            generated=when,
+            stability=stable,
+        )
     content = _with_protocol(
         content, codings, codebook, key_files, round_specs, replicates, seed, interval_method
     )
-    written = write_report(content, out, forms) if out is not None else []
+    written = []
+    if out is not None:
+        with delayed_progress(f"writing {out.name}") as step:
+            written = write_report(content, out, forms, progress=step)
     reports = [p for p in written if p in targets]
     charts = len(written) - len(reports)
     if json_out:
         emit_json(content.to_dict())
         for path in reports:
-            say(f"written: {path}")
+            inform(f"written: {path}")
     else:
         for path in reports:
             typer.echo(str(path))
     if charts:
         folder = next(p for p in written if p not in targets).parent
-        say(f"{charts} chart(s) of the Markdown report in {folder}")
+        inform(f"{charts} chart(s) of the Markdown report in {folder}")
     return ExitCode.OK

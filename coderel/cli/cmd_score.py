@@ -22,6 +22,7 @@ from coderel.cli.common import (
     delayed_progress,
     emit_json,
     handle_errors,
+    inform,
     out_console,
     read_project,
     say,
@@ -94,13 +95,16 @@ def score_command(
     if not data_files:
         raise UsageError("no trainee's sheet left once the key is set apart: give DATA")
     trainees = read_project(codebook, data_files, errors_note="count as blank")
-    key_codings = read_versioned(key_codebook(trainees.codebook), sorted(key_files))
+    with delayed_progress("reading the answer key") as step:
+        key_codings = read_versioned(
+            key_codebook(trainees.codebook), sorted(key_files), progress=step
+        )
     if key_codings.problems.refused:
         raise InputRefused("the answer key was refused", problems=key_codings.problems)
     key_errors = key_codings.problems.errors
     if key_errors:
         say(f"{len(key_errors)} cell(s) of the key with errors count as blank; validate the key")
-    with delayed_progress("bootstrap") as progress:
+    with delayed_progress("scoring trainees: resampling units") as progress:
         result = score(
             key_codings,
             trainees,
@@ -113,11 +117,13 @@ def score_command(
         paths = [out / feedback_name(t) for t in result.trainees]
         refuse_overwriting_inputs(paths, [*data_files, *key_files, codebook])
         out.mkdir(parents=True, exist_ok=True)
-        for trainee, path in zip(result.trainees, paths, strict=True):
-            frame = result.to_frame()
-            mine = frame[frame["trainee"] == trainee].drop(columns=["trainee"])
-            write_xlsx({"differences": result.feedback[trainee], "scores": mine}, path)
-        say(f"{len(paths)} feedback workbook(s) written to {out}")
+        with delayed_progress("writing feedback workbooks") as step:
+            for done, (trainee, path) in enumerate(zip(result.trainees, paths, strict=True)):
+                step(done, len(paths), f"writing {path.name}")
+                frame = result.to_frame()
+                mine = frame[frame["trainee"] == trainee].drop(columns=["trainee"])
+                write_xlsx({"differences": result.feedback[trainee], "scores": mine}, path)
+        inform(f"{len(paths)} feedback workbook(s) written to {out}")
     if json_out:
         emit_json(result.to_dict())
         return ExitCode.OK

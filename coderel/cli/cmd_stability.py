@@ -22,6 +22,7 @@ from coderel.cli.common import (
     delayed_progress,
     emit_json,
     handle_errors,
+    inform,
     out_console,
     read_project,
     say,
@@ -69,7 +70,7 @@ def stability_command(
     check_table_output(out, data, codebook)
     codings = read_project(codebook, data, errors_note="were left out")
     codings = attach_occasions(codings, occasion, codebook)
-    with delayed_progress("bootstrap") as progress:
+    with delayed_progress("each coder against themselves: resampling units") as progress:
         result = stability(
             codings,
             replicates=replicates,
@@ -80,7 +81,7 @@ def stability_command(
         )
     if out is not None:
         write_table(result.to_frame(), out, sheet="stability")
-        say(f"table written to {out}")
+        inform(f"table written to {out}")
     if json_out:
         emit_json(result.to_dict())
         return ExitCode.OK

@@ -8,7 +8,14 @@ from typing import Annotated
 import typer
 
 from coderel.cli.app import app
-from coderel.cli.common import CodebookOption, JsonOption, emit_json, handle_errors, say
+from coderel.cli.common import (
+    CodebookOption,
+    JsonOption,
+    delayed_progress,
+    emit_json,
+    handle_errors,
+    inform,
+)
 from coderel.errors import ExitCode
 
 
@@ -42,15 +49,22 @@ def template_command(
     cb = load_codebook(codebook)
     unit_list = read_unit_list(units) if units is not None else []
     inputs = [codebook, *([units] if units is not None else [])]
-    written = write_templates(
-        cb, coders.split(","), out_dir, unit_list, overwrite=overwrite, inputs=inputs
-    )
+    with delayed_progress("making the coding workbooks") as step:
+        written = write_templates(
+            cb,
+            coders.split(","),
+            out_dir,
+            unit_list,
+            overwrite=overwrite,
+            inputs=inputs,
+            progress=step,
+        )
     if json_out:
         emit_json({"files": [str(p) for p in written], "units": len(unit_list)})
     else:
         for path in written:
             typer.echo(str(path))
-        say(
+        inform(
             f"{len(written)} coding workbook(s) written to {out_dir}"
             + (f", {len(unit_list)} unit(s) pre-filled" if unit_list else "")
             + "; give each coder their own file and do not rename it (the file name is the coder)."

@@ -21,6 +21,7 @@ from coderel.cli.common import (
     delayed_progress,
     emit_json,
     handle_errors,
+    inform,
     out_console,
     say,
 )
@@ -77,7 +78,7 @@ def trend_command(
     if data:
         column = read_project(codebook, data, errors_note="count as blank")
     read = read_rounds(codebook, parsed, column)
-    with delayed_progress("bootstrap per round") as progress:
+    with delayed_progress("agreement per round: resampling units") as progress:
         result = trend(
             read,
             replicates=replicates,
@@ -89,7 +90,7 @@ def trend_command(
         write_table(
             result.to_frame(), out, sheet="alpha", extra_sheets={"coders": result.coders_frame()}
         )
-        say(f"table written to {out}")
+        inform(f"table written to {out}")
     if json_out:
         emit_json(result.to_dict())
         return ExitCode.OK

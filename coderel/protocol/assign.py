@@ -34,6 +34,7 @@ from coderel.codebook import Codebook
 from coderel.errors import UsageError
 from coderel.io.atomic import refuse_overwriting_inputs, sha256_file, write_text
 from coderel.io.tables import csv_text
+from coderel.progress import Progress, report
 from coderel.protocol.manifest import digest_lines, manifest_text, parse_seed, unit_list_text
 from coderel.protocol.population import read_units
 from coderel.template import check_coder_names, write_templates
@@ -271,6 +272,7 @@ def assign_to_files(
     codebook: Codebook | None = None,
     templates_dir: str | os.PathLike[str] | None = None,
     overwrite: bool = False,
+    progress: Progress | None = None,
 ) -> AssignRun:
     """Read the corpus and the reliability list, assign, and write the lists and the manifest.
 
@@ -278,13 +280,15 @@ def assign_to_files(
     record of the reliability sample), ``assignment.csv`` (coder, position, unit, role) and
     ``assignment.manifest.json``. With ``templates_dir`` (and ``codebook``), one coding workbook
     per coder pre-filled with that coder's list (:func:`coderel.template.write_templates`),
-    recorded in the manifest with its SHA-256.
+    recorded in the manifest with its SHA-256. ``progress`` is told of each phase
+    (:mod:`coderel.progress`).
     """
     if templates_dir is not None and codebook is None:
         raise UsageError("coding workbooks need the codebook (--codebook)")
     folder = Path(out_dir)
     if folder.exists() and not folder.is_dir():
         raise UsageError(f"the output {folder.name!r} is a file, not a folder")
+    report(progress, 0, 1, "reading the corpus")
     corpus_table = read_units(corpus, id_column, what="corpus")
     rel_table = read_units(reliability, id_column, what="reliability list")
     result = assign_units(
@@ -339,6 +343,7 @@ def assign_to_files(
             {c: list(result.lists[c]) for c in result.coders},
             overwrite=overwrite,
             inputs=[Path(corpus), Path(reliability), *targets.values()],
+            progress=progress,
         )
         body["templates"] = [{"file": p.name, "sha256": sha256_file(p)} for p in books]
     manifest = manifest_text(body)

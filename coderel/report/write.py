@@ -8,6 +8,7 @@ from pathlib import Path
 
 from coderel.errors import UsageError
 from coderel.io.atomic import write_text
+from coderel.progress import Progress, report
 from coderel.report.charts import report_charts, standalone_svg
 from coderel.report.html import render_html
 from coderel.report.markdown import chart_file, render_markdown
@@ -54,6 +55,8 @@ def write_report(
     content: ReportContent,
     path: str | os.PathLike[str],
     formats: Iterable[str] | None = None,
+    *,
+    progress: Progress | None = None,
 ) -> list[Path]:
     """Write the report in the forms asked for; return every file written.
 
@@ -66,6 +69,8 @@ def write_report(
         is written beside it with the same stem (``report.html``, ``report.md``, ...).
     formats
         Any of ``html``, ``md``, ``xlsx``.
+    progress
+        Told of each phase ("drawing charts", "writing report.html"; :mod:`coderel.progress`).
 
     Returns
     -------
@@ -76,10 +81,13 @@ def write_report(
     charts: dict[str, str] | None = None
     written: list[Path] = []
     extra: list[Path] = []
-    for target in targets:
+    steps = len(targets) + 1
+    for done, target in enumerate(targets):
         form = report_format(target.suffix)
         if form in ("html", "md") and charts is None:
+            report(progress, done, steps, "drawing charts")
             charts = report_charts(content)
+        report(progress, done + 1, steps, f"writing {target.name}")
         if form == "html":
             write_text(target, render_html(content, charts))
         elif form == "md":
@@ -92,4 +100,5 @@ def write_report(
         else:
             write_report_xlsx(content, target)
         written.append(target)
+    report(progress, steps, steps)
     return written + extra
