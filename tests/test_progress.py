@@ -246,3 +246,20 @@ def test_each_long_command_names_its_phases_on_a_terminal(command, tmp_path):
     for phase in phases:
         assert phase not in quiet_err
     assert "written" not in quiet_err
+
+
+def test_help_does_not_load_the_progress_bar():
+    """rich.progress is imported only when a bar is drawn (``coderel --help`` stays light)."""
+    probe = (
+        "import sys\n"
+        "from coderel.cli import app\n"
+        "try:\n"
+        "    app(['--help'], standalone_mode=False)\n"
+        "except SystemExit:\n"
+        "    pass\n"
+        "print('rich.progress' in sys.modules, 'rich.live' in sys.modules)"
+    )
+    done = subprocess.run(
+        [sys.executable, "-c", probe], capture_output=True, text=True, check=True, timeout=120
+    )
+    assert done.stdout.strip().splitlines()[-1] == "False False"
