@@ -23,6 +23,7 @@ import pandas as pd
 from coderel.agree import AgreementResult, agreement
 from coderel.codings import OCCASION_COLUMNS, Codings
 from coderel.errors import CoderelError, ExitCode, UsageError
+from coderel.progress import report
 
 FIRST = "first occasion"
 SECOND = "second occasion"
@@ -215,9 +216,8 @@ def stability(
             )
             pair = Codings.from_records(codings.codebook, both)
 
-            def step(done: int, total: int, i: int = i) -> None:
-                if progress is not None:
-                    progress(i * total + done, len(order) * total)
+            def step(done: int, total: int, phase: str | None = None, i: int = i) -> None:
+                report(progress, i * total + done, len(order) * total, phase)
 
             result = agreement(
                 pair,
