@@ -32,6 +32,7 @@ from coderel.agree.results import AgreementResult, Estimate
 from coderel.codebook.model import Code, Codebook, Variable
 from coderel.codings import Codings
 from coderel.errors import UsageError
+from coderel.io.versions import recode_rows
 
 WHAT_IF_WORDS = (
     "what-if: alpha with the named categories merged, computed on the same codings; the coders "
@@ -151,15 +152,6 @@ def collapsed_variable(var: Variable, mapping: dict[Code, Code]) -> Variable:
     return dataclasses.replace(var, categories=categories, applies_when=None)
 
 
-def _recoded(value: Any, mapping: dict[Code, Code], order: dict[Code, int]) -> Any:
-    if value is None:
-        return None
-    if isinstance(value, tuple):
-        mapped = {mapping.get(c, c) for c in value}
-        return tuple(sorted(mapped, key=lambda c: order.get(c, len(order))))
-    return mapping.get(value, value)
-
-
 def collapsed_codings(codings: Codings, collapses: Sequence[Collapse]) -> Codings:
     """The codings of the collapsed variables only, recoded, under a codebook that holds those
     variables with their categories merged (a new object; ``codings`` is not changed)."""
@@ -171,13 +163,7 @@ def collapsed_codings(codings: Codings, collapses: Sequence[Collapse]) -> Coding
         mapping = _mapping(collapses, name)
         var = collapsed_variable(cb.variable(name), mapping)
         variables.append(var)
-        order = {c: i for i, c in enumerate(var.codes)}
-        rows = frame["variable"] == name
-        frame.loc[rows, "value"] = pd.Series(
-            [_recoded(v, mapping, order) for v in frame.loc[rows, "value"]],
-            index=frame.index[rows],
-            dtype=object,
-        )
+        recode_rows(frame, name, mapping, var.codes)
     codebook = dataclasses.replace(cb, variables=tuple(variables), recode=())
     return Codings.from_records(codebook, frame)
 

@@ -122,6 +122,21 @@ def _recoded(value: Any, mapping: dict[Code, Code], order: dict[Code, int]) -> A
     return mapping.get(value, value)
 
 
+def recode_rows(
+    frame: pd.DataFrame, variable: str, mapping: dict[Code, Code], codes: Sequence[Code]
+) -> None:
+    """Replace, in place, the mapped codes of ``variable``'s rows of a long table; a
+    multi-select set stays a set, in the order of ``codes`` (the variable's codes after the
+    mapping). Shared by codebook recodes and the what-if of ``agree --collapse``."""
+    rows = frame["variable"] == variable
+    order = {c: i for i, c in enumerate(codes)}
+    frame.loc[rows, "value"] = pd.Series(
+        [_recoded(v, mapping, order) for v in frame.loc[rows, "value"]],
+        index=frame.index[rows],
+        dtype=object,
+    )
+
+
 def recode_frame(frame: pd.DataFrame, codebook: Codebook, recode: Recode) -> pd.DataFrame:
     """The long table with every mapped code replaced (a new frame; ``applies`` recomputed)."""
     out = frame.copy()
@@ -129,13 +144,7 @@ def recode_frame(frame: pd.DataFrame, codebook: Codebook, recode: Recode) -> pd.
         mapping = recode.map_for(var.name)
         if not mapping:
             continue
-        rows = out["variable"] == var.name
-        order = {c: i for i, c in enumerate(var.codes)}
-        out.loc[rows, "value"] = pd.Series(
-            [_recoded(v, mapping, order) for v in out.loc[rows, "value"]],
-            index=out.index[rows],
-            dtype=object,
-        )
+        recode_rows(out, var.name, mapping, var.codes)
     return out.drop(columns=["applies"], errors="ignore")
 
 
