@@ -1,17 +1,24 @@
 """A seeded long table on the demo codebook (every level of measurement, a multi-select variable,
 skip logic, missing codes and a few invalid cells), written as a dataset of Parquet files: split
-by unit (``by="unit"``), or one file per coder or per variable (every unit in many files)."""
+by unit (``by="unit"``), or one file per coder or per variable (every unit in many files); and the
+fixtures and comparison the engine tests share: a test module makes them its fixtures with
+``pytest.fixture(scope="module", name=...)``, so that each module starts one local cluster."""
 
 from __future__ import annotations
 
+import math
 from pathlib import Path
 
 import numpy as np
 import pyarrow as pa
 import pyarrow.parquet as pq
+import pytest
 
 CODEBOOK = Path(__file__).resolve().parents[1] / "sample_codebooks" / "wildlife_encounters.yaml"
 CODERS = ("ana", "ben", "cai", "dev")
+#: Units of the engine tests' dataset: ~40,000 labels, so that the suite stays quick (the 1M case
+#: is in benchmarks/bench_engine.py).
+UNITS = 1_200
 
 
 def long_table(n_units: int, seed: int = 14, first: int = 0) -> pa.Table:
@@ -99,3 +106,51 @@ def write_dataset(table: pa.Table, folder: Path, by: str = "unit", parts: int = 
     for p in range(parts):
         pq.write_table(table.filter(pa.array(bucket == p)), folder / f"part-{p:03d}.parquet")
     return folder
+
+
+def local_cluster():
+    """A real ``distributed.LocalCluster``: 2 worker processes (one thread each) on 127.0.0.1."""
+    distributed = pytest.importorskip("distributed")
+    with distributed.LocalCluster(
+        n_workers=2,
+        threads_per_worker=1,
+        processes=True,
+        host="127.0.0.1",
+        dashboard_address="127.0.0.1:0",
+    ) as c:
+        yield c
+
+
+def engine_dataset(tmp_path_factory):
+    """The seeded table of ``UNITS`` units partitioned by unit (5 parts), one file per coder and
+    one per variable."""
+    root = tmp_path_factory.mktemp("engine")
+    table = long_table(UNITS, seed=21)
+    return {
+        "unit": write_dataset(table, root / "by_unit", by="unit", parts=5),
+        "coder": write_dataset(table, root / "by_coder", by="coder"),
+        "variable": write_dataset(table, root / "by_variable", by="variable"),
+        "labels": table.num_rows,
+    }
+
+
+def compare(a, b, path="", worst=None):
+    """Every float to 1e-12, everything else equal; returns the largest difference."""
+    worst = [0.0] if worst is None else worst
+    if isinstance(a, dict):
+        assert set(a) == set(b), path
+        for k in a:
+            compare(a[k], b[k], f"{path}/{k}", worst)
+    elif isinstance(a, list | tuple):
+        assert len(a) == len(b), path
+        for i, (x, y) in enumerate(zip(a, b, strict=True)):
+            compare(x, y, f"{path}[{i}]", worst)
+    elif isinstance(a, float) and isinstance(b, float):
+        if math.isnan(a):
+            assert math.isnan(b), path
+        else:
+            worst[0] = max(worst[0], abs(a - b))
+            assert abs(a - b) <= 1e-12, (path, a, b)
+    else:
+        assert a == b, (path, a, b)
+    return worst[0]

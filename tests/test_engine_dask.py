@@ -14,7 +14,6 @@ equal. The ~1M-label case is in benchmarks/bench_scale.py (``--engine dask``).
 from __future__ import annotations
 
 import json
-import math
 import sys
 
 import pytest
@@ -22,58 +21,20 @@ from typer.testing import CliRunner
 
 from coderel.cli import app
 from coderel.codebook.load import load_codebook
-from tests.engine_data import CODEBOOK, long_table, write_dataset
+from tests.engine_data import (
+    CODEBOOK,
+    compare,
+    engine_dataset,
+    local_cluster,
+    long_table,
+    write_dataset,
+)
 
 distributed = pytest.importorskip("distributed")
 
 pytestmark = pytest.mark.cluster
-UNITS = 1_200  # ~40,000 labels: the suite stays quick; the 1M case is in the benchmark
-
-
-@pytest.fixture(scope="module")
-def cluster():
-    with distributed.LocalCluster(
-        n_workers=2,
-        threads_per_worker=1,
-        processes=True,
-        host="127.0.0.1",
-        dashboard_address="127.0.0.1:0",
-    ) as c:
-        yield c
-
-
-@pytest.fixture(scope="module")
-def dataset(tmp_path_factory):
-    root = tmp_path_factory.mktemp("engine")
-    table = long_table(UNITS, seed=21)
-    return {
-        "unit": write_dataset(table, root / "by_unit", by="unit", parts=5),
-        "coder": write_dataset(table, root / "by_coder", by="coder"),
-        "variable": write_dataset(table, root / "by_variable", by="variable"),
-        "labels": table.num_rows,
-    }
-
-
-def _compare(a, b, path="", worst=None):
-    """Every float to 1e-12, everything else equal; returns the largest difference."""
-    worst = [0.0] if worst is None else worst
-    if isinstance(a, dict):
-        assert set(a) == set(b), path
-        for k in a:
-            _compare(a[k], b[k], f"{path}/{k}", worst)
-    elif isinstance(a, list | tuple):
-        assert len(a) == len(b), path
-        for i, (x, y) in enumerate(zip(a, b, strict=True)):
-            _compare(x, y, f"{path}[{i}]", worst)
-    elif isinstance(a, float) and isinstance(b, float):
-        if math.isnan(a):
-            assert math.isnan(b), path
-        else:
-            worst[0] = max(worst[0], abs(a - b))
-            assert abs(a - b) <= 1e-12, (path, a, b)
-    else:
-        assert a == b, (path, a, b)
-    return worst[0]
+_cluster = pytest.fixture(scope="module", name="cluster")(local_cluster)
+_dataset = pytest.fixture(scope="module", name="dataset")(engine_dataset)
 
 
 @pytest.mark.parametrize("layout", ["unit", "coder", "variable"])
@@ -95,7 +56,7 @@ def test_dask_engine_gives_the_in_process_numbers(cluster, dataset, layout):
     assert run.partitions == {"unit": 5, "coder": 4, "variable": 10}[layout]
     assert len(run.problems.errors) == len(codings.problems.errors) > 0
     assert run.single_coded_units == codings.single_coded_units()
-    worst = _compare(local.to_dict(pairs=True), run.result.to_dict(pairs=True))
+    worst = compare(local.to_dict(pairs=True), run.result.to_dict(pairs=True))
     assert worst <= 1e-12
     # the intervals are there to compare: most coefficients have one
     alpha = [v.coefficients["krippendorff_alpha"] for v in run.result.variables]
@@ -110,7 +71,7 @@ def test_agree_command_on_a_scheduler_matches_the_default_engine(cluster, datase
         app, [*base, "--engine", "dask", "--scheduler", cluster.scheduler_address]
     )
     assert local.exit_code == remote.exit_code == 1, remote.output  # a few invalid cells
-    _compare(json.loads(local.stdout), json.loads(remote.stdout))
+    compare(json.loads(local.stdout), json.loads(remote.stdout))
     assert "partition(s) by unit on the workers" in remote.stderr
 
 
@@ -121,7 +82,7 @@ def test_agree_starts_a_local_cluster_without_an_address(tmp_path):
     local = runner.invoke(app, base)
     remote = runner.invoke(app, [*base, "--engine", "dask"])
     assert remote.exit_code == local.exit_code, remote.output
-    _compare(json.loads(local.stdout), json.loads(remote.stdout))
+    compare(json.loads(local.stdout), json.loads(remote.stdout))
     assert "local cluster" in remote.stderr
 
 

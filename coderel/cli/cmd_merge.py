@@ -26,6 +26,7 @@ from coderel.cli.common import (
     read_project,
     say,
 )
+from coderel.cli.engines import EngineOption, SchedulerOption, use_cluster
 from coderel.errors import ExitCode, UsageError
 from coderel.problems import Problems
 
@@ -54,6 +55,8 @@ def merge_command(
         bool, typer.Option("--spread", help="Add a 0/1 column per category of multi-select.")
     ] = False,
     json_out: JsonOption = False,
+    engine: EngineOption = "local",
+    scheduler: SchedulerOption = None,
 ) -> ExitCode:
     """One row per unit, a final value and a status per variable; an audit line per merge."""
     from coderel.adjudicate import read_decisions
@@ -71,19 +74,32 @@ def merge_command(
             raise UsageError(f"no such decisions file: {decisions.name!r}")
         inputs.append(decisions)
     refuse_overwriting_inputs([out, audit_path(out)], inputs)
-    codings = read_project(
-        codebook,
-        data,
-        errors_note="count as blank (a blank against a value is a disagreement to adjudicate)",
-    )
-    cb = codings.codebook
-    loaded = None
-    if decisions is not None:
-        with delayed_progress(f"reading {decisions.name}"):
-            loaded = read_decisions(decisions, cb, codings.coders)
-    tolerances = parse_tolerances(tolerance or [], cb)
-    with delayed_progress("settling cells"):
-        result = merge(codings, loaded, rule=rule, tolerance=tolerances)
+    errors_note = "count as blank (a blank against a value is a disagreement to adjudicate)"
+    if use_cluster(engine, scheduler):
+        from coderel.cli.engines import merge_on_cluster
+        from coderel.codebook.load import load_codebook
+
+        cb = load_codebook(codebook)
+        tolerances = parse_tolerances(tolerance or [], cb)
+        result = merge_on_cluster(
+            cb,
+            data,
+            scheduler,
+            decisions=decisions,
+            rule=rule,
+            tolerance=tolerances,
+            errors_note=errors_note,
+        ).result
+    else:
+        codings = read_project(codebook, data, errors_note=errors_note)
+        cb = codings.codebook
+        loaded = None
+        if decisions is not None:
+            with delayed_progress(f"reading {decisions.name}"):
+                loaded = read_decisions(decisions, cb, codings.coders)
+        tolerances = parse_tolerances(tolerance or [], cb)
+        with delayed_progress("settling cells"):
+            result = merge(codings, loaded, rule=rule, tolerance=tolerances)
     bad = Problems(result.problems.errors)
     written = False
     reason = None

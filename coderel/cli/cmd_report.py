@@ -30,6 +30,7 @@ from coderel.cli.common import (
     read_project,
     say,
 )
+from coderel.cli.engines import EngineOption, SchedulerOption, use_cluster
 from coderel.cli.occasions import IccOrdinalOption, OccasionOption, attach_occasions
 from coderel.errors import ExitCode, UsageError
 
@@ -176,6 +177,8 @@ def report_command(
     occasion: OccasionOption = None,
     icc_ordinal: IccOrdinalOption = False,
     json_out: JsonOption = False,
+    engine: EngineOption = "local",
+    scheduler: SchedulerOption = None,
 ) -> ExitCode:
     """The reliability report: summary, agreement table, charts, coders, methods paragraph."""
     from coderel.adjudicate.rules import parse_tolerances
@@ -203,21 +206,26 @@ def report_command(
     inputs += [*key_files, *round_files(round_specs)]
     refuse_overwriting_inputs(targets, inputs)
     when = report_time(date)
+    on_cluster = use_cluster(engine, scheduler, occasion=occasion)
 
     codings = read_project(codebook, data, errors_note="were left out")
     codings = attach_occasions(codings, occasion, codebook)
     cb = codings.codebook
     tolerances = parse_tolerances(tolerance or [], cb)
-    with delayed_progress("agreement per variable") as step:
-        result = agreement(
-            codings,
-            replicates=replicates,
-            seed=seed,
-            interval_method=interval_method,
-            icc_ordinal=icc_ordinal,
-            memory=parse_memory(memory),
-            progress=step,
-        )
+    settings = {
+        "replicates": replicates,
+        "seed": seed,
+        "interval_method": interval_method,
+        "icc_ordinal": icc_ordinal,
+        "memory": parse_memory(memory),
+    }
+    if on_cluster:  # the agreement on the cluster, the rest of the report in this process
+        from coderel.cli.engines import agree_on_cluster
+
+        result = agree_on_cluster(codebook, data, scheduler, errors_note=None, **settings).result
+    else:
+        with delayed_progress("agreement per variable") as step:
+            result = agreement(codings, progress=step, **settings)
     stable = None
     if not codings.occasions.empty:
         from coderel.stability import stability

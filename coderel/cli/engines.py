@@ -12,6 +12,7 @@ from coderel.errors import UsageError
 
 if TYPE_CHECKING:
     from coderel.engine.agree import ClusterRun
+    from coderel.engine.merge import ClusterMerge
 
 EngineOption = Annotated[
     Literal["local", "dask"],
@@ -59,10 +60,11 @@ def agree_on_cluster(
     seed: int,
     interval_method: str,
     memory: int,
-    errors_note: str,
+    errors_note: str | None,
 ) -> ClusterRun:
     """``agree``'s numbers computed on the cluster, with the same messages about the input as
-    :func:`coderel.cli.common.read_project`."""
+    :func:`coderel.cli.common.read_project` (none when ``errors_note`` is None: a command that
+    read the data in this process too, ``report``, has told them already)."""
     from coderel.codebook.load import load_codebook
     from coderel.engine.agree import agreement_on_cluster
     from coderel.engine.cluster import connect
@@ -70,8 +72,7 @@ def agree_on_cluster(
 
     dataset_files(data)  # refuse other files before a cluster is started
     cb = load_codebook(codebook)
-    where = scheduler or "a local cluster (2 worker processes on 127.0.0.1)"
-    say(f"computing on {where}")
+    _say_where(scheduler)
     with (
         connect(scheduler) as client,
         delayed_progress("reading and summarising on the workers") as reading,
@@ -89,9 +90,56 @@ def agree_on_cluster(
             reading=reading,
             progress=progress,
         )
-    tell_read_problems(run.problems, errors_note=errors_note)
+    if errors_note is not None:
+        tell_read_problems(run.problems, errors_note=errors_note)
+    _say_read(run.files, run.partitions, run.labels)
+    return run
+
+
+def _say_where(scheduler: str | None) -> None:
+    say(f"computing on {scheduler or 'a local cluster (2 worker processes on 127.0.0.1)'}")
+
+
+def _say_read(files: int, partitions: int, labels: int) -> None:
     say(
-        f"read {run.labels:,} label(s) from {run.files:,} file(s) in {run.partitions:,} "
+        f"read {labels:,} label(s) from {files:,} file(s) in {partitions:,} "
         "partition(s) by unit on the workers"
     )
+
+
+def merge_on_cluster(
+    codebook,
+    data: list[Path],
+    scheduler: str | None,
+    *,
+    decisions: Path | None,
+    rule: str,
+    tolerance,
+    errors_note: str,
+) -> ClusterMerge:
+    """``merge``'s result computed on the cluster (``codebook`` loaded, ``tolerance`` parsed),
+    with the same messages about the input as :func:`coderel.cli.common.read_project`."""
+    from coderel.engine import merge as engine_merge
+    from coderel.engine.cluster import connect
+    from coderel.engine.partitions import dataset_files
+
+    dataset_files(data)  # refuse other files before a cluster is started
+    _say_where(scheduler)
+    with (
+        connect(scheduler) as client,
+        delayed_progress("reading the sheets on the workers") as reading,
+        delayed_progress("settling cells on the workers") as settling,
+    ):
+        run = engine_merge.merge_on_cluster(
+            client,
+            codebook,
+            data,
+            decisions_path=decisions,
+            rule=rule,
+            tolerance=tolerance,
+            reading=reading,
+            settling=settling,
+        )
+    tell_read_problems(run.problems, errors_note=errors_note)
+    _say_read(run.files, run.partitions, run.labels)
     return run

@@ -52,21 +52,14 @@ def agreement_on_cluster(
     from coderel.agree.driver import agreement_of_targets, check_settings
     from coderel.engine.assemble import assemble
     from coderel.engine.bootstrap import cluster_evaluator
-    from coderel.engine.partitions import (
-        check_no_occasions,
-        dataset_files,
-        file_groups,
-        unit_keys_of,
-    )
+    from coderel.engine.partitions import summarise
+    from coderel.engine.reading import dataset_groups, partition_tasks
+    from coderel.engine.shuffle import summarise_bucket
 
     check_settings(replicates, seed, ci_level, interval_method)
-    files = [str(f) for f in dataset_files(paths)]
-    found = client.gather(client.map(unit_keys_of, files, pure=False))
-    check_no_occasions(files, [occasion for _, occasion in found])
-    groups = file_groups([keys for keys, _ in found])
-    del found
+    files, groups = dataset_groups(client, paths)
     cb = client.scatter(codebook, broadcast=True)
-    tasks = _reading_tasks(client, cb, files, groups)
+    tasks = partition_tasks(client, cb, files, groups, summarise, summarise_bucket).tasks
     futures = {fut: n for n, fut in enumerate(tasks)}
     summaries = [None] * len(tasks)
     for done, fut in enumerate(as_completed(futures), 1):
@@ -96,33 +89,3 @@ def agreement_on_cluster(
         evaluate=cluster_evaluator(client),
     )
     return ClusterRun(result, problems, single, len(files), len(tasks), labels)
-
-
-def _reading_tasks(client: Client, cb, files: list[str], groups: list[list[int]]) -> list:
-    """One task per group of one file; the files of groups of several files (they share units)
-    repartitioned by a hash of the unit ID into as many buckets, each bucket one task. Files
-    that cannot be read column by column keep their group, read by one task."""
-    from coderel.engine.partitions import summarise
-    from coderel.engine.shuffle import bucket, is_split, split_file, summarise_bucket
-
-    tasks = [
-        client.submit(summarise, cb, [files[i] for i in g], pure=False)
-        for g in groups
-        if len(g) == 1
-    ]
-    shared = [g for g in groups if len(g) > 1]
-    if not shared:
-        return tasks
-    mixed = sorted(i for g in shared for i in g)
-    workers = max(1, len(client.scheduler_info().get("workers", {})))
-    n = max(len(mixed), 2 * workers)
-    splits = [client.submit(split_file, files[i], n, pure=False) for i in mixed]
-    if not all(client.gather([client.submit(is_split, f, pure=False) for f in splits])):
-        del splits
-        return tasks + [
-            client.submit(summarise, cb, [files[i] for i in g], pure=False) for g in shared
-        ]
-    for j in range(n):
-        pieces = [client.submit(bucket, f, j, pure=False) for f in splits]
-        tasks.append(client.submit(summarise_bucket, cb, pieces, pure=False))
-    return tasks
