@@ -207,6 +207,10 @@ def report_command(
     refuse_overwriting_inputs(targets, inputs)
     when = report_time(date)
     on_cluster = use_cluster(engine, scheduler, occasion=occasion)
+    if on_cluster:  # refuse other files before anything is read
+        from coderel.engine.partitions import dataset_files
+
+        dataset_files(data)
 
     codings = read_project(codebook, data, errors_note="were left out")
     codings = attach_occasions(codings, occasion, codebook)
