@@ -13,8 +13,10 @@ import pytest
 from sklearn.metrics import cohen_kappa_score
 
 import coderel.stats.plan as plan_module
-from coderel.stats.bootstrap import PoissonUnitWeights, evaluate_plans
-from coderel.stats.plan import Scale, build_plan
+from coderel.stats.bootstrap import PoissonUnitWeights, evaluate_plans, run_sums
+from coderel.stats.counts import coder_pairs, confusion_table
+from coderel.stats.pair_tables import light_from_tables, light_leave_one_out, pair_tables
+from coderel.stats.plan import MixedColumns, Scale, build_plan
 
 
 def _crowd(n_units: int = 400, n_coders: int = 12, seed: int = 3) -> np.ndarray:
@@ -28,19 +30,49 @@ def _crowd(n_units: int = 400, n_coders: int = 12, seed: int = 3) -> np.ndarray:
     return x
 
 
-def test_sparse_pair_columns_give_the_dense_results(monkeypatch):
-    x = _crowd()
-    scale = Scale("categorical", "nominal", 4)
+def _awkward_crowd() -> np.ndarray:
+    """A crowd design with unused categories, a pair whose kappa becomes undefined when its one
+    disagreement is left out (then both coders always give category 2), and units no pair
+    shares."""
+    x = _crowd(n_units=300, n_coders=9, seed=11)
+    x = np.where(x >= 0, x + 1, -1)  # categories 1..4 of 6: 0 and 5 stay unused
+    x[:, 7:] = -1
+    x[:40, 7:] = 2  # coders 7 and 8: always category 2 together (p_e = 1, kappa undefined)
+    x[40, 7] = 3
+    x[41:45, :] = -1
+    x[41:45, 0] = 1  # units with one value: no pair
+    x[50, :] = -1
+    x[50, [5, 6]] = [0, 5]
+    return x
+
+
+@pytest.mark.parametrize(
+    ("make", "scale"),
+    [
+        (_crowd, Scale("categorical", "nominal", 4)),
+        (_crowd, Scale("categorical", "ordinal", 4)),
+        (_awkward_crowd, Scale("categorical", "nominal", 6)),
+        (_awkward_crowd, Scale("categorical", "ordinal", 6)),
+    ],
+)
+def test_sparse_pair_columns_give_the_dense_results(monkeypatch, make, scale):
+    """The pair tables (one non-zero per unit and pair) and Light's kappa's own jackknife give the
+    numbers of dense per-pair columns (n, agreements, margins) and of the generic jackknife."""
+    x = make()
     weights = PoissonUnitWeights.for_units([f"i{u}" for u in range(len(x))], 100, seed=1)
     monkeypatch.setattr(plan_module, "SPARSE_PAIR_CELLS", 10**12)
     dense_plan = build_plan(x, scale)
     monkeypatch.setattr(plan_module, "SPARSE_PAIR_CELLS", 0)
     sparse_plan = build_plan(x, scale)
-    assert not hasattr(dense_plan.contributions, "nnz")
-    assert hasattr(sparse_plan.contributions, "nnz")
+    assert isinstance(dense_plan.contributions, np.ndarray)
+    assert isinstance(sparse_plan.contributions, MixedColumns)
+    assert "light_kappa" in sparse_plan.leave_one_out
+    assert not dense_plan.leave_one_out
     dense = evaluate_plans([dense_plan], weights, block_units=128)[0]
     thin = evaluate_plans([sparse_plan], weights, block_units=128)[0]
-    assert set(dense) == set(thin)
+    assert list(dense) == list(thin)
+    assert np.isfinite(dense["light_kappa"].point)
+    assert np.isfinite(dense["light_kappa"].jackknife).all()
     for name, ev in dense.items():
         assert thin[name].point == pytest.approx(ev.point, abs=1e-12, nan_ok=True), name
         np.testing.assert_allclose(thin[name].replicates, ev.replicates, rtol=0, atol=1e-12)
@@ -57,3 +89,41 @@ def test_light_kappa_over_the_pairs_present():
                 kappas.append(cohen_kappa_score(x[both, i], x[both, j]))
     plan = build_plan(x, Scale("categorical", "nominal", 4))
     assert plan.point("light_kappa") == pytest.approx(np.mean(kappas), abs=1e-9)
+
+
+def test_pair_tables_hold_one_count_per_unit_and_pair():
+    x = _awkward_crowd()
+    tables = pair_tables(x, coder_pairs(x.shape[1]), 6)
+    both = [(x[:, i] >= 0) & (x[:, j] >= 0) for i, j in coder_pairs(x.shape[1])]
+    assert tables.nnz == sum(int(b.sum()) for b in both)
+    summed = np.asarray(tables.sum(axis=0)).reshape(-1, 6, 6)
+    for p, (i, j) in enumerate(coder_pairs(x.shape[1])):
+        np.testing.assert_array_equal(summed[p], confusion_table(x[:, i], x[:, j], 6))
+
+
+def test_light_leave_one_out_is_light_of_the_tables_less_the_unit():
+    x = _awkward_crowd()
+    tables = pair_tables(x, coder_pairs(x.shape[1]), 6)
+    total = np.asarray(tables.sum(axis=0)).ravel()
+    fast = light_leave_one_out(total, tables, 6)
+    slow = light_from_tables(total[None, :] - tables.toarray(), 6)
+    np.testing.assert_allclose(fast, slow, rtol=0, atol=1e-12)
+    # a unit in the pair whose kappa is undefined changes the mean only through its other pairs
+    assert np.isfinite(fast).all()
+    assert not np.allclose(fast, fast[0])
+
+
+def test_whole_number_products_equal_the_float_products():
+    x = _crowd(n_units=700, n_coders=10, seed=2)
+    plan = build_plan(x, Scale("categorical", "ordinal", 4))
+    weights = PoissonUnitWeights.for_units([f"i{u}" for u in range(len(x))], 50, seed=3)
+    assert isinstance(plan.contributions, np.ndarray)  # small: dense; make the tables sparse
+    thin = MixedColumns(plan.contributions, pair_tables(x, coder_pairs(10), 4))
+    as_ints = run_sums([thin], weights.block, 50, 128, integer_weights=True)[0]
+    as_floats = run_sums([thin], weights.block, 50, 128, integer_weights=False)[0]
+    np.testing.assert_array_equal(as_ints, as_floats)
+    w = weights.block(0, len(x))
+    np.testing.assert_allclose(w @ thin, as_floats, rtol=0, atol=1e-9)
+    np.testing.assert_array_equal(
+        (w @ thin)[:, plan.contributions.shape[1] :], as_ints[:, plan.contributions.shape[1] :]
+    )

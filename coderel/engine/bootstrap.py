@@ -62,12 +62,13 @@ def _run(
             return poisson_weights(data[start:stop], replicates)
         return data[:, start:stop]
 
+    whole = kind == "poisson"
     if threads is None:
-        return run_sums(contributions, weights_of, replicates, block)
+        return run_sums(contributions, weights_of, replicates, block, integer_weights=whole)
     from threadpoolctl import threadpool_limits
 
     with threadpool_limits(limits=threads, user_api="blas"):
-        return run_sums(contributions, weights_of, replicates, block)
+        return run_sums(contributions, weights_of, replicates, block, integer_weights=whole)
 
 
 def cluster_evaluator(client: Client):

@@ -23,7 +23,9 @@ Two schemes:
     ask for it.
 
 The jackknife (for the BCa acceleration) uses the identity leave-one-out sums = total - the
-unit's own contribution, evaluated in blocks of units so that it, too, needs O(units) memory.
+unit's own contribution, evaluated in blocks of units so that it, too, needs O(units) memory; a
+plan may give a formula a leave-one-out function of its own (``Plan.leave_one_out``: Light's
+kappa over a crowd design's pair tables, :func:`coderel.stats.pair_tables.light_leave_one_out`).
 
 References
 ----------
@@ -48,7 +50,7 @@ from typing import Any, Literal
 import numpy as np
 from scipy import sparse
 
-from coderel.stats.plan import Plan, column_sums
+from coderel.stats.plan import MixedColumns, Plan, column_sums
 
 Progress = Callable[[int, int], None]
 Scheme = Literal["poisson", "multinomial"]
@@ -81,6 +83,8 @@ def _poisson_thresholds() -> np.ndarray:
 
 
 _THRESHOLDS = _poisson_thresholds()
+#: The largest Poisson weight :func:`poisson_weights` can give (the number of thresholds).
+_MAX_POISSON = len(_THRESHOLDS)
 
 
 def unit_keys(unit_ids: Iterable[object], seed: int) -> np.ndarray:
@@ -93,39 +97,60 @@ def unit_keys(unit_ids: Iterable[object], seed: int) -> np.ndarray:
     return np.array(keys, dtype=np.uint64)
 
 
-def _mix64(z: np.ndarray) -> None:
-    """SplitMix64's output function, in place on a uint64 array (wrapping arithmetic)."""
-    z ^= z >> np.uint64(30)
+_SHIFTS = tuple(np.uint64(v) for v in (30, 27, 31, 11))
+#: Entries of the weights made at a time (their scratch arrays stay in the processor's cache).
+_CHUNK_ENTRIES = 1 << 16
+
+
+def _mix64(z: np.ndarray, scratch: np.ndarray) -> None:
+    """SplitMix64's output function, in place on a uint64 array (wrapping arithmetic);
+    ``scratch`` is a uint64 array of the same shape."""
+    s30, s27, s31, _ = _SHIFTS
+    np.right_shift(z, s30, out=scratch)
+    z ^= scratch
     z *= _MIX1
-    z ^= z >> np.uint64(27)
+    np.right_shift(z, s27, out=scratch)
+    z ^= scratch
     z *= _MIX2
-    z ^= z >> np.uint64(31)
+    np.right_shift(z, s31, out=scratch)
+    z ^= scratch
 
 
 def poisson_weights(keys: np.ndarray, replicates: int, first: int = 0) -> np.ndarray:
     """R x len(keys) Poisson(1) weights of replicates ``first .. first + R - 1`` for these units.
 
     Entry (b, u) depends only on ``keys[u]`` and ``first + b``: any split of units or replicates
-    into blocks gives the same numbers.
+    into blocks gives the same numbers. The array is a view of a units x R C-ordered one (its
+    transpose is contiguous, as the sparse products want it); the numbers are made a few units
+    at a time so that their scratch arrays stay in the processor's cache.
     """
     keys = np.asarray(keys, dtype=np.uint64)
     counters = np.arange(first + 1, first + replicates + 1, dtype=np.uint64)
     offsets = counters * np.uint64(_GAMMA)  # wraps modulo 2^64
-    z = keys[None, :] + offsets[:, None]  # wraps modulo 2^64
-    _mix64(z)
-    z >>= np.uint64(11)
+    n = len(keys)
+    out = np.empty((n, replicates))
+    step = max(1, _CHUNK_ENTRIES // max(replicates, 1))
+    z = np.empty((min(step, n), replicates), dtype=np.uint64)
+    scratch = np.empty_like(z)
+    count = np.empty(z.shape, dtype=np.uint8)
+    above = np.empty(z.shape, dtype=bool)
     t = _THRESHOLDS
-    w = (z >= t[0]).astype(np.uint8)
-    w += z >= t[1]
-    tail = z >= t[2]
-    w += tail
-    if tail.any():
-        zt = z[tail]
-        extra = np.zeros(zt.shape, dtype=np.uint8)
-        for threshold in t[3:]:
-            extra += zt >= threshold
-        w[tail] += extra
-    return w.astype(float)
+    for start in range(0, n, step):
+        m = min(step, n - start)
+        zc, sc, cc, ac = z[:m], scratch[:m], count[:m], above[:m]
+        np.add(keys[start : start + m, None], offsets[None, :], out=zc)  # wraps modulo 2^64
+        _mix64(zc, sc)
+        zc >>= _SHIFTS[3]  # a 53-bit uniform integer
+        # inversion: the count is the number of thresholds at or below z
+        np.greater_equal(zc, t[0], out=ac)
+        cc[...] = ac
+        for threshold in t[1:]:
+            np.greater_equal(zc, threshold, out=ac)
+            if not ac.any():
+                break
+            cc += ac
+        out[start : start + m] = cc
+    return out.T
 
 
 def unit_weights(n_units: int, replicates: int, seed: int) -> np.ndarray:
@@ -223,14 +248,26 @@ def contributing_rows(plan: Plan) -> np.ndarray:
     c = plan.contributions
     if not c.shape[1]:
         return np.array([], int)
+    if isinstance(c, MixedColumns):
+        return c.nonzero_rows()
     return np.flatnonzero(c.getnnz(axis=1) if sparse.issparse(c) else np.any(c != 0, axis=1))
 
 
 def jackknife_rows(plan: Plan, total: np.ndarray, own: Any) -> dict[str, np.ndarray]:
     """Leave-one-out values of every formula for units whose contributions are the rows of
-    ``own`` (dense or sparse): ``formula(total - own)``."""
-    jack_sums = total[None, :] - (own.toarray() if sparse.issparse(own) else own)
-    return {name: np.asarray(formula(jack_sums), float) for name, formula in plan.formulas.items()}
+    ``own`` (dense, sparse or :class:`MixedColumns`): ``formula(total - own)``, or the formula's
+    own ``plan.leave_one_out`` function. With :class:`MixedColumns` the other formulas read only
+    the dense columns, so only those are formed."""
+    if isinstance(own, MixedColumns):
+        jack_sums = total[None, : own.dense.shape[1]] - own.dense
+    else:
+        jack_sums = total[None, :] - (own.toarray() if sparse.issparse(own) else own)
+    out = {}
+    for name, formula in plan.formulas.items():
+        fast = plan.leave_one_out.get(name)
+        values = fast(total, own) if fast is not None else formula(jack_sums)
+        out[name] = np.asarray(values, float)
+    return out
 
 
 def _jackknife(plan: Plan, total: np.ndarray, block: int) -> dict[str, np.ndarray]:
@@ -270,20 +307,23 @@ def _evaluate(plan: Plan, sums: np.ndarray | None, block: int) -> dict[str, Eval
     return evaluated(plan, sums, _jackknife(plan, total, block))
 
 
-def block_products(contributions: Sequence[Any], w: np.ndarray) -> list[np.ndarray]:
-    """``w @ c`` (R x M) for each plan's contributions ``c`` of one block of units (dense or
-    sparse rows), ``w`` the block's R x units weights."""
-    out = []
-    wt = None
-    for c in contributions:
-        if sparse.issparse(c):
-            # (C^T W^T)^T: scipy's fastest product, sparse rows times a C-ordered block
-            if wt is None:
-                wt = np.ascontiguousarray(w.T)
-            out.append((c.T.tocsr() @ wt).T)
-        else:
-            out.append(w @ c)
-    return out
+def _whole_columns(t: sparse.csr_matrix, most: int) -> bool:
+    """Whether sparse columns hold whole numbers small enough that sums of ``most`` times their
+    largest one stay below 2^31 (32-bit integer products are then exact)."""
+    data = t.data
+    if not data.size:
+        return True
+    largest = float(np.max(np.abs(data)))
+    return bool(np.array_equal(data, np.rint(data)) and largest * most < 2**31)
+
+
+def _split(c: Any) -> tuple[Any, Any]:
+    """A plan's contributions as (dense columns or None, sparse columns or None)."""
+    if isinstance(c, MixedColumns):
+        return c.dense, c.thin
+    if sparse.issparse(c):
+        return None, sparse.csr_matrix(c)
+    return c, None
 
 
 #: Blocks of units per run: a run's block products are added up from zero, then the runs' sums
@@ -298,19 +338,50 @@ def run_sums(
     replicates: int,
     block: int,
     step: Callable[[], None] | None = None,
+    integer_weights: bool = False,
 ) -> list[np.ndarray]:
-    """R x M sums of one run of units: the plans' contributions of these units (dense or sparse
-    rows) times their weights (``weights_of(start, stop)``, positions within the run), block by
-    block, each block's product added in order."""
+    """R x M sums of one run of units: the plans' contributions of these units (dense, sparse or
+    :class:`MixedColumns` rows) times their weights (``weights_of(start, stop)``, positions
+    within the run), block by block, each block's product added in order.
+
+    Dense columns take one dense product per block (``w @ c``); sparse columns the sparse rows'
+    transpose times the C-ordered ``w.T`` (scipy's fastest product), added to M x R sums that
+    are transposed once at the end of the run. ``integer_weights`` says that every weight is a
+    whole number from 0 to :data:`_MAX_POISSON` (Poisson weights); it changes the time taken,
+    never a number.
+    """
+    parts = [_split(c) for c in contributions]
     n = contributions[0].shape[0] if contributions else 0
-    sums = [np.zeros((replicates, c.shape[1])) for c in contributions]
+    dense = [None if d is None else np.zeros((replicates, d.shape[1])) for d, _ in parts]
+    thin = [None if t is None else np.zeros((t.shape[1], replicates)) for _, t in parts]
+    # Whole-number weights and sparse columns: each block's sparse product in 32-bit integers,
+    # exact (no sum can reach 2^31) and so equal to the float product, at a quarter of the time.
+    whole = [
+        t is not None and integer_weights and _whole_columns(t, block * _MAX_POISSON)
+        for _, t in parts
+    ]
     for start in range(0, n, block):
         stop = min(start + block, n)
-        products = block_products([c[start:stop] for c in contributions], weights_of(start, stop))
-        for i, product in enumerate(products):
-            sums[i] += product
+        w = weights_of(start, stop)
+        wt = wt_whole = None
+        for i, (d, t) in enumerate(parts):
+            if d is not None:
+                dense[i] += w @ d[start:stop]
+            if t is None:
+                continue
+            rows = t[start:stop].T.tocsr()
+            if whole[i]:
+                if wt_whole is None:  # once for every plan
+                    wt_whole = w.T.astype(np.int32, order="C")
+                thin[i] += rows.astype(np.int32) @ wt_whole
+            else:
+                wt = np.ascontiguousarray(w.T) if wt is None else wt  # once for every plan
+                thin[i] += rows @ wt
         if step is not None:
             step()
+    sums = []
+    for d, t in zip(dense, thin, strict=True):
+        sums.append(d if t is None else t.T.copy() if d is None else np.hstack([d, t.T]))
     return sums
 
 
@@ -367,6 +438,7 @@ def evaluate_plans(
                 replicates,
                 block,
                 step,
+                integer_weights=isinstance(weights, PoissonUnitWeights),
             )
             for i, run in enumerate(part):
                 sums[i] += run

@@ -43,8 +43,14 @@ from coderel.stats.counts import (
     values_per_unit,
 )
 from coderel.stats.numeric_plan import add_numeric, numeric_values
+from coderel.stats.pair_tables import div as _div
+from coderel.stats.pair_tables import light_from_tables, light_leave_one_out, pair_tables
+from coderel.stats.pair_tables import nanmean_rows as _nanmean_rows
 
 Formula = Callable[[np.ndarray], np.ndarray]
+#: ``leave_one_out(total, own)``: a formula's jackknife values for the units whose contributions
+#: are the rows ``own`` (from the column sums ``total`` of all units).
+LeaveOneOut = Callable[[np.ndarray, Any], np.ndarray]
 ScaleKind = Literal["categorical", "numeric", "set"]
 
 
@@ -70,10 +76,17 @@ class Scale:
 
 @dataclass(frozen=True)
 class Plan:
-    """Per-unit contributions and the coefficient formulas over their weighted sums."""
+    """Per-unit contributions and the coefficient formulas over their weighted sums.
 
-    contributions: np.ndarray
+    ``contributions`` is a units x M array, or :class:`MixedColumns` (dense columns, then sparse
+    ones). ``leave_one_out`` gives some formulas a jackknife of their own (see
+    :data:`LeaveOneOut`); with :class:`MixedColumns` every other formula reads only the dense
+    columns.
+    """
+
+    contributions: Any
     formulas: dict[str, Formula] = field(default_factory=dict)
+    leave_one_out: dict[str, LeaveOneOut] = field(default_factory=dict)
 
     def point(self, name: str) -> float:
         """A coefficient on the full sample (all unit weights 1); ``nan`` when undefined."""
@@ -86,18 +99,64 @@ class Plan:
 SPARSE_PAIR_CELLS = 20_000_000
 
 
+@dataclass(frozen=True)
+class MixedColumns:
+    """Units x M contributions kept as dense columns followed by sparse (CSR) ones.
+
+    A crowd design's coder-pair columns are almost all zero (:mod:`coderel.stats.pair_tables`),
+    while every unit has numbers in the other columns: the weighted sums take the dense columns
+    through one dense product and only the pair columns through a sparse one. Rows are selected
+    with ``[rows]`` (a slice or positions); ``w @ columns`` is the R x M weighted sums.
+    """
+
+    dense: np.ndarray
+    thin: sparse.csr_matrix
+
+    __array_ufunc__ = None  # ``w @ columns`` calls __rmatmul__ rather than numpy's matmul
+
+    @property
+    def shape(self) -> tuple[int, int]:
+        return self.dense.shape[0], self.dense.shape[1] + self.thin.shape[1]
+
+    def __getitem__(self, rows: Any) -> MixedColumns:
+        return MixedColumns(self.dense[rows], self.thin[rows])
+
+    def __rmatmul__(self, w: np.ndarray) -> np.ndarray:
+        """``w @ columns`` (R x M) for unit weights ``w`` (R x units)."""
+        out = np.empty((w.shape[0], self.shape[1]))
+        width = self.dense.shape[1]
+        out[:, :width] = w @ self.dense
+        # (C^T W^T)^T: scipy's fastest product, sparse rows times a C-ordered block
+        out[:, width:] = (self.thin.T.tocsr() @ np.ascontiguousarray(w.T)).T
+        return out
+
+    def column_sums(self) -> np.ndarray:
+        return np.concatenate([self.dense.sum(axis=0), np.asarray(self.thin.sum(axis=0)).ravel()])
+
+    def nonzero_rows(self) -> np.ndarray:
+        """Positions of the units with a non-zero contribution."""
+        return np.flatnonzero(np.any(self.dense != 0, axis=1) | (self.thin.getnnz(axis=1) > 0))
+
+
 class _Builder:
     def __init__(self, n_units: int) -> None:
         self.n_units = n_units
         self.blocks: list[Any] = []
+        self.thin: list[Any] = []
         self.width = 0
 
     def add(self, block: Any):
+        """Add a block of columns (units x m, or one column); returns its column or columns.
+
+        Sparse blocks come after every dense one (:class:`MixedColumns`).
+        """
         if sparse.issparse(block):
             start = self.width
-            self.blocks.append(block)
+            self.thin.append(block)
             self.width += block.shape[1]
             return slice(start, self.width) if block.shape[1] > 1 else start
+        if self.thin:
+            raise ValueError("dense columns after sparse ones")
         arr = np.asarray(block, dtype=float)
         if arr.ndim == 1:
             self.blocks.append(arr[:, None])
@@ -109,40 +168,21 @@ class _Builder:
         return slice(start, self.width)
 
     def contributions(self) -> Any:
-        """U x M contributions: a dense array, or a CSR matrix when a block was sparse."""
-        if not self.blocks:
-            return np.zeros((self.n_units, 0))
-        if any(sparse.issparse(block) for block in self.blocks):
-            out = sparse.hstack(
-                [blk if sparse.issparse(blk) else sparse.csr_matrix(blk) for blk in self.blocks],
-                format="csr",
-            )
-            out.eliminate_zeros()
-            return out
-        return np.hstack(self.blocks)
+        """U x M contributions: a dense array, or :class:`MixedColumns` when a block was sparse."""
+        dense = np.hstack(self.blocks) if self.blocks else np.zeros((self.n_units, 0))
+        if self.thin:
+            thin = sparse.hstack(self.thin, format="csr") if len(self.thin) > 1 else self.thin[0]
+            return MixedColumns(dense, sparse.csr_matrix(thin))
+        return dense
 
 
 def column_sums(contributions: Any) -> np.ndarray:
     """Sums over units (the point estimate's sums) of dense or sparse contributions."""
+    if isinstance(contributions, MixedColumns):
+        return contributions.column_sums()
     if sparse.issparse(contributions):
         return np.asarray(contributions.sum(axis=0)).ravel()
     return contributions.sum(axis=0)
-
-
-def _div(num: np.ndarray, den: np.ndarray) -> np.ndarray:
-    num = np.asarray(num, dtype=float)
-    den = np.asarray(den, dtype=float)
-    out = np.full(np.broadcast(num, den).shape, np.nan)
-    np.divide(num, den, out=out, where=den > 0)
-    return out
-
-
-def _nanmean_rows(stack: np.ndarray) -> np.ndarray:
-    """Mean over axis 0 ignoring nan, nan where every entry is nan (no warnings)."""
-    ok = np.isfinite(stack)
-    count = ok.sum(axis=0)
-    total = np.where(ok, stack, 0.0).sum(axis=0)
-    return _div(total, count)
 
 
 def _domain_distance(scale: Scale):
@@ -228,31 +268,10 @@ class _PairSlices:
 
 
 def _add_pair(
-    b: _Builder,
-    a: np.ndarray,
-    c: np.ndarray,
-    k: int,
-    weights: dict[str, np.ndarray],
-    sparse_columns: bool = False,
+    b: _Builder, a: np.ndarray, c: np.ndarray, k: int, weights: dict[str, np.ndarray]
 ) -> _PairSlices:
     both = (a >= 0) & (c >= 0)
     ai, ci = np.maximum(a, 0), np.maximum(c, 0)
-    if sparse_columns:  # only the units both coders coded hold numbers
-        rows = np.flatnonzero(both)
-        n = len(a)
-
-        def column(values: np.ndarray, cols: np.ndarray | None = None, width: int = 1):
-            cols = np.zeros(len(rows), dtype=np.int64) if cols is None else cols
-            return sparse.csr_matrix((values, (rows, cols)), shape=(n, width))
-
-        ones = np.ones(len(rows))
-        return _PairSlices(
-            both=b.add(column(ones)),
-            agree=b.add(column((a[rows] == c[rows]).astype(float))),
-            rows=_as_slice(b.add(column(ones, a[rows], k))),
-            cols=_as_slice(b.add(column(ones, c[rows], k))),
-            weighted={nm: b.add(column(w[ai[rows], ci[rows]])) for nm, w in weights.items()},
-        )
     return _PairSlices(
         both=b.add(both.astype(float)),
         agree=b.add((both & (a == c)).astype(float)),
@@ -321,10 +340,11 @@ def categorical_plan(x: np.ndarray, scale: Scale, *, icc_ordinal: bool = False) 
                 f[f"weighted_kappa_{name}"] = lambda s, w=w, col=col, p=p: KA.weighted_from_margins(
                     _div(s[:, col], s[:, p.both]), *_pair_parts(s, p)[1:], w
                 )
+    thin = n_coders > 2 and len(pairs) * (2 * k + 2) * x.shape[0] > SPARSE_PAIR_CELLS
+    if thin:  # pair tables, sparse, after every dense column (added below)
+        f["light_kappa"] = _undefined
     elif n_coders > 2:
-        dense_cells = len(pairs) * (2 * k + 2) * x.shape[0]
-        thin = dense_cells > SPARSE_PAIR_CELLS
-        slices = [_add_pair(b, x[:, i], x[:, j], k, {}, thin) for i, j in pairs]
+        slices = [_add_pair(b, x[:, i], x[:, j], k, {}) for i, j in pairs]
         cohens = [_cohen(p) for p in slices]
         f["light_kappa"] = lambda s: _nanmean_rows(np.stack([g(s) for g in cohens]))
 
@@ -353,7 +373,20 @@ def categorical_plan(x: np.ndarray, scale: Scale, *, icc_ordinal: bool = False) 
         f["pabak"] = lambda s: CH.pabak(p_a(s))
     if scale.ordinal:
         f["gwet_ac2"] = lambda s: CH.gwet_ac(_div(s[:, s_pw], s[:, s_pu]), pi(s), w_gwet)
-    return Plan(b.contributions(), f)
+    leave_one_out: dict[str, LeaveOneOut] = {}
+    if thin:
+        # One non-zero per unit and pair present (coderel.stats.pair_tables): the joint table.
+        s_t = _as_slice(b.add(pair_tables(x, pairs, k)))
+        f["light_kappa"] = lambda s: light_from_tables(s[:, s_t], k)
+        # the tables are the plan's only sparse columns: ``own.thin`` is their rows
+        leave_one_out["light_kappa"] = lambda total, own: light_leave_one_out(
+            total[s_t], own.thin, k
+        )
+    return Plan(b.contributions(), f, leave_one_out)
+
+
+def _undefined(s: np.ndarray) -> np.ndarray:
+    return np.full(s.shape[0], np.nan)
 
 
 def value_plan(x: np.ndarray, scale: Scale) -> Plan:
