@@ -47,11 +47,12 @@ COMMANDS ?= validate,agree,merge,report
 bench-scale: $(STAMP)
 	$(BIN)/python benchmarks/bench_scale.py --sets $(SETS) --commands $(COMMANDS)
 
-# agree --engine dask (a local cluster of 2 worker processes) against the default engine on a
-# dataset partitioned by unit: LABELS=1M,5M.
+# agree, merge and report with --engine dask (a local cluster of 2 worker processes) against the
+# default engine on a dataset partitioned by unit: LABELS=1M,5M ENGINE_COMMANDS=agree,merge.
 LABELS ?= 1M
+ENGINE_COMMANDS ?= agree,merge,report
 bench-engine: $(STAMP)
-	$(BIN)/python benchmarks/bench_engine.py --labels $(LABELS)
+	$(BIN)/python benchmarks/bench_engine.py --labels $(LABELS) --commands $(ENGINE_COMMANDS)
 
 demo: $(VENV)/.installed
 	bash scripts/demo.sh $(BIN)/coderel $(DEMO_OUT)

@@ -1,14 +1,18 @@
-"""Benchmark of ``agree --engine dask`` against the in-process engine on a partitioned dataset.
+"""Benchmark of ``agree``, ``merge`` and ``report`` with ``--engine dask`` against the in-process
+engine on a partitioned dataset.
 
 Generates, with a seed, a long table on the demo codebook (10 variables of every level, a
 multi-select and a conditional variable, 4 coders, ~33 labels per unit; tests/engine_data.py)
-written as Parquet parts partitioned by unit, part by part (memory bounded by one part). Then runs
-``coderel agree --json`` in a fresh process with the default engine and with ``--engine dask
---scheduler`` on a local cluster of 2 worker processes (one thread each, 127.0.0.1) started here,
-and prints wall seconds, the command's peak resident memory, each worker's peak resident memory
-(asked of the workers) and the largest difference between the two engines' numbers (every float
-of the JSON). Run with ``make bench-engine`` (``LABELS=1M,5M``; ``--skip-local`` for sizes the
-in-process engine cannot hold). Figures are measured on whatever machine runs this; not timed tests.
+written as Parquet parts partitioned by unit, part by part (memory bounded by one part). Then
+runs each command (``agree --json``, ``merge -o merged.parquet``, ``report --json``) in a fresh
+process with the default engine and with ``--engine dask --scheduler`` on a local cluster of 2
+worker processes (one thread each, 127.0.0.1) started here for that command, and prints wall
+seconds, the command's (the client's) peak resident memory, the larger of the workers' peak
+resident memory (asked of the workers) and how the engines' outputs compare: the largest
+difference between their numbers (every float of the JSON) for agree and report, whether the
+dataset files are the same bytes for merge. Run with ``make bench-engine`` (``LABELS=1M,5M``,
+``ENGINE_COMMANDS=agree,merge``; ``--skip-local`` for sizes the in-process engine cannot hold).
+Figures are measured on whatever machine runs this; not timed tests.
 """
 
 from __future__ import annotations
@@ -89,48 +93,70 @@ def main() -> None:
     parser.add_argument("--labels", default="1M", help="sizes, e.g. 1M,5M")
     parser.add_argument("--replicates", type=int, default=2000)
     parser.add_argument("--skip-local", action="store_true")
+    parser.add_argument("--commands", default="agree", help="e.g. agree,merge,report")
     parser.add_argument("--keep", type=Path, default=None, help="folder to keep data in")
     opts = parser.parse_args()
-    from distributed import Client, LocalCluster
-
     coderel = str(Path(sys.executable).with_name("coderel"))
     root = opts.keep or Path(tempfile.mkdtemp(prefix="coderel-engine-"))
-    print(f"{'labels':>12}  {'engine':8}{'wall s':>9}{'peak GB':>9}{'worker GB':>11}  exit")
+    print(f"{'labels':>12}  {'command':16}{'wall s':>9}{'peak GB':>9}{'worker GB':>11}  exit")
     for size in opts.labels.split(","):
         folder = root / size / "data"
         started = time.perf_counter()
         labels = generate(_size(size), folder)
-        print(f"{labels:>12,}  {'(data)':8}{time.perf_counter() - started:>9.1f}", flush=True)
-        base = [coderel, "agree", "-c", str(CODEBOOK), str(folder), "--json"]
-        base += ["--replicates", str(opts.replicates)]
-        outputs = {}
-        if not opts.skip_local:
-            out = root / size / "local.json"
-            wall, peak, code = run(base, out)
-            outputs["local"] = out
-            print(f"{labels:>12,}  {'local':8}{wall:>9.1f}{peak:>9.2f}{'':>11}  {code}", flush=True)
-        with (
-            LocalCluster(
-                n_workers=2,
-                threads_per_worker=1,
-                processes=True,
-                host="127.0.0.1",
-                dashboard_address="127.0.0.1:0",
-            ) as cluster,
-            Client(cluster) as client,
-        ):
-            out = root / size / "dask.json"
-            args = [*base, "--engine", "dask", "--scheduler", cluster.scheduler_address]
-            wall, peak, code = run(args, out)
-            outputs["dask"] = out
-            workers = client.run(_peak_gb)
-            most = max(workers.values())
-            print(f"{labels:>12,}  {'dask':8}{wall:>9.1f}{peak:>9.2f}{most:>11.2f}  {code}")
-        if len(outputs) == 2:
-            worst = [0.0]
-            a, b = (json.loads(p.read_text()) for p in outputs.values())
-            _floats(a, b, worst)
-            print(f"{labels:>12,}  largest difference between the engines: {worst[0]:.3g}")
+        print(f"{labels:>12,}  {'(data)':16}{time.perf_counter() - started:>9.1f}", flush=True)
+        for command in opts.commands.split(","):
+            _compare_engines(coderel, command, folder, labels, root / size, opts)
+
+
+def _command(coderel: str, command: str, folder: Path, out: Path, replicates: int) -> list[str]:
+    args = [coderel, command, "-c", str(CODEBOOK), str(folder)]
+    if command == "merge":
+        return [*args, "-o", str(out)]
+    args += ["--replicates", str(replicates), "--json"]
+    return [*args, "--date", "2026-12-03"] if command == "report" else args
+
+
+def _compare_engines(coderel: str, command: str, folder: Path, labels: int, root: Path, opts):
+    from distributed import Client, LocalCluster
+
+    form = ".parquet" if command == "merge" else ".json"
+    outputs = {}
+    name = f"{command} {{}}"
+    if not opts.skip_local:
+        out = root / f"{command}-local{form}"
+        base = _command(coderel, command, folder, out, opts.replicates)
+        wall, peak, code = run(base, root / f"{command}-local.stdout" if form != ".json" else out)
+        outputs["local"] = out
+        shown = name.format("local")
+        print(f"{labels:>12,}  {shown:16}{wall:>9.1f}{peak:>9.2f}{'':>11}  {code}", flush=True)
+    with (
+        LocalCluster(
+            n_workers=2,
+            threads_per_worker=1,
+            processes=True,
+            host="127.0.0.1",
+            dashboard_address="127.0.0.1:0",
+        ) as cluster,
+        Client(cluster) as client,
+    ):
+        out = root / f"{command}-dask{form}"
+        args = _command(coderel, command, folder, out, opts.replicates)
+        args += ["--engine", "dask", "--scheduler", cluster.scheduler_address]
+        wall, peak, code = run(args, root / f"{command}-dask.stdout" if form != ".json" else out)
+        outputs["dask"] = out
+        most = max(client.run(_peak_gb).values())
+        shown = name.format("dask")
+        print(f"{labels:>12,}  {shown:16}{wall:>9.1f}{peak:>9.2f}{most:>11.2f}  {code}", flush=True)
+    if len(outputs) < 2:
+        return
+    if form != ".json":
+        same = outputs["local"].read_bytes() == outputs["dask"].read_bytes()
+        print(f"{labels:>12,}  {command}: dataset files the same bytes: {same}")
+        return
+    worst = [0.0]
+    a, b = (json.loads(p.read_text()) for p in outputs.values())
+    _floats(a, b, worst)
+    print(f"{labels:>12,}  {command}: largest difference between the engines: {worst[0]:.3g}")
 
 
 if __name__ == "__main__":

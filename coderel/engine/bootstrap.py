@@ -100,7 +100,9 @@ def cluster_evaluator(client: Client):
                 spec = ("matrix", weights.matrix[:, start:stop], replicates)
             else:
                 raise TypeError(f"no cluster form of {type(weights).__name__}")
-            payload = client.scatter([p.contributions[start:stop] for p in plans])
+            # One plan's share at a time: the client's serialised copy of what it sends is
+            # one plan's rows of the run, not every plan's at once.
+            payload = [client.scatter(p.contributions[start:stop], hash=False) for p in plans]
             fut = client.submit(_run, payload, spec, block, threads, pure=False)
             futures[fut] = start
         results: dict[int, list[np.ndarray]] = {}

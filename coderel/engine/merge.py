@@ -256,20 +256,34 @@ def merge_on_cluster(
     files, groups = dataset_groups(client, paths)
     cb_future = client.scatter(codebook, broadcast=True)
     parts = partition_tasks(client, cb_future, files, groups, read_group, read_bucket)
+    shuffled = parts.shuffled
     codings = parts.tasks
-    facts_futures = [client.submit(part_facts, c, pure=False) for c in codings]
-    sources_futures = [client.submit(source_of, files[i], pure=False) for i in parts.shuffled]
+    n_parts = len(codings)
+    tol = dict(tolerance or {})
+    # Settling runs before the next partition is read (priority), so that a worker holds the
+    # codings of few partitions at a time; with a decisions file they wait on the workers until
+    # the decisions are read, which needs every partition's coders.
+    facts_futures = [client.submit(part_facts, c, pure=False, priority=1) for c in codings]
+    merges = []
+    if decisions_path is None:
+        merges = [
+            client.submit(merge_part, c, None, rule, tol, pure=False, priority=1) for c in codings
+        ]
+        codings = []
+    del parts
+    sources_futures = [client.submit(source_of, files[i], pure=False) for i in shuffled]
     index = {f: n for n, f in enumerate(facts_futures)}
-    facts: list[PartFacts | None] = [None] * len(codings)
+    facts: list[PartFacts | None] = [None] * n_parts
     for done, fut in enumerate(as_completed(facts_futures), 1):
         facts[index[fut]] = fut.result()
+        fut.release()
         if reading is not None:
-            reading(done, len(codings))
+            reading(done, n_parts)
     problems = Problems()
     for f in facts:
         problems.extend(f.problems)  # type: ignore[union-attr]
     if problems.refused:  # the command stops; nothing is settled
-        return ClusterMerge(merge(_no_codings(codebook)), problems, len(files), len(codings), 0)
+        return ClusterMerge(merge(_no_codings(codebook)), problems, len(files), n_parts, 0)
     coders = natural_order(c for f in facts for c in f.coders)  # type: ignore[union-attr]
     position = {path: i for i, path in enumerate(files)}
     found = [s for f in facts for s in f.sources]  # type: ignore[union-attr]
@@ -280,7 +294,7 @@ def merge_on_cluster(
     if decisions_path is not None:
         decisions = read_decisions(decisions_path, codebook, coders)
     owner = {u: n for n, f in enumerate(facts) for u in f.units}  # type: ignore[union-attr]
-    mine: list[list[tuple[str, str]]] = [[] for _ in codings]
+    mine: list[list[tuple[str, str]]] = [[] for _ in range(n_parts)]
     orphan_keys = []
     for key in decisions.decisions if decisions is not None else {}:
         n = owner.get(key[0])
@@ -288,19 +302,12 @@ def merge_on_cluster(
             orphan_keys.append(key)
         else:
             mine[n].append(key)
-    tol = dict(tolerance or {})
-    merges = [
-        client.submit(
-            merge_part,
-            c,
-            _without_narrative(decisions, keys) if decisions is not None else None,
-            rule,
-            tol,
-            pure=False,
-        )
-        for c, keys in zip(codings, mine, strict=True)
-    ]
-    del codings, parts
+    if decisions is not None:
+        merges = [
+            client.submit(merge_part, c, _without_narrative(decisions, keys), rule, tol, pure=False)
+            for c, keys in zip(codings, mine, strict=True)
+        ]
+    del codings
     index = {f: n for n, f in enumerate(merges)}
     results: list[MergeResult | None] = [None] * len(merges)
     for done, fut in enumerate(as_completed(merges), 1):
