@@ -119,3 +119,25 @@ def test_agreement_does_not_depend_on_row_order_or_memory():
         if est.ci is not None:
             assert other.ci == pytest.approx(est.ci, abs=1e-12), name
     assert first.to_dict()["bootstrap"]["scheme"] == "poisson"
+
+
+def test_weights_are_splitmix64_inverted_at_the_poisson_thresholds():
+    """The chunked, in-place weights equal the plain definition computed with Python integers:
+    z = mix64(key + (b + 1) * gamma) >> 11, weight = #{thresholds <= z} (Steele, Lea & Flood
+    2014, SplitMix64; inversion of the Poisson(1) distribution function)."""
+    from coderel.stats.bootstrap import _GAMMA, _THRESHOLDS
+
+    def mix64(z: int) -> int:
+        mask = 2**64 - 1
+        z = ((z ^ (z >> 30)) * 0xBF58476D1CE4E5B9) & mask
+        z = ((z ^ (z >> 27)) * 0x94D049BB133111EB) & mask
+        return z ^ (z >> 31)
+
+    keys = unit_keys([f"unit {i}" for i in range(40)], seed=123)
+    got = poisson_weights(keys, 700, first=3)
+    thresholds = [int(t) for t in _THRESHOLDS]
+    for u in (0, 7, 39):
+        for b in range(700):
+            z = mix64((int(keys[u]) + (b + 4) * _GAMMA) % 2**64) >> 11
+            assert got[b, u] == sum(t <= z for t in thresholds)
+    assert got.max() >= 5  # the rare large counts are covered

@@ -29,6 +29,7 @@ from coderel.stats.bootstrap import (
     UnitWeights,
     block_size,
     evaluate_plans,
+    jackknife_width,
     poisson_weights,
     run_sums,
 )
@@ -85,7 +86,7 @@ def cluster_evaluator(client: Client):
         from distributed import as_completed
 
         n_units = plans[0].contributions.shape[0] if plans else 0
-        width = max((p.contributions.shape[1] for p in plans), default=1)
+        width = jackknife_width(plans)
         replicates = weights.replicates if weights is not None else 0
         block = block_size(replicates, width, memory)
         run = block * RUN_BLOCKS

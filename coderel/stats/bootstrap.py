@@ -144,11 +144,14 @@ def poisson_weights(keys: np.ndarray, replicates: int, first: int = 0) -> np.nda
         # inversion: the count is the number of thresholds at or below z
         np.greater_equal(zc, t[0], out=ac)
         cc[...] = ac
-        for threshold in t[1:]:
-            np.greater_equal(zc, threshold, out=ac)
-            if not ac.any():
-                break
-            cc += ac
+        np.greater_equal(zc, t[1], out=ac)
+        cc += ac
+        np.greater_equal(zc, t[2], out=ac)
+        cc += ac
+        tail = np.flatnonzero(ac)  # counts of 3 or more (8% of them): the other thresholds
+        if tail.size:
+            zt = zc.reshape(-1)[tail]
+            cc.reshape(-1)[tail] += (zt[:, None] >= t[None, 3:]).sum(axis=1, dtype=np.uint8)
         out[start : start + m] = cc
     return out.T
 
@@ -234,6 +237,18 @@ def block_size(replicates: int, columns: int, memory: int = DEFAULT_MEMORY) -> i
     return max(64, int(memory // per_unit))
 
 
+def jackknife_width(plans: Sequence[Plan]) -> int:
+    """The most columns a jackknife block forms per unit over these plans (:func:`block_size`):
+    all columns, or the dense ones of :class:`MixedColumns`."""
+    widths = (
+        p.contributions.dense.shape[1]
+        if isinstance(p.contributions, MixedColumns)
+        else p.contributions.shape[1]
+        for p in plans
+    )
+    return max(widths, default=1)
+
+
 @dataclass(frozen=True)
 class Evaluated:
     """One coefficient: point estimate, bootstrap replicates (R,), jackknife values (J,)."""
@@ -253,19 +268,27 @@ def contributing_rows(plan: Plan) -> np.ndarray:
     return np.flatnonzero(c.getnnz(axis=1) if sparse.issparse(c) else np.any(c != 0, axis=1))
 
 
-def jackknife_rows(plan: Plan, total: np.ndarray, own: Any) -> dict[str, np.ndarray]:
+def jackknife_rows(
+    plan: Plan,
+    total: np.ndarray,
+    own: Any,
+    prepared: dict[str, Callable[[Any], np.ndarray]] | None = None,
+) -> dict[str, np.ndarray]:
     """Leave-one-out values of every formula for units whose contributions are the rows of
     ``own`` (dense, sparse or :class:`MixedColumns`): ``formula(total - own)``, or the formula's
-    own ``plan.leave_one_out`` function. With :class:`MixedColumns` the other formulas read only
-    the dense columns, so only those are formed."""
+    own ``plan.leave_one_out`` function (``prepared``: those functions already given ``total``).
+    With :class:`MixedColumns` the other formulas read only the dense columns, so only those are
+    formed."""
+    if prepared is None:
+        prepared = {name: make(total) for name, make in plan.leave_one_out.items()}
     if isinstance(own, MixedColumns):
         jack_sums = total[None, : own.dense.shape[1]] - own.dense
     else:
         jack_sums = total[None, :] - (own.toarray() if sparse.issparse(own) else own)
     out = {}
     for name, formula in plan.formulas.items():
-        fast = plan.leave_one_out.get(name)
-        values = fast(total, own) if fast is not None else formula(jack_sums)
+        fast = prepared.get(name)
+        values = fast(own) if fast is not None else formula(jack_sums)
         out[name] = np.asarray(values, float)
     return out
 
@@ -273,9 +296,11 @@ def jackknife_rows(plan: Plan, total: np.ndarray, own: Any) -> dict[str, np.ndar
 def _jackknife(plan: Plan, total: np.ndarray, block: int) -> dict[str, np.ndarray]:
     """Leave-one-out values of every formula over the units that contribute, in unit blocks."""
     rows = contributing_rows(plan)
+    prepared = {name: make(total) for name, make in plan.leave_one_out.items()}
     parts: dict[str, list[np.ndarray]] = {name: [] for name in plan.formulas}
     for start in range(0, len(rows), block):
-        values = jackknife_rows(plan, total, plan.contributions[rows[start : start + block]])
+        own = plan.contributions[rows[start : start + block]]
+        values = jackknife_rows(plan, total, own, prepared)
         for name in plan.formulas:
             parts[name].append(values[name])
     return joined(parts)
@@ -317,6 +342,18 @@ def _whole_columns(t: sparse.csr_matrix, most: int) -> bool:
     return bool(np.array_equal(data, np.rint(data)) and largest * most < 2**31)
 
 
+def _single_columns(d: np.ndarray, most: int) -> tuple[np.ndarray, np.ndarray] | None:
+    """Positions of the dense columns holding whole numbers small enough that sums of ``most``
+    times their largest one stay below 2^24 (single-precision products are then exact), and of
+    the other columns; None when no column qualifies."""
+    if not d.size:
+        return None
+    ok = np.all(d == np.rint(d), axis=0) & (np.max(np.abs(d), axis=0) * most < 2**24)
+    if not ok.any():
+        return None
+    return np.flatnonzero(ok), np.flatnonzero(~ok)
+
+
 def _split(c: Any) -> tuple[Any, Any]:
     """A plan's contributions as (dense columns or None, sparse columns or None)."""
     if isinstance(c, MixedColumns):
@@ -339,6 +376,7 @@ def run_sums(
     block: int,
     step: Callable[[], None] | None = None,
     integer_weights: bool = False,
+    into: list[np.ndarray] | None = None,
 ) -> list[np.ndarray]:
     """R x M sums of one run of units: the plans' contributions of these units (dense, sparse or
     :class:`MixedColumns` rows) times their weights (``weights_of(start, stop)``, positions
@@ -348,25 +386,41 @@ def run_sums(
     transpose times the C-ordered ``w.T`` (scipy's fastest product), added to M x R sums that
     are transposed once at the end of the run. ``integer_weights`` says that every weight is a
     whole number from 0 to :data:`_MAX_POISSON` (Poisson weights); it changes the time taken,
-    never a number.
+    never a number. With ``into`` (one R x M array per plan) the run's sums are added to those
+    arrays, which are returned, instead of being returned as new ones.
     """
     parts = [_split(c) for c in contributions]
     n = contributions[0].shape[0] if contributions else 0
     dense = [None if d is None else np.zeros((replicates, d.shape[1])) for d, _ in parts]
     thin = [None if t is None else np.zeros((t.shape[1], replicates)) for _, t in parts]
     # Whole-number weights and sparse columns: each block's sparse product in 32-bit integers,
-    # exact (no sum can reach 2^31) and so equal to the float product, at a quarter of the time.
+    # exact (no sum can reach 2^31) and so equal to the double-precision product, in a quarter
+    # of the time.
     whole = [
         t is not None and integer_weights and _whole_columns(t, block * _MAX_POISSON)
         for _, t in parts
     ]
+    # Likewise dense columns of whole numbers: single-precision products, exact below 2^24.
+    single = [
+        _single_columns(d, block * _MAX_POISSON) if d is not None and integer_weights else None
+        for d, _ in parts
+    ]
     for start in range(0, n, block):
         stop = min(start + block, n)
         w = weights_of(start, stop)
-        wt = wt_whole = None
+        wt = wt_whole = w32 = None
         for i, (d, t) in enumerate(parts):
-            if d is not None:
+            if d is not None and single[i] is None:
                 dense[i] += w @ d[start:stop]
+            elif d is not None:
+                exact, rest = single[i]
+                rows = d[start:stop]
+                w32 = w.astype(np.float32) if w32 is None else w32  # once for every plan
+                if rest.size:
+                    dense[i][:, exact] += w32 @ rows[:, exact].astype(np.float32)
+                    dense[i][:, rest] += w @ rows[:, rest]
+                else:
+                    dense[i] += w32 @ rows.astype(np.float32)
             if t is None:
                 continue
             rows = t[start:stop].T.tocsr()
@@ -379,10 +433,19 @@ def run_sums(
                 thin[i] += rows @ wt
         if step is not None:
             step()
-    sums = []
-    for d, t in zip(dense, thin, strict=True):
-        sums.append(d if t is None else t.T.copy() if d is None else np.hstack([d, t.T]))
-    return sums
+    if into is None:
+        return [
+            d if t is None else t.T.copy() if d is None else np.hstack([d, t.T])
+            for d, t in zip(dense, thin, strict=True)
+        ]
+    for i, (d, t) in enumerate(zip(dense, thin, strict=True)):
+        width = 0 if d is None else d.shape[1]
+        if d is not None:
+            into[i][:, :width] += d
+        if t is not None:
+            into[i][:, width:] += t.T
+        dense[i] = thin[i] = None
+    return into
 
 
 def evaluate_plans(
@@ -409,7 +472,7 @@ def evaluate_plans(
     n_units = plans[0].contributions.shape[0] if plans else 0
     if weights is not None and weights.n_units != n_units:
         raise ValueError(f"weights for {weights.n_units} units, plans for {n_units}")
-    width = max((p.contributions.shape[1] for p in plans), default=1)
+    width = jackknife_width(plans)
     replicates = weights.replicates if weights is not None else 0
     block = block_units or block_size(replicates, width, memory)
     if sums is not None:
@@ -432,16 +495,15 @@ def evaluate_plans(
 
         for start in range(0, n_units, block * RUN_BLOCKS):
             stop = min(start + block * RUN_BLOCKS, n_units)
-            part = run_sums(
+            run_sums(
                 [p.contributions[start:stop] for p in plans],
                 lambda a, b, start=start: weights.block(start + a, start + b),  # type: ignore[union-attr]
                 replicates,
                 block,
                 step,
                 integer_weights=isinstance(weights, PoissonUnitWeights),
+                into=sums,
             )
-            for i, run in enumerate(part):
-                sums[i] += run
     results: list[dict[str, Evaluated]] = []
     for i, plan in enumerate(plans):
         results.append(_evaluate(plan, sums[i], block))

@@ -27,7 +27,7 @@ ch. 11 (the jackknife: leave-one-out values of a statistic).
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 
 import numpy as np
 from scipy import sparse
@@ -115,25 +115,25 @@ def light_from_tables(tables: np.ndarray, k: int) -> np.ndarray:
     return nanmean_rows(pair_kappas(tables, k))
 
 
-def light_leave_one_out(total: np.ndarray, own: sparse.csr_matrix, k: int) -> np.ndarray:
+def light_leave_one_out(total: np.ndarray, k: int) -> Callable[[sparse.csr_matrix], np.ndarray]:
     """Light's kappa with each unit left out (the jackknife, Efron & Tibshirani 1993, ch. 11).
 
     Parameters
     ----------
     total
         The summed pair tables of all units (P K K,), :func:`pair_tables` summed over units.
-    own
-        The pair-table rows (J x P K K) of the units to leave out, one at a time.
     k
         Categories.
 
     Returns
     -------
-    numpy.ndarray
-        J values: Light's kappa of ``total - own[j]``. Leaving a unit out lowers one cell of each
-        of its pairs' tables by one, so the leave-one-out kappa of pair p is the kappa of its
-        table less one count in cell (a, c), at most K x K values per pair computed once; the
-        mean over pairs then replaces the unit's own pairs' kappas in the full-sample sum.
+    callable
+        ``values(own)``: for the pair-table rows ``own`` (J x P K K) of J units, Light's kappa of
+        ``total - own[j]`` for each. Leaving a unit out lowers one cell of each of its pairs'
+        tables by one, so the leave-one-out kappa of pair p is the kappa of its table less one
+        count in cell (a, c): at most K x K values per pair, computed here once. The mean over
+        pairs then replaces the unit's own pairs' kappas in the full-sample sum (a sparse
+        product with the rows).
     """
     cells = k * k
     n_pairs = total.size // cells if cells else 0
@@ -146,11 +146,13 @@ def light_leave_one_out(total: np.ndarray, own: sparse.csr_matrix, k: int) -> np
     base_sum = np.where(ok_full, full, 0.0).sum()
     base_count = float(ok_full.sum())
     ok_loo = np.isfinite(loo)
-    d_sum = np.where(ok_loo, loo, 0.0) - np.where(ok_full, full, 0.0)[:, None]
-    d_count = ok_loo.astype(float) - ok_full.astype(float)[:, None]
-    sums = base_sum + own @ d_sum.ravel()
-    counts = base_count + own @ d_count.ravel()
-    return div(sums, counts)
+    d_sum = (np.where(ok_loo, loo, 0.0) - np.where(ok_full, full, 0.0)[:, None]).ravel()
+    d_count = (ok_loo.astype(float) - ok_full.astype(float)[:, None]).ravel()
+
+    def values(own: sparse.csr_matrix) -> np.ndarray:
+        return div(base_sum + own @ d_sum, base_count + own @ d_count)
+
+    return values
 
 
 def _cell_kappas(less: np.ndarray, k: int) -> np.ndarray:

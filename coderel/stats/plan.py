@@ -48,9 +48,9 @@ from coderel.stats.pair_tables import light_from_tables, light_leave_one_out, pa
 from coderel.stats.pair_tables import nanmean_rows as _nanmean_rows
 
 Formula = Callable[[np.ndarray], np.ndarray]
-#: ``leave_one_out(total, own)``: a formula's jackknife values for the units whose contributions
-#: are the rows ``own`` (from the column sums ``total`` of all units).
-LeaveOneOut = Callable[[np.ndarray, Any], np.ndarray]
+#: ``leave_one_out(total)(own)``: a formula's jackknife values for the units whose contributions
+#: are the rows ``own``, from the column sums ``total`` of all units (prepared once per plan).
+LeaveOneOut = Callable[[np.ndarray], Callable[[Any], np.ndarray]]
 ScaleKind = Literal["categorical", "numeric", "set"]
 
 
@@ -379,10 +379,12 @@ def categorical_plan(x: np.ndarray, scale: Scale, *, icc_ordinal: bool = False) 
         s_t = _as_slice(b.add(pair_tables(x, pairs, k)))
         f["light_kappa"] = lambda s: light_from_tables(s[:, s_t], k)
         # the tables are the plan's only sparse columns: ``own.thin`` is their rows
-        leave_one_out["light_kappa"] = lambda total, own: light_leave_one_out(
-            total[s_t], own.thin, k
-        )
+        leave_one_out["light_kappa"] = lambda total: _on_thin(light_leave_one_out(total[s_t], k))
     return Plan(b.contributions(), f, leave_one_out)
+
+
+def _on_thin(values: Callable[[Any], np.ndarray]) -> Callable[[MixedColumns], np.ndarray]:
+    return lambda own: values(own.thin)
 
 
 def _undefined(s: np.ndarray) -> np.ndarray:
