@@ -175,3 +175,24 @@ def test_report_refuses_occasions_with_the_dask_engine(dataset):
     )
     assert res.exit_code == 2
     assert "--occasion" in res.stderr
+
+
+@pytest.mark.parametrize("command", ["merge", "report"])
+def test_merge_and_report_refuse_a_scheduler_without_the_dask_engine(dataset, tmp_path, command):
+    out = tmp_path / ("merged.csv" if command == "merge" else "report.md")
+    res = _invoke(
+        command, "-c", CODEBOOK, dataset["unit"], "-o", out, "--scheduler", "tcp://127.0.0.1:1"
+    )
+    assert res.exit_code == 2
+    assert "--scheduler goes with --engine dask" in res.stderr
+    assert not out.exists()
+
+
+def test_merge_with_the_dask_engine_reads_parquet_only(tmp_path):
+    (tmp_path / "d").mkdir()
+    (tmp_path / "d" / "ana.csv").write_text("unit,coder,variable,value\nr1,ana,species,1\n")
+    out = tmp_path / "merged.csv"
+    res = _invoke("merge", "-c", CODEBOOK, tmp_path / "d", "-o", out, "--engine", "dask")
+    assert res.exit_code == 2
+    assert "long Parquet tables" in res.stderr
+    assert not out.exists()
