@@ -84,7 +84,45 @@ def _number_key(digits: str) -> tuple[int, str]:
 
 def natural_order(names: Iterable[Any]) -> list[str]:
     """Distinct names as text, in :func:`natural_key` order."""
-    return sorted({str(n) for n in names}, key=natural_key)
+    distinct = list({str(n) for n in names})
+    fast = _natural_prefix_number(distinct)
+    return fast if fast is not None else sorted(distinct, key=natural_key)
+
+
+def _natural_prefix_number(texts: list[str]) -> list[str] | None:
+    """:func:`natural_key` order of many IDs that are all text and one number at the end
+    (``u17``, ``ENC-0042``, ``310``), by pyarrow's sort on columns instead of a Python key per
+    ID; None when some ID has another shape (or for few IDs: the key is then cheap enough).
+
+    The columns are :func:`natural_key`'s parts: the text before the number without regard to
+    case (ranked in Python, one per distinct text), the number's significant digits (their count,
+    then their value), then the ID itself (UTF-8 byte order is code point order)."""
+    if len(texts) < 1000:
+        return None
+    import pyarrow as pa
+    import pyarrow.compute as pc
+
+    ids = pa.array(texts, pa.string())
+    if pc.any(pc.match_substring(ids, "\x00")).as_py():
+        return None
+    # RE2: \p{Nd} is every decimal digit, as Python's \d; the number itself in ASCII digits
+    parts = pc.extract_regex(ids, r"^(?P<before>\P{Nd}*)(?P<digits>[0-9]+)$")
+    if parts.null_count:
+        return None
+    before = parts.field("before").dictionary_encode()
+    folded = [str(b).casefold() for b in before.dictionary.to_pylist()]
+    rank_of = {f: i for i, f in enumerate(sorted(set(folded)))}
+    prefix = np.array([rank_of[f] for f in folded], dtype=np.int64)[
+        before.indices.to_numpy(zero_copy_only=False)
+    ]
+    digits = pc.utf8_ltrim(parts.field("digits"), characters="0")
+    length = pc.utf8_length(digits)
+    if pc.max(length).as_py() > 18:
+        return None
+    number = pc.cast(pc.if_else(pc.equal(length, 0), "0", digits), pa.int64())
+    table = pa.table({"p": prefix, "l": length, "n": number, "t": ids})
+    order = pc.sort_indices(table, sort_keys=[(c, "ascending") for c in "plnt"])
+    return [texts[i] for i in order.to_numpy()]
 
 
 @dataclass(frozen=True, slots=True)
@@ -125,29 +163,45 @@ class Codings:
         Missing provenance columns are filled with ``None``; ``applies`` is computed from the
         codebook's conditions when absent.
         """
-        frame = (
-            records.copy()
+        source = (
+            records
             if isinstance(records, pd.DataFrame)
             else pd.DataFrame(list(records), dtype=object)
         )
         for col in ("unit", "coder", "variable", "value"):
-            if col not in frame.columns:
+            if col not in source.columns:
                 raise ValueError(f"codings need a {col!r} column")
-        frame["unit"] = frame["unit"].astype(str)
-        frame["coder"] = frame["coder"].astype(str)
-        frame["variable"] = frame["variable"].astype(str)
-        for col in ("missing", "file", "sheet", "cell"):
-            if col not in frame.columns:
-                frame[col] = None
-        # Object Series with an explicit dtype keep ``None`` as ``None`` (a plain list of numbers
-        # and ``None`` would be inferred as float with NaN).
+        n = len(source)
+        columns: dict[str, Any] = {}
+        for col in ("unit", "coder", "variable"):
+            columns[col] = text_category(source[col])
+        # Object arrays keep ``None`` as ``None`` (a plain list of numbers and ``None`` would be
+        # inferred as float with NaN).
         for col in ("value", "missing"):
-            frame[col] = pd.Series(_none_for_na(frame[col]), index=frame.index, dtype=object)
-        if "applies" not in frame.columns:
-            frame["applies"] = pd.Series(
-                applicability(codebook, frame), index=frame.index, dtype=object
-            )
-        frame = frame[list(CODING_COLUMNS)].reset_index(drop=True)
+            columns[col] = _none_for_na(source[col]) if col in source.columns else _nones(n)
+        columns["applies"] = (
+            source["applies"].to_numpy(copy=True) if "applies" in source.columns else None
+        )
+        for col in ("file", "sheet"):
+            columns[col] = _none_for_na(source[col]) if col in source.columns else _nones(n)
+        columns["cell"] = cell_text(source["cell"] if "cell" in source.columns else _nones(n))
+        index = pd.RangeIndex(n)
+        frame = pd.DataFrame(
+            {
+                k: v if k in ("unit", "coder", "variable", "cell") else _objects(v, index)
+                for k, v in columns.items()
+                if k != "applies"
+            },
+            index=index,
+            copy=False,
+        )
+        if columns["applies"] is None:
+            applies = pd.Series(applicability(codebook, frame), index=index, dtype=object)
+        elif columns["applies"].dtype == bool:
+            applies = pd.Series(columns["applies"], index=index, copy=False)
+        else:
+            applies = _objects(columns["applies"], index)
+        frame.insert(CODING_COLUMNS.index("applies"), "applies", applies)
         return cls(
             codebook=codebook,
             frame=frame,
@@ -216,6 +270,54 @@ def condition_holds(condition_variable: Variable, value: Any, includes: Sequence
     return value in includes
 
 
+def text_category(column: pd.Series | pd.Categorical) -> pd.Categorical:
+    """A column of IDs or names as text, categorical: one small integer per row and each name
+    once, the categories in text order (so that sorting and grouping by the column give the order
+    of the text itself) and only those in use."""
+    if isinstance(getattr(column, "dtype", None), pd.CategoricalDtype):
+        cat = pd.Categorical(column)
+        codes = cat.codes
+        used = np.bincount(codes[codes >= 0].astype(np.int64), minlength=len(cat.categories))
+        if not used.all():
+            cat = cat.remove_unused_categories()
+        names = cat.categories
+        if (names.inferred_type == "string" or not len(names)) and (cat.codes >= 0).all():
+            texts = [str(n) for n in names]
+            order = sorted(range(len(texts)), key=texts.__getitem__)
+            if len(set(texts)) == len(texts):
+                return pd.Categorical.from_codes(
+                    np.argsort(order)[cat.codes] if len(order) else cat.codes,
+                    categories=pd.Index([texts[i] for i in order], dtype=str),
+                )
+        column = pd.Series(cat).astype(object)
+    texts = pd.Series(column, copy=False).astype(str)
+    return pd.Categorical(texts, categories=pd.Index(sorted(pd.unique(texts)), dtype=str))
+
+
+def cell_text(column: pd.Series | np.ndarray) -> pd.Series:
+    """A column of cell references as compact text (pyarrow), ``NA`` where there is none."""
+    kind = pd.StringDtype("pyarrow")
+    series = pd.Series(column, copy=False)
+    if series.dtype == kind:
+        return series.reset_index(drop=True)
+    return series.astype(object).where(series.notna(), None).astype(kind).reset_index(drop=True)
+
+
+def none_for_na(value: Any) -> Any:
+    """One cell of a column as a problem or record takes it: ``None`` for a missing one (``NA``
+    of a text column, NaN)."""
+    return None if _is_na(value) else value
+
+
+def _objects(values: np.ndarray, index: pd.Index) -> pd.Series:
+    """An object column as it is (pandas would otherwise infer text or numbers from it)."""
+    return pd.Series(values, index=index, dtype=object, copy=False)
+
+
+def _nones(n: int) -> np.ndarray:
+    return np.full(n, None, dtype=object)
+
+
 def _none_for_na(column: pd.Series) -> np.ndarray:
     """The column as an object array with ``None`` wherever pandas sees a missing value (None,
     NaN, ``pd.NA``, ``NaT``), with no loop over rows."""
@@ -224,30 +326,41 @@ def _none_for_na(column: pd.Series) -> np.ndarray:
     return values
 
 
-def applicability(codebook: Codebook, frame: pd.DataFrame) -> list[object]:
+def applicability(codebook: Codebook, frame: pd.DataFrame) -> np.ndarray:
     """Evaluate every row's ``applies_when`` on the same coder's value of the condition variable.
 
     Returns ``True``/``False`` per row, ``None`` where the condition variable is blank or missing
-    for that coder and unit, and ``True`` for variables without a condition. Works on whole
-    columns: the condition is evaluated once per distinct value of the condition variable.
+    for that coder and unit (or the row's variable is not in the codebook), and ``True`` for
+    variables without a condition: an object array, or a boolean array of ``True`` when every
+    row's variable is in a codebook without conditions. Works on whole columns: the condition is
+    evaluated once per distinct value of the condition variable.
     """
-    names = frame["variable"].to_numpy(dtype=object)
-    out = np.full(len(names), None, dtype=object)
-    out[pd.Series(names, dtype=object).isin(codebook.names).to_numpy()] = True
+    known = frame["variable"].isin(codebook.names).to_numpy()
     conditions = {v.name: v.applies_when for v in codebook.variables if v.applies_when}
+    if not conditions and known.all():
+        return np.ones(len(known), dtype=bool)
+    out = np.full(len(known), None, dtype=object)
+    out[known] = True
+    var_codes, var_names = pd.factorize(frame["variable"])
+    position = {str(n): i for i, n in enumerate(var_names)}
     for name, cond in conditions.items():
-        rows = np.flatnonzero(names == name)
+        rows = np.flatnonzero(var_codes == position.get(name, -2))
         if not len(rows):
             continue
-        source = frame.loc[names == cond.variable, ["unit", "coder", "value"]]
+        source = frame.loc[var_codes == position.get(cond.variable, -2), ["unit", "coder", "value"]]
         source = source.drop_duplicates(["unit", "coder"], keep="last")
         lookup = pd.Series(
             source["value"].to_numpy(dtype=object),
-            index=pd.MultiIndex.from_arrays([source["unit"], source["coder"]]),
+            index=pd.MultiIndex.from_arrays(
+                [source["unit"].to_numpy(dtype=object), source["coder"].to_numpy(dtype=object)]
+            ),
             dtype=object,
         )
         keys = pd.MultiIndex.from_arrays(
-            [frame["unit"].to_numpy()[rows], frame["coder"].to_numpy()[rows]]
+            [
+                frame["unit"].iloc[rows].to_numpy(dtype=object),
+                frame["coder"].iloc[rows].to_numpy(dtype=object),
+            ]
         )
         given = lookup.reindex(keys).to_numpy(dtype=object) if len(lookup) else None
         result = np.full(len(rows), None, dtype=object)
@@ -267,4 +380,4 @@ def applicability(codebook: Codebook, frame: pd.DataFrame) -> list[object]:
                         holds[value] = hit
                 result[i] = hit
         out[rows] = result
-    return list(out)
+    return out

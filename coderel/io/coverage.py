@@ -77,9 +77,10 @@ def drop_uncoded(frame: pd.DataFrame, problems: Problems) -> pd.DataFrame:
     # (unit, coder) pairs as integers: whole columns, no loop over rows
     unit_codes, _ = pd.factorize(frame["unit"])
     coder_codes, coder_names = pd.factorize(frame["coder"])
-    pair = unit_codes.astype(np.int64) * max(len(coder_names), 1) + coder_codes
-    coded = np.unique(pair[written(frame).to_numpy(dtype=bool)])
-    drop = ~np.isin(pair, coded)
+    pair, _ = pd.factorize(unit_codes.astype(np.int64) * max(len(coder_names), 1) + coder_codes)
+    coded = np.zeros(pair.max(initial=-1) + 1, dtype=bool)
+    coded[pair[written(frame).to_numpy(dtype=bool)]] = True
+    drop = ~coded[pair]
     if not drop.any():
         return frame
     dropped = frame.loc[drop]
@@ -124,7 +125,7 @@ def did_you_mean(coder: str, coders: Sequence[str]) -> str | None:
 
 def warn_alike_coders(frame: pd.DataFrame, problems: Problems) -> None:
     """One ``similar-coder-names`` warning per coder name that looks like an earlier one."""
-    coders = list(dict.fromkeys(frame["coder"]))
+    coders = [str(c) for c in pd.unique(frame["coder"])]  # first seen first
     for names in alike_coders(coders):
         first = names[0]
         for other in names[1:]:

@@ -89,9 +89,14 @@ def _encode(column: pa.ChunkedArray | pa.Array) -> tuple[list[Any], np.ndarray]:
 
     if pa.types.is_dictionary(column.type):
         column = column.cast(column.type.value_type)
-    uniques = pc.unique(column)
-    codes = pc.index_in(column, value_set=uniques, skip_nulls=False)
-    return uniques.to_pylist(), np.asarray(codes.to_numpy(zero_copy_only=False), dtype=np.int64)
+    # distinct values in order of first appearance (null included), and each row's index
+    encoded = pc.dictionary_encode(column, null_encoding="encode")
+    if isinstance(encoded, pa.ChunkedArray):
+        encoded = encoded.combine_chunks() if encoded.num_chunks else pa.array([], column.type)
+    if not pa.types.is_dictionary(encoded.type):  # an empty column
+        return [], np.empty(0, dtype=np.int64)
+    codes = encoded.indices.to_numpy(zero_copy_only=False)
+    return encoded.dictionary.to_pylist(), np.asarray(codes, dtype=np.int64)
 
 
 def _accepted(kind: pa.DataType) -> bool:
@@ -378,13 +383,10 @@ def apply_columns(
         dtype=np.int64,
     )
     idx = np.flatnonzero(alive)
-    frame = pd.DataFrame(
-        {"c": coder[idx], "u": unit[idx], "k": key_ids[cols.codes[2][idx]]}, copy=False
-    )
-    dup = frame.duplicated(keep="first").to_numpy()
+    triple = _triple_codes(coder[idx], unit[idx], key_ids[cols.codes[2][idx]], len(units))
+    dup = _duplicated(triple)
     if dup.any():
-        first_row = pd.Series(idx).groupby([frame["c"], frame["u"], frame["k"]]).transform("first")
-        first_row = first_row.to_numpy()
+        first_row = pd.Series(idx).groupby(triple).transform("first").to_numpy()
         for pos in np.flatnonzero(dup):
             row = int(idx[pos])
             d = int(cols.codes[2][row])
@@ -417,7 +419,9 @@ def apply_columns(
     raw_idx = cols.codes[3][rows]
     n_raw = max(len(cols.distinct[3]), 1)
     pair = var_idx * n_raw + raw_idx
-    pairs, inverse = np.unique(pair, return_inverse=True)
+    # factorised by hashing, in order of first appearance (the order of rows does not matter:
+    # each distinct pair is normalised once, and problems are sorted by row below)
+    inverse, pairs = _first_seen(pair, len(cb.variables) * n_raw)
     variables = cb.variables
     values: list[Any] = []
     missings: list[Any] = []
@@ -461,45 +465,103 @@ def apply_columns(
     value_obj[:] = values
     missing_obj = np.empty(len(missings), dtype=object)
     missing_obj[:] = missings
-    unit_names = np.empty(len(units), dtype=object)
-    unit_names[:] = units
-    coder_names = np.empty(len(coders), dtype=object)
-    coder_names[:] = coders
-    var_names = np.empty(len(variables), dtype=object)
-    var_names[:] = [v.name for v in variables]
+    var_names = [v.name for v in variables]
     number = cols.numbers[rows]
+    absent = _absent(unit[rows], coder[rows], var_idx, len(variables), len(coders))
+    n_given, n_absent = len(rows), len(absent[0])
     given = pd.DataFrame(
         {
-            "unit": unit_names[unit[rows]],
-            "coder": coder_names[coder[rows]],
-            "variable": var_names[var_idx],
-            "value": value_obj[inverse] if len(rows) else np.empty(0, dtype=object),
-            "missing": missing_obj[inverse] if len(rows) else np.empty(0, dtype=object),
-            "file": cols.file,
-            "sheet": None,
-            "cell": np.char.add("D", number.astype(str)).astype(object),
-            "_line": (cols.lines[rows].astype(object) if cols.lines is not None else None),
-            "_invalid": invalid[inverse] if len(rows) else np.empty(0, dtype=bool),
-        }
+            "unit": _category(np.concatenate([unit[rows], absent[0]]), units),
+            "coder": _category(np.concatenate([coder[rows], absent[1]]), coders),
+            "variable": _category(np.concatenate([var_idx, absent[2]]), var_names),
+            "value": _column(_objects(value_obj, inverse, n_absent)),
+            "missing": _column(_objects(missing_obj, inverse, n_absent)),
+            "file": _column(_repeat(cols.file, n_given + n_absent)),
+            "sheet": _column(_repeat(None, n_given + n_absent)),
+            "cell": _cells(number, n_absent),
+            "_line": pd.Series(
+                _objects(cols.lines[rows].astype(object), None, n_absent)
+                if cols.lines is not None
+                else _repeat(None, n_given + n_absent),
+                dtype=object,
+                copy=False,
+            ),
+            "_invalid": np.concatenate(
+                [invalid[inverse] if n_given else np.empty(0, dtype=bool), np.zeros(n_absent, bool)]
+            ),
+        },
+        copy=False,
     )
-    absent = _absent(unit[rows], coder[rows], var_idx, len(variables), len(coders))
-    if len(absent[0]):
-        fill = pd.DataFrame(
-            {
-                "unit": unit_names[absent[0]],
-                "coder": coder_names[absent[1]],
-                "variable": var_names[absent[2]],
-                "value": None,
-                "missing": None,
-                "file": cols.file,
-                "sheet": None,
-                "cell": None,
-                "_line": None,
-                "_invalid": False,
-            }
-        )
-        given = pd.concat([given, fill], ignore_index=True)
     reader.add_frame(given)
+
+
+def _triple_codes(coder: np.ndarray, unit: np.ndarray, key: np.ndarray, n_units: int) -> np.ndarray:
+    """One int64 per (coder, unit, key) triple, equal exactly when the triples are equal (the
+    pair is coded first, so that no product of counts can overflow)."""
+    n_coders = int(coder.max(initial=0)) + 1
+    pair, _ = _first_seen(coder.astype(np.int64) * max(n_units, 1) + unit, n_coders * n_units)
+    return pair * (int(key.max(initial=0)) + 2) + (key + 1)
+
+
+def _duplicated(key: np.ndarray) -> np.ndarray:
+    """Which entries repeat an earlier one (non-negative int keys)."""
+    if len(key) and int(key.max()) < 4 * len(key) + 1024 and np.bincount(key).max() <= 1:
+        return np.zeros(len(key), dtype=bool)
+    return pd.Series(key, copy=False).duplicated(keep="first").to_numpy()
+
+
+def _first_seen(key: np.ndarray, bound: int) -> tuple[np.ndarray, np.ndarray]:
+    """Like ``pandas.factorize`` for int keys in ``[0, bound)``: each entry's code, codes given
+    in order of first appearance, and the distinct keys in that order. Dense arrays when the
+    bound is small (no hashing), pandas otherwise."""
+    if bound > 4 * len(key) + 1024:
+        codes, uniques = pd.factorize(key)
+        return codes.astype(np.int64, copy=False), np.asarray(uniques)
+    n = len(key)
+    first = np.full(bound, n, dtype=np.int64)
+    np.minimum.at(first, key, np.arange(n))
+    uniques = np.flatnonzero(first < n)
+    uniques = uniques[np.argsort(first[uniques], kind="stable")]
+    rank = np.zeros(bound, dtype=np.int64)
+    rank[uniques] = np.arange(len(uniques))
+    return rank[key], uniques
+
+
+def _category(codes: np.ndarray, names: list[str]) -> pd.Categorical:
+    """Per-row codes into ``names`` as a categorical column: one small integer per row, and
+    the names once."""
+    return pd.Categorical.from_codes(codes, categories=pd.Index(names, dtype=str))
+
+
+def _objects(distinct: np.ndarray, inverse: np.ndarray | None, n_none: int) -> np.ndarray:
+    """``distinct[inverse]`` (or ``distinct`` itself) followed by ``n_none`` None, as one object
+    array: the rows share the distinct Python objects, none is made per row."""
+    head = distinct if inverse is None else distinct[inverse] if len(inverse) else distinct[:0]
+    out = np.empty(len(head) + n_none, dtype=object)
+    out[: len(head)] = head
+    return out
+
+
+def _column(values: np.ndarray) -> pd.Series:
+    """An object column as it is (pandas would otherwise infer text from it)."""
+    return pd.Series(values, dtype=object, copy=False)
+
+
+def _repeat(value: Any, n: int) -> np.ndarray:
+    out = np.empty(n, dtype=object)
+    out[:] = [value] if n else []
+    return out
+
+
+def _cells(number: np.ndarray, n_absent: int) -> pd.Series:
+    """The value cell (``D17``) of each given row, then ``n_absent`` missing cells: made by
+    pyarrow as one compact text column, not a Python string per row."""
+    import pyarrow as pa
+    import pyarrow.compute as pc
+
+    text = pc.binary_join_element_wise("D", pc.cast(pa.array(number), pa.string()), "")
+    cells = pa.concat_arrays([text, pa.nulls(n_absent, pa.string())])
+    return pd.Series(pd.arrays.ArrowStringArray(cells), copy=False)
 
 
 def _absent(
@@ -511,14 +573,9 @@ def _absent(
         empty = np.empty(0, dtype=np.int64)
         return empty, empty, empty
     pair = unit.astype(np.int64) * n_coders + coder
-    order_pairs, first = np.unique(pair, return_index=True)
-    order = np.argsort(first, kind="stable")
-    pairs = order_pairs[order]
-    pos = np.searchsorted(order_pairs, pair)
-    rank = np.empty(len(order_pairs), dtype=np.int64)
-    rank[order] = np.arange(len(order_pairs))
+    rank, pairs = _first_seen(pair, n_coders * (int(unit.max()) + 1))
     has = np.zeros((len(pairs), n_vars), dtype=bool)
-    has[rank[pos], var] = True
+    has[rank, var] = True
     p_idx, v_idx = np.nonzero(~has)
     return pairs[p_idx] // n_coders, pairs[p_idx] % n_coders, v_idx
 

@@ -16,6 +16,7 @@ from collections.abc import Collection
 import numpy as np
 import pandas as pd
 
+from coderel.codings import none_for_na
 from coderel.problems import Problems
 
 _KEY = ["unit", "coder", "variable"]
@@ -60,7 +61,7 @@ def merge_long_parts(
                 variable=row["variable"],
                 file=full["file"],
                 sheet=full["sheet"],
-                cell=full["cell"],
+                cell=none_for_na(full["cell"]),
                 line=full["_line"] if "_line" in frame.columns else None,
             )
     return frame.drop(index=drop).reset_index(drop=True)

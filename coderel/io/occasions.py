@@ -70,10 +70,10 @@ def split_occasions(frame: pd.DataFrame, problems: Problems) -> tuple[pd.DataFra
     label, ``""`` when the first had none). A coder with more than two occasions gets a
     ``too-many-occasions`` error and the later ones are not read.
     """
+    if not any(MARK in str(name) for name in pd.unique(frame["coder"])):
+        return frame, pd.DataFrame(columns=[*frame.columns, "occasion", "first_occasion"])
     coder = frame["coder"].astype(str)
     tagged = coder.str.contains(MARK, regex=False)
-    if not tagged.any():
-        return frame, pd.DataFrame(columns=[*frame.columns, "occasion", "first_occasion"])
     parts = coder.str.partition(MARK)
     base = parts[0].where(tagged, coder)
     label = parts[2].where(tagged, "")

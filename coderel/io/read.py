@@ -32,10 +32,12 @@ from collections.abc import Callable, Sequence
 from pathlib import Path
 from typing import Any
 
+import numpy as np
 import pandas as pd
+from pandas.api.types import union_categoricals
 
 from coderel.codebook import Codebook
-from coderel.codings import TEXT_COLUMNS, Codings, SourceFile
+from coderel.codings import TEXT_COLUMNS, Codings, SourceFile, cell_text, text_category
 from coderel.errors import InputRefused
 from coderel.io.archive import (
     DEFAULT_LIMITS,
@@ -297,11 +299,7 @@ def _assemble(
     step: Callable[[int], None],
 ) -> Codings:
     """The long table from everything read: parts merged, whole-table checks, Codings."""
-    frame = pd.DataFrame(reader.records, columns=RECORD_COLUMNS)
-    if reader.frames:
-        frame = pd.concat([*reader.frames, frame], ignore_index=True)
-    frame = frame.astype(object)
-    frame = frame.where(frame.notna(), None) if len(frame) else frame
+    frame = _joined(reader)
     if reader.spread_coders:
         frame = merge_long_parts(frame, reader.spread_coders, reader.problems)
     frame = drop_uncoded(frame, reader.problems)  # one rule for every path: see io/coverage.py
@@ -326,6 +324,35 @@ def _assemble(
         problems=reader.problems,
         sources=sources,
     )
+
+
+def _joined(reader: SheetReader) -> pd.DataFrame:
+    """The reader's records (read row by row) and record blocks (read column by column) as one
+    table in reading order: unit, coder and variable categorical (:func:`text_category`), cells
+    as compact text, the other columns objects with ``None`` for blank."""
+    records = pd.DataFrame(reader.records, columns=RECORD_COLUMNS).astype(object)
+    records = records.where(records.notna(), None) if len(records) else records
+    parts = [f for f in reader.frames if len(f)]
+    if len(records) or not parts:
+        parts.append(records)
+    if len(parts) == 1 and not len(records):
+        return parts[0]
+    names = ("unit", "coder", "variable")
+    columns: dict[str, Any] = {
+        col: union_categoricals([text_category(p[col]) for p in parts], ignore_order=True)
+        for col in names
+    }
+    for col in RECORD_COLUMNS:
+        if col in names:
+            continue
+        if col == "cell":
+            columns[col] = pd.concat([cell_text(p[col]) for p in parts], ignore_index=True)
+        elif col == "_invalid":
+            columns[col] = np.concatenate([p[col].to_numpy(dtype=bool) for p in parts])
+        else:
+            values = np.concatenate([p[col].to_numpy(dtype=object) for p in parts])
+            columns[col] = pd.Series(values, dtype=object, copy=False)
+    return pd.DataFrame(columns, copy=False)[RECORD_COLUMNS]
 
 
 def missing_count(codings: Codings) -> dict[str, int]:

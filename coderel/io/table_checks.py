@@ -18,7 +18,7 @@ import numpy as np
 import pandas as pd
 
 from coderel.codebook import Codebook
-from coderel.codings import applicability
+from coderel.codings import applicability, none_for_na
 from coderel.io.coverage import coder_key
 from coderel.problems import Problems
 
@@ -29,8 +29,11 @@ def check_skip_logic(codebook: Codebook, problems: Problems, frame: pd.DataFrame
     for _ in range(len(cb.variables) + 1):
         applies = applicability(cb, frame)
         frame["applies"] = applies
+        false = _is_false(applies)
+        if not false.any():
+            break
         given = frame["value"].notna().to_numpy() | frame["missing"].notna().to_numpy()
-        bad = np.flatnonzero(_is_false(applies) & given).tolist()
+        bad = np.flatnonzero(false & given).tolist()
         if not bad:
             break
         for i in bad:
@@ -52,8 +55,9 @@ def check_skip_logic(codebook: Codebook, problems: Problems, frame: pd.DataFrame
             frame.at[frame.index[i], "missing"] = None
             frame.at[frame.index[i], "_invalid"] = True
     conditional = [v.name for v in cb.variables if v.applies_when is not None]
-    applies = frame["applies"].to_numpy(dtype=object)
-    is_true = np.fromiter((a is True for a in applies), bool, len(applies))
+    if not conditional:
+        return frame
+    is_true = _is_true(frame["applies"].to_numpy())
     blank = frame["value"].isna().to_numpy() & frame["missing"].isna().to_numpy()
     valid = ~frame["_invalid"].astype(bool).to_numpy()
     asked = frame["variable"].isin(conditional).to_numpy() & is_true & blank & valid
@@ -86,23 +90,34 @@ def check_blank_variables(problems: Problems, frame: pd.DataFrame) -> None:
     and only coders with at least one valid value count (a sheet not yet begun is no news).
     """
     empty = frame["value"].isna().to_numpy() & frame["missing"].isna().to_numpy()
-    blank = empty & ~frame["_invalid"].astype(bool).to_numpy()
-    begun = set(frame.loc[~empty, "coder"])
+    blank = empty & ~frame["_invalid"].to_numpy(dtype=bool)
+    coder_codes, coders = pd.factorize(frame["coder"])
+    var_codes, variables = pd.factorize(frame["variable"])
+    begun = np.zeros(len(coders) + 1, dtype=bool)
+    begun[coder_codes[~empty]] = True
     # None: no condition; False (Python's or numpy's): the condition says it does not apply.
-    applies = ~_is_false(frame["applies"].to_numpy(dtype=object))
-    applies &= frame["coder"].isin(begun).to_numpy()
-    cols = frame.loc[applies, ["coder", "variable"]].assign(_blank=blank[applies])
-    if cols.empty:
+    rows = np.flatnonzero(~_is_false(frame["applies"].to_numpy()) & begun[coder_codes])
+    if not len(rows):
         return
-    groups = cols.groupby(["coder", "variable"], sort=False)["_blank"].agg(["all", "size"])
-    first = (
-        frame.loc[applies].drop_duplicates(["coder", "variable"]).set_index(["coder", "variable"])
+    # (coder, variable) groups in order of first appearance, as a groupby without sorting
+    group, keys = pd.factorize(
+        coder_codes[rows].astype(np.int64) * (len(variables) + 1) + var_codes[rows]
     )
-    nobody = {
+    size = np.bincount(group, minlength=len(keys))
+    all_blank = np.bincount(group, weights=blank[rows], minlength=len(keys)) == size
+    first = np.full(len(keys), len(rows), dtype=np.int64)
+    np.minimum.at(first, group, np.arange(len(rows)))
+    first_row = rows[first]
+    group_coder = [str(coders[c]) for c in keys // (len(variables) + 1)]
+    group_var = [str(variables[v]) for v in keys % (len(variables) + 1)]
+    per_variable: dict[str, list[int]] = {}
+    for g, variable in enumerate(group_var):
+        per_variable.setdefault(variable, []).append(g)
+    nobody = [
         variable
-        for variable, rows in groups.groupby(level="variable", sort=False)
-        if len(rows) > 1 and bool(rows["all"].all())
-    }
+        for variable, gs in per_variable.items()
+        if len(gs) > 1 and bool(all_blank[gs].all())
+    ]
     for variable in nobody:  # one problem for the variable, not one per coder
         problems.add(
             "blank-variable",
@@ -112,43 +127,50 @@ def check_blank_variables(problems: Problems, frame: pd.DataFrame) -> None:
             f"{variable!r} in every sheet",
             variable=variable,
         )
-    for (coder, variable), row in groups.iterrows():
-        if not row["all"] or row["size"] < 2 or variable in nobody:
+    files = frame["file"].to_numpy(dtype=object)
+    sheets = frame["sheet"].to_numpy(dtype=object)
+    for g in np.flatnonzero(all_blank & (size >= 2)).tolist():
+        coder, variable = group_coder[g], group_var[g]
+        if variable in nobody:
             continue
-        where = first.loc[(coder, variable)]
         problems.add(
             "blank-variable",
-            f"{coder} left {variable} blank on all {row['size']} units where it applies; "
+            f"{coder} left {variable} blank on all {size[g]} units where it applies; "
             f"agreement on {variable} rests on the other coders",
             hint=f"code {variable} in {coder}'s sheet, or check that the values are in the "
             "column the codebook names (not in another sheet or a renamed column)",
-            file=where["file"],
-            sheet=where["sheet"],
+            file=files[first_row[g]],
+            sheet=sheets[first_row[g]],
             coder=coder,
             variable=variable,
         )
 
 
 def check_partial_units(problems: Problems, frame: pd.DataFrame) -> None:
+    """``partial-unit``: a unit coded by only some of the coders, with hints for unit IDs that
+    differ only in leading zeros, case or spaces and for coder names that differ only in case or
+    spaces. Works per distinct set of coders present; a message is made per partial unit."""
     unit_codes, unit_index = pd.factorize(frame["unit"])
     coder_codes, coder_index = pd.factorize(frame["coder"])
-    units, coders = list(unit_index), list(coder_index)
+    units, coders = [str(u) for u in unit_index], [str(c) for c in coder_index]
     n_coders = len(coders)
     if n_coders < 2:
         return
-    pairs = np.unique(unit_codes.astype(np.int64) * n_coders + coder_codes)
+    # distinct (unit, coder) pairs: hashed first, so that only the distinct ones are sorted
+    _, distinct = pd.factorize(unit_codes.astype(np.int64) * n_coders + coder_codes)
+    pairs = np.sort(distinct)
     pair_unit, pair_coder = pairs // n_coders, pairs % n_coders
     per_unit = np.bincount(pair_unit, minlength=len(units))
     partial = np.flatnonzero(per_unit < n_coders)
     if not len(partial):
         return
+    starts = np.searchsorted(pair_unit, partial)
     # IDs that differ only in leading zeros, case or inner spaces ("001" and 1, once a
     # spreadsheet has turned the text into a number) are most likely one unit.
     loose = [_loose_id(u) for u in units]
     alike: dict[str, list[str]] = {}
     for key, unit in zip(loose, units, strict=True):
         alike.setdefault(key, []).append(unit)
-    starts = np.searchsorted(pair_unit, partial)
     # coder names that differ only in case or spaces: "did you mean" (io/coverage.py)
     keys = [coder_key(c) for c in coders]
     twins = {
@@ -156,18 +178,23 @@ def check_partial_units(problems: Problems, frame: pd.DataFrame) -> None:
         for i in range(n_coders)
     }
     twins = {i: names for i, names in twins.items() if names}
-    for u, start in zip(partial.tolist(), starts.tolist(), strict=True):
-        unit = units[u]
-        present_codes = set(pair_coder[start : start + per_unit[u]].tolist())
-        present = [c for i, c in enumerate(coders) if i in present_codes]
-        absent_codes = [i for i in range(n_coders) if i not in present_codes]
-        absent = [coders[i] for i in absent_codes]
-        others = [x for x in alike[loose[u]] if x != unit]
+    # the message and the coders' part of the hint depend only on which coders are present
+    keys_of_units = [
+        pair_coder[a : a + k].tobytes()
+        for a, k in zip(starts.tolist(), per_unit[partial].tolist(), strict=True)
+    ]
+    pattern, patterns = pd.factorize(np.array(keys_of_units, dtype=object))
+    said: list[tuple[str, str]] = []
+    for key in patterns:
+        row = np.zeros(n_coders, dtype=bool)
+        row[np.frombuffer(key, dtype=pair_coder.dtype)] = True
+        here = [c for i, c in enumerate(coders) if row[i]]
+        absent_codes = [i for i in range(n_coders) if not row[i]]
         hint = "code the unit by every coder, or accept that agreement for it uses fewer coders"
         meant = []
         for i in absent_codes:
             if i in twins:
-                found = next((c for c in twins[i] if c in present), None)
+                found = next((c for c in twins[i] if c in here), None)
                 if found is not None:
                     meant.append((coders[i], found))
         if meant:
@@ -176,6 +203,13 @@ def check_partial_units(problems: Problems, frame: pd.DataFrame) -> None:
                 + " coder names that differ only in case or spaces are two coders; "
                 + hint
             )
+        absent = ", ".join(coders[i] for i in absent_codes)
+        who = f"is coded by {', '.join(here)} but not by {absent}"
+        said.append((who, hint))
+    for u, p in zip(partial.tolist(), pattern.tolist(), strict=True):
+        unit = units[u]
+        who, hint = said[p]
+        others = [x for x in alike[loose[u]] if x != unit]
         if others:
             hint = (
                 f"the unit ID {', '.join(repr(x) for x in others)} differs only in "
@@ -183,17 +217,22 @@ def check_partial_units(problems: Problems, frame: pd.DataFrame) -> None:
                 "write the ID the same way in every sheet (format the unit column as Text "
                 f"so that leading zeros stay); otherwise {hint}"
             )
-        problems.add(
-            "partial-unit",
-            f"unit {unit} is coded by {', '.join(present)} but not by {', '.join(absent)}",
-            hint=hint,
-            unit=unit,
-        )
+        problems.add("partial-unit", f"unit {unit} {who}", hint=hint, unit=unit)
+
+
+def _is_true(applies: Any) -> np.ndarray:
+    """Rows whose applicability is True (Python's or numpy's); None and False are not."""
+    values = np.asarray(applies)
+    if values.dtype == bool:
+        return values.copy()
+    return np.fromiter((a is not None and bool(a) for a in values), bool, len(values))
 
 
 def _is_false(applies: Any) -> np.ndarray:
     """Rows whose applicability is False (Python's or numpy's); None and True are not."""
-    values = np.asarray(applies, dtype=object)
+    values = np.asarray(applies)
+    if values.dtype == bool:
+        return ~values
     return np.fromiter((a is not None and not a for a in values), bool, len(values))
 
 
@@ -210,7 +249,7 @@ def _row_place(row: pd.Series) -> dict[str, Any]:
     return {
         "file": row["file"],
         "sheet": row["sheet"],
-        "cell": row["cell"],
+        "cell": none_for_na(row["cell"]),
         "line": row["_line"],
         "unit": row["unit"],
         "coder": row["coder"],

@@ -44,7 +44,7 @@ from coderel.agree import MIN_UNITS_FOR_INTERVAL, Estimate, min_replicates
 from coderel.agree.driver import check_settings
 from coderel.agree.matrices import build_targets
 from coderel.codebook import Codebook, Variable
-from coderel.codings import Codings
+from coderel.codings import Codings, none_for_na
 from coderel.errors import DataProblems, UsageError
 from coderel.problems import Problems, make_problem
 from coderel.stats.bootstrap import evaluate_plans, make_weights
@@ -259,7 +259,7 @@ def _check_key(key: Codings, trainees: Codings) -> tuple[str, list[str]]:
                 f"unit {unit} is in the key but no trainee coded it",
                 file=None if first is None else first["file"],
                 sheet=None if first is None else first["sheet"],
-                cell=None if first is None else first["cell"],
+                cell=None if first is None else none_for_na(first["cell"]),
                 unit=unit,
                 hint="give the trainees' sheets for this unit too, or take it out of the key",
             )
