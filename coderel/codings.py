@@ -3,12 +3,16 @@
 Every reader produces a :class:`Codings`; every later step (validation summary, agreement,
 adjudication, merge, report) reads only this table. Columns of :attr:`Codings.frame`:
 
-``unit`` (str)
+``unit`` (text, categorical)
     Unit ID as text, spaces stripped.
-``coder`` (str)
+``coder`` (text, categorical)
     Coder name (file stem, sheet name, or the ``coder`` column).
-``variable`` (str)
+``variable`` (text, categorical)
     Variable name from the codebook.
+
+These three are pandas categoricals whose categories are the names in use, in text order: one
+small integer per row and each name once (millions of labels name a few thousand units), while
+each element is still a ``str``, and sorting or grouping by the column follows the text.
 ``value`` (object)
     The normalised value, or ``None`` when the cell is blank, holds a missing code, or is invalid:
     a category code (``int`` or ``str``, exactly as in the codebook) for single-choice variables;
@@ -20,8 +24,10 @@ adjudication, merge, report) reads only this table. Columns of :attr:`Codings.fr
     ``True``/``False`` from the variable's ``applies_when`` condition evaluated on the same coder's
     value of the condition variable; ``None`` when that value is blank or missing. Always ``True``
     for variables without a condition.
-``file``, ``sheet``, ``cell`` (str or None)
-    Where the value came from, e.g. ``coder_a.xlsx``, ``Sheet1``, ``C14``.
+``file``, ``sheet`` (str or None), ``cell`` (text or NA)
+    Where the value came from, e.g. ``coder_a.xlsx``, ``Sheet1``, ``C14``. ``cell`` is a pyarrow
+    text column (a few bytes per row, not a Python string each); a row without a cell (a variable
+    the coder did not give) holds ``NA`` there (:func:`none_for_na` gives ``None``).
 
 A coder's second coding occasion (test-retest) is kept apart in :attr:`Codings.occasions`: the
 same columns plus ``occasion`` (its label) and ``first_occasion`` (the label of the first, ``""``

@@ -71,7 +71,7 @@ class Columns:
     file: str
     #: distinct values per column, as the row reader would see the cells (``None`` for blank)
     distinct: list[list[Any]]
-    #: per-row index into ``distinct`` (int64 arrays, one per column)
+    #: per-row index into ``distinct`` (int32 arrays, one per column)
     codes: list[np.ndarray]
     #: spreadsheet-style row number of each row (header is row 1)
     numbers: np.ndarray
@@ -94,9 +94,9 @@ def _encode(column: pa.ChunkedArray | pa.Array) -> tuple[list[Any], np.ndarray]:
     if isinstance(encoded, pa.ChunkedArray):
         encoded = encoded.combine_chunks() if encoded.num_chunks else pa.array([], column.type)
     if not pa.types.is_dictionary(encoded.type):  # an empty column
-        return [], np.empty(0, dtype=np.int64)
+        return [], np.empty(0, dtype=np.int32)
     codes = encoded.indices.to_numpy(zero_copy_only=False)
-    return encoded.dictionary.to_pylist(), np.asarray(codes, dtype=np.int64)
+    return encoded.dictionary.to_pylist(), np.asarray(codes, dtype=np.int32)
 
 
 def _accepted(kind: pa.DataType) -> bool:
@@ -253,7 +253,7 @@ class _Places:
 def _texts(values: list[Any], text_of: Callable[[Any], str | None]) -> tuple[np.ndarray, list]:
     """Map distinct raw values to codes of their distinct texts (-1 for None)."""
     texts: dict[str, int] = {}
-    out = np.empty(len(values), dtype=np.int64)
+    out = np.empty(len(values), dtype=np.int32)
     for i, v in enumerate(values):
         t = text_of(v)
         out[i] = -1 if t is None else texts.setdefault(t, len(texts))
@@ -403,6 +403,7 @@ def apply_columns(
                 **place(row, 3),
             )
         alive[idx[dup]] = False
+    del idx, triple, dup
 
     # narrative texts, in row order
     for row in np.flatnonzero(alive & (kind == 2)):
@@ -422,6 +423,7 @@ def apply_columns(
     # factorised by hashing, in order of first appearance (the order of rows does not matter:
     # each distinct pair is normalised once, and problems are sorted by row below)
     inverse, pairs = _first_seen(pair, len(cb.variables) * n_raw)
+    del pair, raw_idx
     variables = cb.variables
     values: list[Any] = []
     missings: list[Any] = []

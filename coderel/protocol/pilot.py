@@ -70,8 +70,8 @@ def pilot_from_codings(codings: Codings) -> Pilot:
         sub = kept[kept["variable"] == var.name]
         values = list(sub["value"])
         units = sorted(set(sub["unit"]))
-        unit_ix = pd.Categorical(sub["unit"], categories=units).codes
-        coder_ix = pd.Categorical(sub["coder"], categories=coders).codes
+        unit_ix = pd.Index(units, dtype=object).get_indexer(sub["unit"].to_numpy(dtype=object))
+        coder_ix = pd.Index(coders, dtype=object).get_indexer(sub["coder"].to_numpy(dtype=object))
         if var.is_categorical and not var.multiple:
             domain: dict[object, int] = {code: i for i, code in enumerate(var.codes)}
             scale = Scale("categorical", var.level, len(domain))
