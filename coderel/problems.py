@@ -9,7 +9,7 @@ the unit, coder and variable concerned, a message and a hint. Problem codes are 
 from __future__ import annotations
 
 from collections.abc import Iterable, Iterator
-from dataclasses import asdict, dataclass, fields
+from dataclasses import dataclass, fields
 from typing import TYPE_CHECKING, Any, Literal
 
 if TYPE_CHECKING:
@@ -157,7 +157,8 @@ class Problem:
     variable: str | None = None
 
     def to_dict(self) -> dict[str, Any]:
-        return asdict(self)
+        # the fields are flat (text, numbers, None): no deep copy as dataclasses.asdict makes
+        return {name: getattr(self, name) for name in _PROBLEM_FIELDS}
 
     def where(self) -> str:
         """A short human-readable place: ``coder_a.xlsx!Sheet1!C14``, ``codebook.yaml:12`` or,
@@ -180,6 +181,7 @@ def make_problem(code: str, message: str, **place: Any) -> Problem:
 
 
 PROBLEM_COLUMNS = [f.name for f in fields(Problem)]
+_PROBLEM_FIELDS = tuple(PROBLEM_COLUMNS)
 
 
 class Problems:

@@ -358,9 +358,9 @@ def _joined(reader: SheetReader) -> pd.DataFrame:
 def missing_count(codings: Codings) -> dict[str, int]:
     """How many cells hold a missing code, per variable (only variables with any)."""
     counts: dict[str, int] = {}
-    for name, missing in zip(codings.frame["variable"], codings.frame["missing"], strict=True):
-        if missing is not None:
-            counts[name] = counts.get(name, 0) + 1
+    given = codings.frame["missing"].notna().to_numpy()
+    for name in codings.frame["variable"].to_numpy(dtype=object)[given]:
+        counts[name] = counts.get(name, 0) + 1
     return counts
 
 
