@@ -123,7 +123,7 @@ def test_cli_shows_the_what_if_beside_the_original(tmp_path):
     assert written.exit_code == 0, written.output
     import pandas as pd
 
-    sheet = pd.read_excel(out, sheet_name="collapse")
+    sheet = pd.read_excel(out, sheet_name="collapse", engine="openpyxl")
     assert list(sheet["variable"]) == ["behaviour"]
     bad = runner.invoke(app, [*args, "--collapse", "behaviour=4+8"])
     assert bad.exit_code == 2

@@ -121,7 +121,7 @@ def test_every_form_holds_the_same_missing_values(tmp_path, suffix):
     if suffix == ".csv":
         back = pd.read_csv(path)
     elif suffix == ".xlsx":
-        back = pd.read_excel(path, sheet_name="merged")
+        back = pd.read_excel(path, sheet_name="merged", engine="openpyxl")
     else:
         back = pd.read_parquet(path)
     back = back.set_index("report_id")

@@ -6,6 +6,7 @@ import math
 import os
 from collections.abc import Mapping, Sequence
 from dataclasses import replace
+from typing import Any
 
 from coderel.adjudicate.decisions import hint, parse_decision
 from coderel.adjudicate.model import (
@@ -19,7 +20,13 @@ from coderel.adjudicate.model import (
 )
 from coderel.adjudicate.read import read_adjudication
 from coderel.adjudicate.rules import Settling, settle
-from coderel.adjudicate.tokens import Token, cell_tokens, classify, display_token, unit_sort_key
+from coderel.adjudicate.tokens import (
+    Token,
+    cell_tokens,
+    classify,
+    shown_values,
+    unit_sort_key,
+)
 from coderel.codings import Codings
 from coderel.problems import Problems
 
@@ -57,18 +64,21 @@ def disagreements(
     cb = codings.codebook
     settling = settling or Settling()
     var_order = {name: i for i, name in enumerate(cb.names)}
+    variables = {name: cb.variable(name) for name in cb.names}
     rows = []
+    shown: dict[Any, str] = {}
     cells = tokens_by_cell if tokens_by_cell is not None else cell_tokens(codings)
     for (unit, name), tokens in cells.items():
         kind = classify(tokens)
         if kind is None:
             continue
-        var = cb.variable(name)
+        var = variables[name]
         if settle(var, tokens, settling) is not None:
             continue
-        values = {coder: display_token(var, tok) for coder, tok in tokens.items()}
+        values = shown_values(var, tokens, shown)
         rows.append(AdjudicationRow(unit=unit, variable=name, kind=kind, values=values))
-    rows.sort(key=lambda r: (unit_sort_key(r.unit), r.unit, var_order[r.variable]))
+    unit_keys = {u: unit_sort_key(u) for u in {r.unit for r in rows}}
+    rows.sort(key=lambda r: (unit_keys[r.unit], r.unit, var_order[r.variable]))
     return rows
 
 
@@ -156,8 +166,9 @@ def build_adjudication(
             )
         )
     var_order = {name: i for i, name in enumerate(codings.codebook.names)}
+    unit_keys = {u: unit_sort_key(u) for u in {r.unit for r in retired}}
     retired.sort(
-        key=lambda r: (unit_sort_key(r.unit), r.unit, var_order.get(r.variable, len(var_order)))
+        key=lambda r: (unit_keys[r.unit], r.unit, var_order.get(r.variable, len(var_order)))
     )
     adjudication = Adjudication(
         codebook=codings.codebook,

@@ -6,7 +6,7 @@ import csv
 import io
 import math
 import os
-from collections.abc import Collection, Iterable, Mapping
+from collections.abc import Collection, Iterable, Mapping, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
@@ -30,7 +30,6 @@ from coderel.io.archive import (
     DEFAULT_LIMITS,
     Limits,
     check_text,
-    check_workbook,
     raise_hint,
 )
 from coderel.io.atomic import sha256_file
@@ -41,6 +40,8 @@ from coderel.problems import Problems
 def _clean(value: Any) -> str | None:
     if value is None:
         return None
+    if type(value) is str and "'" not in value:  # the commonest cell: nothing to restore
+        return value if value.strip() else None
     if isinstance(value, float):
         if math.isnan(value):
             return None
@@ -118,53 +119,74 @@ def _read_tables(
         return lists
     if path.suffix.lower() != ".xlsx":
         raise InputRefused(f"{path.name!r}: an adjudication file is .xlsx or .csv")
-    from openpyxl import load_workbook
+    from coderel.io.xlsx_values import read_sheet_values
 
-    check_workbook(path, limits)
-    try:
-        wb = load_workbook(path, read_only=True, data_only=True)
-    except Exception as exc:
-        raise InputRefused(f"cannot open {path.name!r} as a workbook") from exc
-    out: dict[str, tuple[list[str], list[list[Any]], list[int]]] = {}
-    try:
-        for name in (MAIN_SHEET, RETIRED_SHEET, ABOUT_SHEET):
-            if name not in wb.sheetnames:
-                continue
-            ws = wb[name]
-            ws.reset_dimensions()  # rows as stored, not padded to a declared A1:XFD1048576
-            it = ws.iter_rows(values_only=True)
-            header = [_header(h) for h in next(it, ())]
-            rows, numbers = [], []
-            cells = 0
-            for n, values in enumerate(it, start=2):
-                if values is None or all(v is None for v in values):
-                    continue
-                cells += len(values)
-                if n > limits.max_rows or len(values) > limits.max_columns:
-                    raise InputRefused(
-                        f"{path.name!r}!{name} goes past row {limits.max_rows} or column "
-                        f"{limits.max_columns}; " + raise_hint("max_rows")
-                    )
-                if cells > limits.max_cells:
-                    raise InputRefused(
-                        f"{path.name!r}!{name} holds more than {limits.max_cells} cells; "
-                        + raise_hint("max_cells")
-                    )
-                rows.append(list(values))
-                numbers.append(n)
-            out[name] = (header, rows, numbers)
-    except InputRefused:
-        raise
-    except Exception as exc:  # openpyxl raises many types on damaged parts
-        raise InputRefused(f"cannot read {path.name!r} as a workbook") from exc
-    finally:
-        wb.close()
+    names = (MAIN_SHEET, RETIRED_SHEET, ABOUT_SHEET)
+    grids = read_sheet_values(path, names, limits)  # pre-flight included
+    if grids is None:  # cells the fast reader leaves to openpyxl's streaming one
+        out = _stream_tables(path, names, limits)
+    else:
+        out = {name: _sheet_table(path, name, rows, limits) for name, rows in grids.items()}
     if MAIN_SHEET not in out:
         raise InputRefused(
             f"{path.name!r} has no sheet {MAIN_SHEET!r}: not an adjudication list (if it is one, "
             f"name its main sheet {MAIN_SHEET!r} again; nothing was written)"
         )
     return out
+
+
+def _stream_tables(
+    path: Path, names: Iterable[str], limits: Limits
+) -> dict[str, tuple[list[str], list[list[Any]], list[int]]]:
+    """The named sheets as openpyxl streams them in read-only mode, each within the limits."""
+    from openpyxl import load_workbook
+
+    try:
+        wb = load_workbook(path, read_only=True, data_only=True)
+    except Exception as exc:
+        raise InputRefused(f"cannot open {path.name!r} as a workbook") from exc
+    out = {}
+    try:
+        for name in names:
+            if name not in wb.sheetnames:
+                continue
+            ws = wb[name]
+            ws.reset_dimensions()  # rows as stored, not padded to a declared A1:XFD1048576
+            out[name] = _sheet_table(path, name, ws.iter_rows(values_only=True), limits)
+    except InputRefused:
+        raise
+    except Exception as exc:  # openpyxl raises many types on damaged parts
+        raise InputRefused(f"cannot read {path.name!r} as a workbook") from exc
+    finally:
+        wb.close()
+    return out
+
+
+def _sheet_table(
+    path: Path, name: str, grid: Iterable[Sequence[Any]], limits: Limits
+) -> tuple[list[str], list[list[Any]], list[int]]:
+    """A sheet's header, its non-empty rows and their spreadsheet row numbers, within limits."""
+    it = iter(grid)
+    header = [_header(h) for h in next(it, ())]
+    rows, numbers = [], []
+    cells = 0
+    for n, values in enumerate(it, start=2):
+        if values is None or all(v is None for v in values):
+            continue
+        cells += len(values)
+        if n > limits.max_rows or len(values) > limits.max_columns:
+            raise InputRefused(
+                f"{path.name!r}!{name} goes past row {limits.max_rows} or column "
+                f"{limits.max_columns}; " + raise_hint("max_rows")
+            )
+        if cells > limits.max_cells:
+            raise InputRefused(
+                f"{path.name!r}!{name} holds more than {limits.max_cells} cells; "
+                + raise_hint("max_cells")
+            )
+        rows.append(list(values))
+        numbers.append(n)
+    return header, rows, numbers
 
 
 @dataclass(frozen=True)

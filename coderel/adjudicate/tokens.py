@@ -60,22 +60,27 @@ def cell_tokens(codings: Codings) -> dict[tuple[str, str], dict[str, Token]]:
     f = codings.frame
     cb = codings.codebook
     cells: dict[tuple[str, str], dict[str, Token]] = {}
-    for unit, coder, var, value, missing, applies in zip(
-        f["unit"], f["coder"], f["variable"], f["value"], f["missing"], f["applies"], strict=True
-    ):
-        if var not in cb:
+    # Whole columns as Python lists: iterating pandas (arrow-backed) columns costs more than the
+    # tokens themselves.
+    columns = (f[c].tolist() for c in ("unit", "coder", "variable", "value", "missing", "applies"))
+    variables = {name: cb.variable(name) for name in cb.names}
+    for unit, coder, var, value, missing, applies in zip(*columns, strict=True):
+        variable = variables.get(var)
+        if variable is None:
             continue
-        token = token_of(value, missing, applies)
+        if applies is True and missing is None and (value is None or type(value) is int):
+            token = BLANK_TOKEN if value is None else ("value", value)  # token_of's commonest
+        else:
+            token = token_of(value, missing, applies)
         if token[0] == "missing":
-            token = (
-                "missing",
-                _as_code(cb.variable(var), token[1], cb.variable(var).missing_codes),
-            )
-        elif token[0] == "value" and isinstance(token[1], float):
-            variable = cb.variable(var)
-            if variable.is_categorical:
-                token = ("value", _as_code(variable, token[1], variable.codes))
-        cells.setdefault((unit, var), {})[coder] = token
+            token = ("missing", _as_code(variable, token[1], variable.missing_codes))
+        elif token[0] == "value" and isinstance(token[1], float) and variable.is_categorical:
+            token = ("value", _as_code(variable, token[1], variable.codes))
+        cell = cells.get((unit, var))
+        if cell is None:
+            cells[(unit, var)] = {coder: token}
+        else:
+            cell[coder] = token
     return cells
 
 
@@ -111,6 +116,27 @@ def display_token(var: Variable, token: Token) -> str:
     if var.is_numeric:
         return format_number(var, value)
     return var.display(value)
+
+
+def shown_values(
+    var: Variable, tokens: Mapping[str, Token], cache: dict[Any, str] | None = None
+) -> dict[str, str]:
+    """Each coder's token as :func:`display_token` shows it; ``cache`` (one dict shared over
+    many cells) keeps what was shown per variable and token, so each is formatted once."""
+    if cache is None:
+        return {coder: display_token(var, tok) for coder, tok in tokens.items()}
+    out = {}
+    for coder, tok in tokens.items():
+        value = tok[1]
+        # the type is part of the key: 1 and 1.0 are equal but may be shown differently
+        key = (var.name, tok[0], type(value), value) if not isinstance(value, tuple) else None
+        shown = cache.get(key) if key is not None else None
+        if shown is None:
+            shown = display_token(var, tok)
+            if key is not None:
+                cache[key] = shown
+        out[coder] = shown
+    return out
 
 
 def classify(tokens: Mapping[str, Token]) -> Kind | None:

@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 import os
-from copy import copy
+from typing import Any
 
 import pandas as pd
 
@@ -68,118 +68,201 @@ def write_adjudication(adjudication: Adjudication, path: str | os.PathLike[str])
 
 
 def _write_workbook(adj: Adjudication, path: str | os.PathLike[str]) -> None:
-    from openpyxl import Workbook
-    from openpyxl.cell import WriteOnlyCell
-    from openpyxl.styles import Alignment, Font, PatternFill, Protection
-    from openpyxl.worksheet.cell_range import MultiCellRange
-    from openpyxl.worksheet.datavalidation import DataValidation
+    """The list as a workbook, written with XlsxWriter in its constant-memory mode.
 
-    from coderel.io.tables import cell_value, fill_sheet, save_workbook
+    XlsxWriter streams each row to disk as it is written (a 20,000-unit list is ~650,000 cells),
+    so rows go in order, sheet by sheet. Every text cell is written as text (never read as a
+    number, formula or link) after :func:`coderel.io.tables.cell_value` neutralised it. The zip
+    members carry XlsxWriter's fixed 1980 time stamp and the properties a fixed date, so the same
+    list gives the same bytes.
+    """
+    from xlsxwriter import Workbook
+
+    from coderel.io.atomic import atomic_path
+    from coderel.io.tables import FIXED_TIME
 
     cb = adj.codebook
-    wb = Workbook()
-    ws = wb.active
-    ws.title = MAIN_SHEET
     headers = main_columns(adj.coders, adj.text_columns, adj.extra_columns)
-    ws.append([cell_value(h) for h in headers])  # a coder named =HYPERLINK(...) stays text
-    for cell in ws[1]:
-        cell.font = Font(bold=True)
-    mine = ("decision", "note", "adjudicator", "check", *adj.extra_columns)
-    editable = {headers.index(n) + 1 for n in mine}
-    text_idx = {headers.index(c) + 1 for c in adj.text_columns}
-    fill = PatternFill("solid", start_color=_GROUP_FILL, end_color=_GROUP_FILL)
-    check_fill = PatternFill("solid", start_color=_CHECK_FILL, end_color=_CHECK_FILL)
-    check_col, decision_col = headers.index("check") + 1, headers.index("decision") + 1
-    shade, last_unit = False, None
     ranges: dict[str, list[str]] = {}
     dcol = column_letter(headers.index("decision") + 1)
-    # A cell's style depends on its column, the row's shade and its check mark: each of these few
-    # styles is made once on a model cell and copied (styling every cell anew costs more than
-    # writing it).
-    styles: dict[tuple[int, bool, bool], object] = {}
+    for i, row in enumerate(adj.rows, start=2):
+        ranges.setdefault(row.variable, []).append(f"{dcol}{i}")
+    with atomic_path(path) as tmp:
+        wb = Workbook(
+            str(tmp),
+            {
+                "constant_memory": True,
+                "strings_to_numbers": False,
+                "strings_to_formulas": False,
+                "strings_to_urls": False,
+            },
+        )
+        wb.set_properties({"created": FIXED_TIME, "author": "coderel"})
+        bold = wb.add_format({"bold": True})
+        ws = wb.add_worksheet(MAIN_SHEET)
+        lists = wb.add_worksheet(LISTS_SHEET)
+        _main_sheet(wb, ws, adj, headers, bold)
+        _lists_sheet(wb, ws, lists, cb, ranges)
+        _protect(ws)
+        _frame_sheet(wb, wb.add_worksheet(SUMMARY_SHEET), adj.summary(), bold, width=30)
+        rcoders = retired_coders(adj)
+        rcols = retired_columns(rcoders, adj.extra_columns)
+        frame = pd.DataFrame([row_record(r, rcoders) for r in adj.retired], columns=rcols)
+        _frame_sheet(wb, wb.add_worksheet(RETIRED_SHEET), frame, bold, width=40)
+        _frame_sheet(wb, wb.add_worksheet(ABOUT_SHEET), _about(adj), bold, width=80)
+        wb.close()
 
-    def style(j: int, shaded: bool, marked: bool) -> object:
-        key = (j, shaded, marked and j in (check_col, decision_col))
+
+class _CellValues:
+    """:func:`coderel.io.tables.cell_value`, each distinct text worked out once (a list repeats
+    a few shown values over thousands of rows)."""
+
+    def __init__(self) -> None:
+        from coderel.io.tables import cell_value
+
+        self._cell_value = cell_value
+        self._texts: dict[str, Any] = {}
+
+    def __call__(self, value: Any) -> Any:
+        if type(value) is not str:
+            return self._cell_value(value)
+        out = self._texts.get(value)
+        if out is None:
+            out = self._texts[value] = self._cell_value(value)
+        return out
+
+
+def _write_cell(ws: Any, i: int, j: int, value: Any, style: Any = None) -> None:
+    """One cell, 0-based: a number as a number, anything else as text (already neutralised)."""
+    if value is None or value == "":
+        if style is not None:
+            ws.write_blank(i, j, None, style)
+    elif isinstance(value, bool):
+        ws.write_boolean(i, j, value, style)
+    elif isinstance(value, int | float):
+        ws.write_number(i, j, value, style)
+    else:
+        if "\r" in value:
+            # what an XML parser makes of a carriage return that openpyxl wrote as it is;
+            # XlsxWriter would keep it as the escape _x000D_, which openpyxl reads literally
+            value = value.replace("\r\n", "\n").replace("\r", "\n")
+        ws.write_string(i, j, value, style)
+
+
+def _main_sheet(wb: Any, ws: Any, adj: Adjudication, headers: list[str], bold: Any) -> None:
+    """The rows to decide: the adjudicator's columns unlocked, rows shaded by unit, decisions
+    waiting to be re-confirmed marked, text columns wrapped."""
+    from coderel.io.tables import cell_value
+
+    for j, h in enumerate(headers):
+        _write_cell(ws, 0, j, cell_value(h), bold)  # a coder named =HYPERLINK(...) stays text
+    mine = ("decision", "note", "adjudicator", "check", *adj.extra_columns)
+    editable = {headers.index(n) for n in mine}
+    text_idx = {headers.index(c) for c in adj.text_columns}
+    marked_cols = {headers.index("check"), headers.index("decision")}
+    # A cell's style depends on its column, the row's shade and its check mark: each of these
+    # few combinations is one format, made once.
+    styles: dict[tuple[int, bool, bool], Any] = {}
+
+    def style(j: int, shaded: bool, marked: bool) -> Any:
+        key = (j, shaded, marked and j in marked_cols)
         if key not in styles:
-            model = WriteOnlyCell(ws)
+            props: dict[str, Any] = {}
             if j in editable:
-                model.protection = Protection(locked=False)
+                props["locked"] = False
             if j in text_idx:
-                model.alignment = Alignment(wrap_text=True, vertical="top")
+                props.update(text_wrap=True, valign="top")
             if shaded:
-                model.fill = fill
+                props.update(pattern=1, bg_color=f"#{_GROUP_FILL}")
             if key[2]:
-                model.fill = check_fill
-            styles[key] = model._style
+                props.update(pattern=1, bg_color=f"#{_CHECK_FILL}")
+            styles[key] = wb.add_format(props) if props else None
         return styles[key]
 
-    for i, row in enumerate(adj.rows, start=2):
+    row_styles = {
+        (shaded, marked): [style(j, shaded, marked) for j in range(len(headers))]
+        for shaded in (False, True)
+        for marked in (False, True)
+    }
+    shown = _CellValues()
+    shade, last_unit = False, None
+    for i, row in enumerate(adj.rows, start=1):
         texts = {c: adj.narratives.get(row.unit, {}).get(c, "") for c in adj.text_columns}
         record = row_record(row, adj.coders, texts)
-        ws.append([cell_value(record.get(h)) for h in headers])
         if row.unit != last_unit:
             shade, last_unit = (not shade), row.unit
-        for j in range(1, len(headers) + 1):
-            cell = ws.cell(row=i, column=j)  # not ws[i]: it scans every cell of the sheet
-            cell._style = copy(style(j, shade, row.to_check))
-        ranges.setdefault(row.variable, []).append(f"{dcol}{i}")
+        styles_now = row_styles[(shade, row.to_check)]
+        for j, h in enumerate(headers):
+            _write_cell(ws, i, j, shown(record.get(h)), styles_now[j])
     widths = {"unit": 12, "variable": 20, "kind": 14, "decision": 30, "note": 30}
     widths.update({"adjudicator": 16, "check": 40, "key": 24})
-    for j, h in enumerate(headers, start=1):
-        default = 60 if j in text_idx else 26
-        ws.column_dimensions[column_letter(j)].width = widths.get(h, default)
-    ws.column_dimensions[column_letter(headers.index("key") + 1)].hidden = True
-    ws.freeze_panes = "D2"
+    key_col = headers.index("key")
+    for j, h in enumerate(headers):
+        width = widths.get(h, 60 if j in text_idx else 26)
+        ws.set_column(j, j, width, None, {"hidden": True} if j == key_col else None)
+    ws.freeze_panes(1, 3)
     if adj.rows:
-        ws.auto_filter.ref = f"A1:{column_letter(len(headers))}{len(adj.rows) + 1}"
+        ws.autofilter(0, 0, len(adj.rows), len(headers) - 1)
 
-    # dropdown lists live on a hidden sheet (a literal list is limited to 255 characters)
-    lists = wb.create_sheet(LISTS_SHEET)
-    list_col = 0
+
+def _lists_sheet(wb: Any, ws: Any, lists: Any, cb: Any, ranges: dict[str, list[str]]) -> None:
+    """Dropdowns of the decision cells; their entries live on a hidden sheet (a literal list is
+    limited to 255 characters)."""
+    from coderel.io.tables import cell_value
+
+    columns: list[list[Any]] = []
     for var in cb.variables:
         if var.name not in ranges:
             continue
+        cells = " ".join(ranges[var.name])
+        first = ranges[var.name][0]
+        options: dict[str, Any] = {
+            "input_title": var.name[:32],
+            "input_message": _input_message(var),
+            "show_input": True,
+            "ignore_blank": True,
+            "multi_range": cells,
+        }
         if var.is_categorical and not var.multiple:
-            list_col += 1
-            letter = column_letter(list_col)
-            lists.cell(row=1, column=list_col, value=cell_value(var.name))
             entries = _choices(var)
-            for r, entry in enumerate(entries, start=2):
-                lists.cell(row=r, column=list_col, value=cell_value(entry))
-            dv = DataValidation(
-                type="list",
-                formula1=f"'{LISTS_SHEET}'!${letter}$2:${letter}${len(entries) + 1}",
-                allow_blank=True,
-                errorStyle="warning",
-                showErrorMessage=True,
-                error=_input_message(var),
-                errorTitle="not a code of this variable",
+            columns.append([cell_value(var.name), *(cell_value(e) for e in entries)])
+            letter = column_letter(len(columns))
+            options.update(
+                validate="list",
+                source=f"='{LISTS_SHEET}'!${letter}$2:${letter}${len(entries) + 1}",
+                error_type="warning",
+                show_error=True,
+                error_message=_input_message(var),
+                error_title="not a code of this variable",
             )
         else:
-            dv = DataValidation(type=None, allow_blank=True)
-        dv.promptTitle = var.name[:32]
-        dv.prompt = _input_message(var)
-        dv.showInputMessage = True
-        dv.sqref = MultiCellRange(" ".join(ranges[var.name]))  # dv.add: a scan per cell
-        ws.add_data_validation(dv)
-    lists.sheet_state = "hidden"
+            options.update(validate="any", show_error=False)
+        ws.data_validation(first, options)
+    for i in range(max((len(c) for c in columns), default=0)):
+        for j, column in enumerate(columns):
+            if i < len(column):
+                _write_cell(lists, i, j, column[i])
+    lists.hide()
 
-    ws.protection.sheet = True
-    ws.protection.autoFilter = False
-    ws.protection.sort = False
-    ws.protection.formatColumns = False
-    ws.protection.formatRows = False
 
-    summary = adj.summary()
-    fill_sheet(wb.create_sheet(SUMMARY_SHEET), summary, width=30)
+def _protect(ws: Any) -> None:
+    """Lock the sheet but for the unlocked cells; filtering, sorting and resizing stay free."""
+    ws.protect(
+        "",
+        {
+            "objects": True,
+            "scenarios": True,
+            "format_columns": True,
+            "format_rows": True,
+            "sort": True,
+            "autofilter": True,
+        },
+    )
 
-    retired_ws = wb.create_sheet(RETIRED_SHEET)
-    rcoders = retired_coders(adj)
-    rcols = retired_columns(rcoders, adj.extra_columns)
-    frame = pd.DataFrame([row_record(r, rcoders) for r in adj.retired], columns=rcols)
-    fill_sheet(retired_ws, frame, width=40)
 
-    about = pd.DataFrame(
+def _about(adj: Adjudication) -> pd.DataFrame:
+    cb = adj.codebook
+    return pd.DataFrame(
         [
             ("codebook", cb.title),
             ("codebook version", cb.version),
@@ -194,5 +277,24 @@ def _write_workbook(adj: Adjudication, path: str | os.PathLike[str]) -> None:
         ],
         columns=["item", "value"],
     )
-    fill_sheet(wb.create_sheet(ABOUT_SHEET), about, width=80)
-    save_workbook(wb, path)
+
+
+def _frame_sheet(wb: Any, ws: Any, frame: pd.DataFrame, bold: Any, *, width: int) -> None:
+    """A table on its own sheet as :func:`coderel.io.tables.fill_sheet` lays it out: bold header
+    frozen, neutralised cells, each column as wide as its first 200 values (at most ``width``),
+    a column with longer text wrapped."""
+    from coderel.io.tables import cell_value
+
+    wrap = wb.add_format({"text_wrap": True, "valign": "top"})
+    wrapped = set()
+    for j, col in enumerate(frame.columns):
+        _write_cell(ws, 0, j, cell_value(str(col)), bold)
+        sample = [len(str(v)) for v in frame[col].head(200) if v is not None]
+        longest = max([len(str(col)), *sample])
+        if longest > width:
+            wrapped.add(j)
+        ws.set_column(j, j, min(max(8, longest + 2), width))
+    for i, row in enumerate(frame.itertuples(index=False, name=None), start=1):
+        for j, v in enumerate(row):
+            _write_cell(ws, i, j, cell_value(v), wrap if j in wrapped else None)
+    ws.freeze_panes(1, 0)

@@ -16,8 +16,8 @@ from coderel.adjudicate import (
     Decisions,
     Token,
     cell_tokens,
-    display_token,
     read_decisions,
+    shown_values,
     sorted_units,
 )
 from coderel.adjudicate.rules import Rule, Settling
@@ -190,6 +190,7 @@ def merge(
     if decisions is not None:
         problems.extend(decisions.problems)
     tokens_by_cell = cell_tokens(codings)
+    shown_cache: dict[Any, str] = {}  # each variable's tokens as shown, formatted once
     units = sorted_units(codings.units)
     unit_set = set(units)
     usable: dict[tuple[str, str], Decision] = {}
@@ -205,7 +206,7 @@ def merge(
             continue
         tokens = tokens_by_cell.get((unit, name), {})
         var = cb.variable(name)
-        shown = {c: display_token(var, t) for c, t in tokens.items()}
+        shown = shown_values(var, tokens, shown_cache)
         reason = stale_reason(decision, tokens, shown, unit in unit_set)
         if reason is None:
             usable[(unit, name)] = decision
@@ -255,7 +256,7 @@ def merge(
                     AdjudicatedCell(
                         unit=unit,
                         variable=var.name,
-                        values={c: display_token(var, t) for c, t in tokens.items()},
+                        values=shown_values(var, tokens, shown_cache),
                         decision=decision.text,
                         value=values[-1] if missing[-1] is None else missing[-1],
                         adjudicator=decision.adjudicator,
@@ -275,7 +276,7 @@ def merge(
             if statuses_by_var[var.name][i] == "unresolved":
                 unresolved.append((unit, var.name))
                 tokens = tokens_by_cell.get((unit, var.name), {})
-                unresolved_values.append({c: display_token(var, t) for c, t in tokens.items()})
+                unresolved_values.append(shown_values(var, tokens, shown_cache))
     check_skip_logic(cb, units, tokens_by_var, statuses_by_var, problems)
     frame = pd.DataFrame(data, columns=columns)
     return MergeResult(
