@@ -124,6 +124,8 @@ class _CellValues:
         self._texts: dict[str, Any] = {}
 
     def __call__(self, value: Any) -> Any:
+        if value is None:
+            return None
         if type(value) is not str:
             return self._cell_value(value)
         out = self._texts.get(value)
@@ -185,6 +187,7 @@ def _main_sheet(wb: Any, ws: Any, adj: Adjudication, headers: list[str], bold: A
         for marked in (False, True)
     }
     shown = _CellValues()
+    write_string = ws.write_string
     shade, last_unit = False, None
     for i, row in enumerate(adj.rows, start=1):
         texts = {c: adj.narratives.get(row.unit, {}).get(c, "") for c in adj.text_columns}
@@ -193,7 +196,11 @@ def _main_sheet(wb: Any, ws: Any, adj: Adjudication, headers: list[str], bold: A
             shade, last_unit = (not shade), row.unit
         styles_now = row_styles[(shade, row.to_check)]
         for j, h in enumerate(headers):
-            _write_cell(ws, i, j, shown(record.get(h)), styles_now[j])
+            value = shown(record.get(h))
+            if type(value) is str and value and "\r" not in value:
+                write_string(i, j, value, styles_now[j])  # the commonest cell, at once
+            else:
+                _write_cell(ws, i, j, value, styles_now[j])
     widths = {"unit": 12, "variable": 20, "kind": 14, "decision": 30, "note": 30}
     widths.update({"adjudicator": 16, "check": 40, "key": 24})
     key_col = headers.index("key")

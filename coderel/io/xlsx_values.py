@@ -38,8 +38,10 @@ _CELL = re.compile(rb"<(?:[\w.-]+:)?c[\s/>]")
 _CELL_WITH_REF = re.compile(rb"<(?:[\w.-]+:)?c\s[^<>]*?r\s*=")
 _ROW = re.compile(rb"<(?:[\w.-]+:)?row[\s/>]")
 _ROW_WITH_REF = re.compile(rb"<(?:[\w.-]+:)?row\s[^<>]*?r\s*=")
-#: A cell or row element with a namespace prefix (``<x:c ...>``): counted by the regexes above.
-_PREFIXED = re.compile(rb"<[\w.-]+:(?:c|row)[\s/>]")
+#: What the byte counts of :func:`_all_referenced` do not see: a cell or row element with a
+#: namespace prefix (``<x:c ...>``), after another white space than a blank, without attributes,
+#: or with its ``r`` in single quotes.
+_UNUSUAL = re.compile(rb"<[\w.-]+:(?:c|row)[\s/>]|<(?:c|row)[\t\n\r/>]|<(?:c|row) r='")
 #: An error cell (``t="e"``).
 _ERROR_CELL = re.compile(rb"t\s*=\s*[\"']e[\"']")
 #: Whole numbers beyond this are kept as floats (a float holds every integer up to 2**53).
@@ -53,18 +55,12 @@ def _column_number(letters: bytes) -> int:
     return n
 
 
-def _count(data: bytes, tag: bytes) -> tuple[int, int]:
-    """Elements ``tag`` (no prefix), and those whose first attribute is ``r`` (as spreadsheet
-    programs, openpyxl and XlsxWriter write them)."""
-    total = sum(data.count(b"<" + tag + end) for end in (b" ", b"\t", b"\n", b"\r", b">", b"/"))
-    return total, data.count(b"<" + tag + b' r="') + data.count(b"<" + tag + b" r='")
-
-
 def _all_referenced(data: bytes) -> bool:
     """Does every cell and row element of the part carry an ``r`` attribute?"""
-    cells, rows = _count(data, b"c"), _count(data, b"row")
-    if cells[0] == cells[1] and rows[0] == rows[1] and not _PREFIXED.search(data):
-        return True  # the usual case, told by counting bytes
+    if not _UNUSUAL.search(data):  # the usual part, told by counting bytes
+        return data.count(b"<c ") == data.count(b'<c r="') and data.count(b"<row ") == data.count(
+            b'<row r="'
+        )
     return len(_CELL.findall(data)) == len(_CELL_WITH_REF.findall(data)) and len(
         _ROW.findall(data)
     ) == len(_ROW_WITH_REF.findall(data))
@@ -84,12 +80,11 @@ def _scan(path: Path, limits: Limits) -> bool:
             references = _REFERENCE.findall(data)
             if not references:
                 continue
-            letters = {ref[0] for ref in references}
-            longest = max(len(ref[1]) for ref in references)
-            if max(map(len, letters)) > 3 or longest > 9:
+            letters, digits = {ref[0] for ref in references}, {ref[1] for ref in references}
+            if max(map(len, letters)) > 3 or max(map(len, digits)) > 9:
                 rows, columns = limits.max_rows + 1, limits.max_columns + 1
-            else:  # the largest number among the longest digit strings
-                rows = max(int(ref[1]) for ref in references if len(ref[1]) == longest)
+            else:
+                rows = max(map(int, digits))
                 columns = max(_column_number(c) for c in letters)
             if rows > limits.max_rows or columns > limits.max_columns:
                 raise InputRefused(
@@ -142,7 +137,10 @@ def read_sheet_values(
                 if name not in wb.sheet_names:
                     continue
                 grid = wb.get_sheet_by_name(name).to_python(skip_empty_area=False)
-                out[name] = [[_value(v) for v in row] for row in grid]
+                # text as it is (the commonest cell); the rest as openpyxl gives it
+                out[name] = [
+                    [v if v.__class__ is str and v else _value(v) for v in row] for row in grid
+                ]
         finally:
             wb.close()
     except Exception as exc:  # calamine raises its own types on damaged parts
