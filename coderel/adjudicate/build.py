@@ -73,7 +73,9 @@ def disagreements(
         if kind is None:
             continue
         var = variables[name]
-        if settle(var, tokens, settling) is not None:
+        # only a majority rule or a tolerance settles a cell whose coders disagree
+        may_settle = settling.rule != "unanimous" or name in settling.tolerance
+        if may_settle and settle(var, tokens, settling) is not None:
             continue
         values = shown_values(var, tokens, shown)
         rows.append(AdjudicationRow(unit=unit, variable=name, kind=kind, values=values))
@@ -144,7 +146,7 @@ def build_adjudication(
             added += 1
         rows.append(row)
     now_keys = {r.key for r in rows}
-    units_now = set(codings.units)
+    units_now = set(codings.frame["unit"].tolist())  # codings.units, without its sorting
     retired: list[AdjudicationRow] = [r for k, r in old_retired.items() if k not in now_keys]
     moved = 0
     for key, old in old_rows.items():

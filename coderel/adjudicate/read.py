@@ -361,29 +361,31 @@ def _rows_from(
     if "unit" not in header or "variable" not in header:
         return []
     first = {h: i for i, h in reversed(list(enumerate(header))) if h}
-
-    def get(row: list[Any], name: str) -> str | None:
-        i = first.get(name)
-        return _clean(row[i]) if i is not None and i < len(row) else None
+    at = {n: first.get(n, -1) for n in ("unit", "variable", "kind", "decision", "note")}
+    at.update({n: first.get(n, -1) for n in ("adjudicator", "reason", "check")})
+    clean = _clean
 
     out = []
     for row in body:
-        unit, variable = get(row, "unit"), get(row, "variable")
+        # -1: a column the sheet lacks; a row shorter than the header lacks its last cells
+        n = len(row)
+        cells = {name: clean(row[i]) if -1 < i < n else None for name, i in at.items()}
+        unit, variable = cells["unit"], cells["variable"]
         if unit is None or variable is None:
             continue
-        values = {c: (_clean(row[i]) or "") for i, c in columns.coders if i < len(row)}
-        extra = {h: t for i, h in columns.extra if i < len(row) and (t := _clean(row[i]))}
+        values = {c: (clean(row[i]) or "") for i, c in columns.coders if i < n}
+        extra = {h: t for i, h in columns.extra if i < n and (t := clean(row[i]))}
         out.append(
             AdjudicationRow(
                 unit=unit,
                 variable=variable,
-                kind=get(row, "kind") or "",
+                kind=cells["kind"] or "",
                 values=values,
-                decision=get(row, "decision"),
-                note=get(row, "note"),
-                adjudicator=get(row, "adjudicator"),
-                reason=get(row, "reason"),
-                check=get(row, "check"),
+                decision=cells["decision"],
+                note=cells["note"],
+                adjudicator=cells["adjudicator"],
+                reason=cells["reason"],
+                check=cells["check"],
                 extra=extra,
             )
         )

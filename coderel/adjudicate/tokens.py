@@ -55,32 +55,68 @@ def _as_code(var: Variable, code: Any, known_codes: Sequence[Any]) -> Any:
     return code
 
 
+def _token(variable: Variable, value: Any, missing: Any, applies: Any) -> Token:
+    """:func:`token_of`, with codes as the codebook writes them (``999.0`` read from a float
+    column -> ``999``); the commonest entries (a whole number, a blank) without its checks."""
+    if applies is True and missing is None:
+        kind = type(value)
+        if kind is int:
+            return ("value", value)
+        if value is None:
+            return BLANK_TOKEN
+        if kind is float and value == value:  # a number, not NaN
+            if variable.is_categorical:
+                return ("value", _as_code(variable, value, variable.codes))
+            return ("value", value)
+    token = token_of(value, missing, applies)
+    if token[0] == "missing":
+        return ("missing", _as_code(variable, token[1], variable.missing_codes))
+    if token[0] == "value" and isinstance(token[1], float) and variable.is_categorical:
+        return ("value", _as_code(variable, token[1], variable.codes))
+    return token
+
+
 def cell_tokens(codings: Codings) -> dict[tuple[str, str], dict[str, Token]]:
-    """Every cell's tokens per coder, for coders who have a row for that unit and variable."""
+    """Every cell's tokens per coder, for coders who have a row for that unit and variable.
+
+    Cells come in the order of their first row, each cell's coders in the order of their rows (a
+    coder's later row for the same cell replaces the earlier token).
+    """
+    import numpy as np
+
     f = codings.frame
     cb = codings.codebook
-    cells: dict[tuple[str, str], dict[str, Token]] = {}
+    if f.empty:
+        return {}
     # Whole columns as Python lists: iterating pandas (arrow-backed) columns costs more than the
-    # tokens themselves.
-    columns = (f[c].tolist() for c in ("unit", "coder", "variable", "value", "missing", "applies"))
+    # tokens themselves. Rows are grouped by cell with numpy, then each cell's dict made at once.
+    units, coders, names = (f[c].tolist() for c in ("unit", "coder", "variable"))
     variables = {name: cb.variable(name) for name in cb.names}
-    for unit, coder, var, value, missing, applies in zip(*columns, strict=True):
-        variable = variables.get(var)
-        if variable is None:
-            continue
-        if applies is True and missing is None and (value is None or type(value) is int):
-            token = BLANK_TOKEN if value is None else ("value", value)  # token_of's commonest
-        else:
-            token = token_of(value, missing, applies)
-        if token[0] == "missing":
-            token = ("missing", _as_code(variable, token[1], variable.missing_codes))
-        elif token[0] == "value" and isinstance(token[1], float) and variable.is_categorical:
-            token = ("value", _as_code(variable, token[1], variable.codes))
-        cell = cells.get((unit, var))
-        if cell is None:
-            cells[(unit, var)] = {coder: token}
-        else:
-            cell[coder] = token
+    tokens = [
+        None if variable is None else _token(variable, value, missing, applies)
+        for variable, value, missing, applies in zip(
+            map(variables.get, names),
+            f["value"].tolist(),
+            f["missing"].tolist(),
+            f["applies"].tolist(),
+            strict=True,
+        )
+    ]
+    unit_codes, _ = pd.factorize(f["unit"], use_na_sentinel=False)
+    name_codes, name_ids = pd.factorize(f["variable"], use_na_sentinel=False)
+    cell = unit_codes.astype(np.int64) * max(len(name_ids), 1) + name_codes
+    order = np.argsort(cell, kind="stable")
+    ordered = cell[order]
+    starts = np.flatnonzero(np.r_[True, ordered[1:] != ordered[:-1]])
+    ends = np.r_[starts[1:], len(order)].tolist()
+    rows = order.tolist()
+    cells: dict[tuple[str, str], dict[str, Token]] = {}
+    for g in np.argsort(order[starts], kind="stable").tolist():  # cells by their first row
+        group = rows[starts[g] : ends[g]]
+        first = group[0]
+        if tokens[first] is None:
+            continue  # a variable the codebook lacks
+        cells[(units[first], names[first])] = {coders[i]: tokens[i] for i in group}
     return cells
 
 

@@ -191,7 +191,7 @@ def merge(
         problems.extend(decisions.problems)
     tokens_by_cell = cell_tokens(codings)
     shown_cache: dict[Any, str] = {}  # each variable's tokens as shown, formatted once
-    units = sorted_units(codings.units)
+    units = sorted_units(codings.frame["unit"].tolist())  # codings.units, sorted once
     unit_set = set(units)
     usable: dict[tuple[str, str], Decision] = {}
     stale: list[dict[str, Any]] = []
