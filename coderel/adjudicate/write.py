@@ -188,15 +188,35 @@ def _main_sheet(wb: Any, ws: Any, adj: Adjudication, headers: list[str], bold: A
     }
     shown = _CellValues()
     write_string = ws.write_string
+    # Each header names one field of the row (no two alike, no added column named like one of
+    # row_record's own): the row's cells in header order, without a record per row.
+    by_position = len(set(headers)) == len(headers) and "reason" not in adj.extra_columns
+    no_texts: dict[str, str] = {}
     shade, last_unit = False, None
     for i, row in enumerate(adj.rows, start=1):
-        texts = {c: adj.narratives.get(row.unit, {}).get(c, "") for c in adj.text_columns}
-        record = row_record(row, adj.coders, texts)
+        texts = adj.narratives.get(row.unit, no_texts) if adj.text_columns else no_texts
+        if by_position:
+            cells = [
+                row.unit,
+                row.variable,
+                row.kind,
+                *[row.values.get(c, "") for c in adj.coders],
+                *[texts.get(c, "") for c in adj.text_columns],
+                row.decision,
+                row.note,
+                row.adjudicator,
+                row.check,
+                row.key,
+                *[row.extra.get(c) for c in adj.extra_columns],
+            ]
+        else:
+            record = row_record(row, adj.coders, {c: texts.get(c, "") for c in adj.text_columns})
+            cells = [record.get(h) for h in headers]
         if row.unit != last_unit:
             shade, last_unit = (not shade), row.unit
         styles_now = row_styles[(shade, row.to_check)]
-        for j, h in enumerate(headers):
-            value = shown(record.get(h))
+        for j, cell in enumerate(cells):
+            value = shown(cell)
             if type(value) is str and value and "\r" not in value:
                 write_string(i, j, value, styles_now[j])  # the commonest cell, at once
             else:
