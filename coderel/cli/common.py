@@ -71,8 +71,8 @@ MemoryOption = Annotated[
     str | None,
     typer.Option(
         "--memory",
-        help="Memory for the bootstrap's blocks of units, e.g. 2GB or 512MB (default: an eighth "
-        "of the machine's memory, between 256MB and 1GB).",
+        help="Memory for the bootstrap's blocks of units, e.g. 2GB or 512MB (default: a sixty-"
+        "fourth of the machine's memory, between 128MB and 256MB).",
     ),
 ]
 DecisionsOption = Annotated[
