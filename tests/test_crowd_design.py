@@ -14,7 +14,7 @@ from sklearn.metrics import cohen_kappa_score
 
 import coderel.stats.plan as plan_module
 from coderel.stats.bootstrap import PoissonUnitWeights, evaluate_plans, run_sums
-from coderel.stats.counts import coder_pairs, confusion_table
+from coderel.stats.counts import coder_pairs, confusion_table, unit_agreeing_pairs
 from coderel.stats.pair_tables import light_from_tables, light_leave_one_out, pair_tables
 from coderel.stats.plan import MixedColumns, Scale, build_plan
 
@@ -130,3 +130,15 @@ def test_whole_number_products_equal_the_float_products():
     np.testing.assert_array_equal(fast[:, whole], slow[:, whole])
     np.testing.assert_allclose(fast, slow, rtol=1e-13, atol=0)
     np.testing.assert_allclose(weights.block(0, len(x)) @ thin, slow, rtol=1e-13, atol=0)
+
+
+def test_equal_pairs_per_unit_count_every_coder_pair():
+    """Equal ordered pairs per unit from sorted values equal the count over every coder pair."""
+    x = _awkward_crowd()
+    equal, pairs = unit_agreeing_pairs(x)
+    by_pairs = np.zeros(len(x))
+    for i, j in coder_pairs(x.shape[1]):
+        by_pairs += 2.0 * ((x[:, i] == x[:, j]) & (x[:, i] >= 0))
+    np.testing.assert_array_equal(equal, by_pairs)
+    m = (x >= 0).sum(axis=1)
+    np.testing.assert_array_equal(pairs, m * (m - 1.0))

@@ -101,10 +101,24 @@ def unit_disagreement(x: np.ndarray, dist: PairDistance) -> np.ndarray:
 
 
 def unit_agreeing_pairs(x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Per unit, ordered pairs of values that are equal, and all ordered pairs, m (m - 1)."""
+    """Per unit, ordered pairs of values that are equal, and all ordered pairs, m (m - 1).
+
+    Each unit's values sorted, a value equal to the one before it closes one more equal pair
+    with each earlier member of its run: one pass over the coders, not one per coder pair.
+
+    >>> equal, pairs = unit_agreeing_pairs(np.array([[2, 2, 2, -1], [0, 1, 0, 1], [-1, 3, -1, -1]]))
+    >>> equal.tolist(), pairs.tolist()
+    ([6.0, 4.0, 0.0], [6.0, 12.0, 0.0])
+    """
     m = values_per_unit(x)
-    equal = unit_pair_sums(x, lambda a, b: (a == b).astype(float))
-    return equal, m * (m - 1.0)
+    xs = np.sort(x, axis=1)
+    run = np.zeros(x.shape[0], dtype=np.int64)
+    equal = np.zeros(x.shape[0], dtype=np.int64)
+    for j in range(1, x.shape[1]):
+        same = (xs[:, j] == xs[:, j - 1]) & (xs[:, j] >= 0)
+        run = np.where(same, run + 1, 0)
+        equal += run
+    return 2.0 * equal, m * (m - 1.0)
 
 
 def coincidences_upper(counts: np.ndarray, iu: tuple[np.ndarray, np.ndarray]) -> np.ndarray:

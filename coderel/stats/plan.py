@@ -232,7 +232,13 @@ def add_alpha(b: _Builder, x: np.ndarray, scale: Scale) -> Formula:
             iu = np.triu_indices(scale.size, 1)
             s_n, s_o = b.add(cp), b.add(coincidences_upper(cp, iu))
             return lambda s: A.alpha_ordinal(s[:, s_n], s[:, s_o], iu)
-        s_n, s_d = b.add(cp), b.add(unit_disagreement(x, _domain_distance(scale)))
+        # nominal: the unequal ordered pairs per unit, m (m - 1) less the equal ones
+        equal, pairs = unit_agreeing_pairs(x)
+        m = counts.sum(axis=1)
+        d = np.zeros(len(m))
+        ok = m >= 2
+        d[ok] = (pairs[ok] - equal[ok]) / (m[ok] - 1.0)
+        s_n, s_d = b.add(cp), b.add(d)
         return lambda s: A.alpha_nominal(s[:, s_n], s[:, s_d])
     m = values_per_unit(x)
     pairable = m >= 2
