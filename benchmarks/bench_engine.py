@@ -117,7 +117,7 @@ def _command(coderel: str, command: str, folder: Path, out: Path, replicates: in
 
 
 def _compare_engines(coderel: str, command: str, folder: Path, labels: int, root: Path, opts):
-    from distributed import Client, LocalCluster
+    from coderel.engine.cluster import connect
 
     form = ".parquet" if command == "merge" else ".json"
     outputs = {}
@@ -129,19 +129,11 @@ def _compare_engines(coderel: str, command: str, folder: Path, labels: int, root
         outputs["local"] = out
         shown = name.format("local")
         print(f"{labels:>12,}  {shown:16}{wall:>9.1f}{peak:>9.2f}{'':>11}  {code}", flush=True)
-    with (
-        LocalCluster(
-            n_workers=2,
-            threads_per_worker=1,
-            processes=True,
-            host="127.0.0.1",
-            dashboard_address="127.0.0.1:0",
-        ) as cluster,
-        Client(cluster) as client,
-    ):
+    # the engine's own local cluster (2 worker processes on loopback), reached from a fresh process
+    with connect(None, workers=2) as client:
         out = root / f"{command}-dask{form}"
         args = _command(coderel, command, folder, out, opts.replicates)
-        args += ["--engine", "dask", "--scheduler", cluster.scheduler_address]
+        args += ["--engine", "dask", "--scheduler", client.scheduler.address]
         wall, peak, code = run(args, root / f"{command}-dask.stdout" if form != ".json" else out)
         outputs["dask"] = out
         most = max(client.run(_peak_gb).values())
