@@ -19,7 +19,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from coderel.agree.matrices import build_targets
+from coderel.agree.prepare import Prepared, prepare
 from coderel.codings import Codings
 from coderel.stats import homogeneity as H
 from coderel.stats.coders import category_shares, drop_one_alpha
@@ -195,13 +195,14 @@ def _pair_tests(table: np.ndarray, k: int) -> dict[str, H.ChiSquareTest]:
     return tests
 
 
-def coder_diagnostics(codings: Codings) -> CoderDiagnostics:
+def coder_diagnostics(codings: Codings | Prepared) -> CoderDiagnostics:
     """Drop-one alpha per variable; homogeneity tests and category shares per categorical one.
 
     Parameters
     ----------
     codings
-        The long table, as for :func:`coderel.agree.agreement`.
+        The long table, or what :func:`coderel.agree.prepare.prepare` kept of it, as for
+        :func:`coderel.agree.agreement`.
 
     Returns
     -------
@@ -212,9 +213,10 @@ def coder_diagnostics(codings: Codings) -> CoderDiagnostics:
     Krippendorff (2011) for alpha; Stuart (1955), Maxwell (1970), Bhapkar (1966), Bowker (1948)
     and McNemar (1947) for the tests (:mod:`coderel.stats.homogeneity`).
     """
-    coders, units = codings.coders, codings.units
+    p = codings if isinstance(codings, Prepared) else prepare(codings)
+    coders = p.coders
     out = []
-    for target in build_targets(codings, coders, units):
+    for target in p.targets:
         if target.kind != "variable":
             continue
         # The variable's own coders (those who gave it a value) are the columns of t.x.

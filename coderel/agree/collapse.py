@@ -28,6 +28,7 @@ from typing import Any
 import pandas as pd
 
 from coderel.agree.driver import agreement
+from coderel.agree.prepare import Prepared, prepare
 from coderel.agree.results import AgreementResult, Estimate
 from coderel.codebook.model import Code, Codebook, Variable
 from coderel.codings import Codings
@@ -254,11 +255,29 @@ def what_if(
     """
     if not collapses:
         return WhatIf(())
-    recoded = agreement(collapsed_codings(codings, collapses), **settings)
+    return what_if_prepared(collapsed(codings, collapses), collapses, original, **settings)
+
+
+def collapsed(codings: Codings, collapses: Sequence[Collapse]) -> Prepared:
+    """The rows to compute of the collapsed variables (:func:`collapsed_codings`), prepared at
+    once so that the table can be dropped before any bootstrap runs."""
+    return prepare(collapsed_codings(codings, collapses))
+
+
+def what_if_prepared(
+    recoded: Prepared,
+    collapses: Sequence[Collapse],
+    original: AgreementResult,
+    **settings: Any,
+) -> WhatIf:
+    """:func:`what_if` from the collapsed variables' rows (:func:`collapsed`)."""
+    if not collapses:
+        return WhatIf(())
+    recoded_result = agreement(recoded, **settings)
     rows = []
     for name in dict.fromkeys(c.variable for c in collapses):
         before = original.variable(name)
-        after = recoded.variable(name)
+        after = recoded_result.variable(name)
         rows.append(
             CollapsedAlpha(
                 variable=name,

@@ -9,8 +9,9 @@ from typing import Any
 import numpy as np
 
 from coderel.agree.conventions import MIN_UNITS_FOR_INTERVAL, THIN_DATA
-from coderel.agree.matrices import Target, build_targets
+from coderel.agree.matrices import Target
 from coderel.agree.numeric import attach as attach_numeric
+from coderel.agree.prepare import Prepared, prepare
 from coderel.agree.results import AgreementResult
 from coderel.agree.variable_row import variable_row
 from coderel.codebook import Codebook
@@ -55,7 +56,7 @@ def check_settings(
 
 
 def agreement(
-    codings: Codings,
+    codings: Codings | Prepared,
     *,
     replicates: int = 2000,
     seed: int = 20261202,
@@ -71,7 +72,9 @@ def agreement(
     Parameters
     ----------
     codings
-        The long table (values outside the codebook are already ``None``).
+        The long table (values outside the codebook are already ``None``), or what
+        :func:`coderel.agree.prepare.prepare` kept of it (a caller that drops the table then
+        runs the bootstrap without it).
     replicates, seed
         Bootstrap replicates and the seed of the one matrix of unit weights.
     ci_level, interval_method
@@ -106,15 +109,16 @@ def agreement(
     974-977.
     """
     check_settings(replicates, seed, ci_level, interval_method, bootstrap)
-    coders = codings.coders
-    units = codings.units
-    report(progress, 0, 1, "summarising units")
-    targets = build_targets(codings, coders, units)
+    if isinstance(codings, Prepared):
+        p = codings
+    else:
+        report(progress, 0, 1, "summarising units")
+        p = prepare(codings)
     return agreement_of_targets(
-        codings.codebook,
-        targets,
-        units,
-        coders,
+        p.codebook,
+        list(p.targets),
+        p.units,
+        p.coders,
         replicates=replicates,
         seed=seed,
         ci_level=ci_level,

@@ -40,6 +40,8 @@ class Target:
         who coded the variable, never on the coders of other variables.
         """
         keep = np.flatnonzero((self.x >= 0).any(axis=0))
+        if len(keep) == self.x.shape[1]:
+            return self  # every coder gave a value: no copy of the matrix
         return replace(self, x=self.x[:, keep], coders=tuple(self.coders[i] for i in keep))
 
 
@@ -61,10 +63,12 @@ def build_index(codings: Codings, coders: list[str], units: list[str]) -> UnitIn
     frame = codings.frame
     unit = _positions(frame["unit"], units)
     coder = _positions(frame["coder"], coders)
-    var_codes, var_names = pd.factorize(frame["variable"])
-    order = np.argsort(var_codes, kind="stable")
+    var_codes, var_names = _codes(frame["variable"])
+    # small integer codes sort by radix (stable); row positions in 32 bits when they fit
+    order = np.argsort(var_codes, kind="stable").astype(_row_type(len(frame)), copy=False)
     bounds = np.searchsorted(var_codes[order], np.arange(len(var_names) + 1))
     rows_of = {str(name): order[bounds[i] : bounds[i + 1]] for i, name in enumerate(var_names)}
+    del order, var_codes
     is_true, is_false = _true_false(frame["applies"])
     values = frame["value"].to_numpy(dtype=object)
     has_value = ~pd.isna(frame["value"]).to_numpy()
@@ -85,15 +89,30 @@ def canonical_sets(sets: Iterable[frozenset], var: Variable) -> tuple[frozenset,
     )
 
 
+def _row_type(n: int) -> type[np.signedinteger]:
+    """The integer type of row (and unit) positions: 32 bits when they fit, else 64."""
+    return np.int32 if n < np.iinfo(np.int32).max else np.int64
+
+
+def _codes(column: pd.Series) -> tuple[np.ndarray, pd.Index]:
+    """Each row's code among the column's names (-1: none) and those names: the categorical's own
+    codes (no pass over the rows), else factorised."""
+    if isinstance(column.dtype, pd.CategoricalDtype):
+        return column.cat.codes.to_numpy(), column.cat.categories
+    codes, distinct = pd.factorize(column)
+    return codes, pd.Index(distinct)
+
+
 def _positions(column: pd.Series, names: list[str]) -> np.ndarray:
     """Each row's position in ``names`` (-1 where absent), looked up once per distinct name."""
-    codes, distinct = pd.factorize(column)
+    codes, distinct = _codes(column)
+    kind = _row_type(max(len(names), len(codes)))
     if not len(distinct):
-        return np.full(len(codes), -1, dtype=np.int64)
+        return np.full(len(codes), -1, dtype=kind)
     where = pd.Index(distinct, dtype=object).get_indexer(pd.Index(names, dtype=object))
-    position = np.full(len(distinct), -1, dtype=np.int64)
+    position = np.full(len(distinct) + 1, -1, dtype=kind)  # the last: rows without a name
     position[where[where >= 0]] = np.flatnonzero(where >= 0)
-    return np.where(codes >= 0, position[np.maximum(codes, 0)], -1).astype(np.int64)
+    return position[codes]  # code -1 takes the last entry
 
 
 def _true_false(applies: pd.Series) -> tuple[np.ndarray, np.ndarray]:
@@ -162,16 +181,22 @@ def applicability_matrix(ix: UnitIndex, var: Variable, n_units: int, n_coders: i
 
 
 def build_targets(codings: Codings, coders: list[str], units: list[str]) -> list[Target]:
-    ix = build_index(codings, coders, units)
+    return targets_from_index(codings.codebook, build_index(codings, coders, units), coders, units)
+
+
+def targets_from_index(
+    cb: Codebook, ix: UnitIndex, coders: list[str], units: list[str]
+) -> list[Target]:
+    """The rows to compute from the long table's :class:`UnitIndex`."""
     n_units, n_coders = len(units), len(coders)
     matrices: dict[str, tuple[np.ndarray, Scale, np.ndarray | None]] = {}
-    for var in codings.codebook.variables:
+    for var in cb.variables:
         x, scale = value_matrix(ix, var, n_units, n_coders)
         xa = None
         if var.applies_when is not None:
             xa = applicability_matrix(ix, var, n_units, n_coders)
         matrices[var.name] = (x, scale, xa)
-    return targets_of(codings.codebook, coders, matrices)
+    return targets_of(cb, coders, matrices)
 
 
 def targets_of(

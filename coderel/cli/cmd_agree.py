@@ -32,7 +32,8 @@ from coderel.cli.common import (
 from coderel.cli.engines import EngineOption, SchedulerOption, agree_on_cluster, use_cluster
 from coderel.cli.occasions import IccOrdinalOption
 from coderel.errors import ExitCode
-from coderel.memory import parse_memory
+from coderel.memory import parse_memory, release_freed
+from coderel.progress import report
 
 if TYPE_CHECKING:
     from coderel.agree import AgreementResult, Estimate
@@ -147,6 +148,7 @@ def agree_command(
 ) -> ExitCode:
     """Every agreement coefficient per variable, with seeded bootstrap intervals."""
     from coderel.agree import agreement
+    from coderel.agree.prepare import prepare
     from coderel.cli.numeric_tables import numeric_tables
     from coderel.io.tables import table_format, write_table
 
@@ -194,21 +196,35 @@ def agree_command(
             from coderel.agree.collapse import parse_collapses
 
             collapses = parse_collapses(collapse, codings.codebook)
-        with delayed_progress("agreement per variable") as progress:
-            result = agreement(codings, icc_ordinal=icc_ordinal, progress=progress, **settings)
-        what_if = None
-        if collapses:
-            from coderel.agree.collapse import what_if as collapsed_alpha
+        with delayed_progress("summarising units") as progress:
+            report(progress, 0, 1, "summarising units")
+            prepared = prepare(codings)
+            recoded = None
+            if collapses:
+                from coderel.agree.collapse import collapsed
 
-            with delayed_progress("resampling units with categories merged"):
-                what_if = collapsed_alpha(codings, collapses, result, **settings)
+                recoded = collapsed(codings, collapses)
+        # Everything that needs the long table is done: drop it (and its problems) so that the
+        # bootstrap holds the per-unit summaries only (issue 14, item 3;
+        # tests/test_agree_memory.py).
+        del codings
+        release_freed()
         diagnostics = None
         if coders:
             from coderel.agree.coders import coder_diagnostics
 
             with delayed_progress("comparing each coder with the others"):
-                diagnostics = coder_diagnostics(codings)
-        single = codings.single_coded_units()
+                diagnostics = coder_diagnostics(prepared)
+        single = prepared.single_coded_units
+        with delayed_progress("agreement per variable") as progress:
+            result = agreement(prepared, icc_ordinal=icc_ordinal, progress=progress, **settings)
+        del prepared
+        what_if = None
+        if recoded is not None:
+            from coderel.agree.collapse import what_if_prepared
+
+            with delayed_progress("resampling units with categories merged"):
+                what_if = what_if_prepared(recoded, collapses, result, **settings)
     if out is not None:
         extra = {"pairs": result.pairs_frame()} if pairs else {}
         if diagnostics is not None:
