@@ -123,8 +123,11 @@ def build_adjudication(
     rows: list[AdjudicationRow] = []
     kept = added = 0
     changed: list[int] = []
+    now_keys: set[str] = set()
     for row in current:
-        old = old_rows.get(row.key) or old_retired.get(row.key)
+        key = row.key
+        now_keys.add(key)
+        old = old_rows.get(key) or old_retired.get(key)
         if old is not None:
             kept += 1
             check = old.check if old.to_check else None  # until the adjudicator clears it
@@ -145,7 +148,6 @@ def build_adjudication(
         else:
             added += 1
         rows.append(row)
-    now_keys = {r.key for r in rows}
     units_now = set(codings.frame["unit"].tolist())  # codings.units, without its sorting
     retired: list[AdjudicationRow] = [r for k, r in old_retired.items() if k not in now_keys]
     moved = 0

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from collections import Counter
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from typing import Any
@@ -112,20 +113,26 @@ class Adjudication:
         an invalid decision or a decision to check is still open (``to check`` counts the latter).
         """
         out = []
+        listed = Counter(r.variable for r in self.rows)
+        retired = Counter(r.variable for r in self.retired)
+        decided_rows: dict[str, list[AdjudicationRow]] = {}
+        for r in self.rows:
+            if r.decided:
+                decided_rows.setdefault(r.variable, []).append(r)
         for var in self.codebook.variables:
-            rows = [r for r in self.rows if r.variable == var.name]
+            rows = decided_rows.get(var.name, [])
             # A decision that is not a valid value (a bad-decision problem) leaves the cell open.
-            valid = [r.decided and parse_decision(var, r.decision)[1] is None for r in rows]
-            check = sum(ok and r.to_check for ok, r in zip(valid, rows, strict=True))
-            decided = sum(valid) - check
+            valid = [r for r in rows if parse_decision(var, r.decision)[1] is None]
+            check = sum(r.to_check for r in valid)
+            decided = len(valid) - check
             out.append(
                 {
                     "variable": var.name,
-                    "disagreements": len(rows),
+                    "disagreements": listed[var.name],
                     "decided": decided,
-                    "open": len(rows) - decided,
+                    "open": listed[var.name] - decided,
                     "to_check": check,
-                    "no_longer_needed": sum(r.variable == var.name for r in self.retired),
+                    "no_longer_needed": retired[var.name],
                 }
             )
         columns = ["variable", "disagreements", "decided", "open", "to_check", "no_longer_needed"]

@@ -355,38 +355,62 @@ def _known_text(tables: Mapping[str, Any], codebook: Codebook) -> set[str]:
     return known
 
 
+def _clean_column(body: list[list[Any]], i: int) -> list[str | None]:
+    """Column ``i`` of the rows as :func:`_clean` reads each cell (``None`` past a row's end);
+    the commonest cells, text with nothing to restore and empty cells, without a call each."""
+    if i < 0:
+        return [None] * len(body)
+    clean = _clean
+    return [
+        (
+            None
+            if (v := row[i] if i < len(row) else None) is None
+            else (v if v.strip() else None)
+            if v.__class__ is str and "'" not in v
+            else clean(v)
+        )
+        for row in body
+    ]
+
+
 def _rows_from(
     header: list[str], body: list[list[Any]], columns: ListColumns
 ) -> list[AdjudicationRow]:
     if "unit" not in header or "variable" not in header:
         return []
+    # -1: a column the sheet lacks; a row shorter than the header lacks its last cells
     first = {h: i for i, h in reversed(list(enumerate(header))) if h}
-    at = {n: first.get(n, -1) for n in ("unit", "variable", "kind", "decision", "note")}
-    at.update({n: first.get(n, -1) for n in ("adjudicator", "reason", "check")})
-    clean = _clean
-
+    names = ("unit", "variable", "kind", "decision", "note", "adjudicator", "reason", "check")
+    cells = {name: _clean_column(body, first.get(name, -1)) for name in names}
+    coders = [(c, _clean_column(body, i)) for i, c in columns.coders]
+    extra = [(h, _clean_column(body, i)) for i, h in columns.extra]
+    # a coder's or added column past a row's end is not in that row (a blank coder cell is "")
+    lengths = [len(row) for row in body]
+    coder_at = [i for i, _ in columns.coders]
+    ragged = any(n <= max(coder_at, default=-1) for n in lengths)
     out = []
-    for row in body:
-        # -1: a column the sheet lacks; a row shorter than the header lacks its last cells
-        n = len(row)
-        cells = {name: clean(row[i]) if -1 < i < n else None for name, i in at.items()}
-        unit, variable = cells["unit"], cells["variable"]
+    for k, (unit, variable) in enumerate(zip(cells["unit"], cells["variable"], strict=True)):
         if unit is None or variable is None:
             continue
-        values = {c: (clean(row[i]) or "") for i, c in columns.coders if i < n}
-        extra = {h: t for i, h in columns.extra if i < n and (t := clean(row[i]))}
+        if ragged:
+            n = lengths[k]
+            values = {
+                c: (col[k] or "") for (c, col), i in zip(coders, coder_at, strict=True) if i < n
+            }
+        else:
+            values = {c: (col[k] or "") for c, col in coders}
         out.append(
             AdjudicationRow(
                 unit=unit,
                 variable=variable,
-                kind=cells["kind"] or "",
+                kind=cells["kind"][k] or "",
                 values=values,
-                decision=cells["decision"],
-                note=cells["note"],
-                adjudicator=cells["adjudicator"],
-                reason=cells["reason"],
-                check=cells["check"],
-                extra=extra,
+                decision=cells["decision"][k],
+                note=cells["note"][k],
+                adjudicator=cells["adjudicator"][k],
+                reason=cells["reason"][k],
+                check=cells["check"][k],
+                extra={h: t for h, col in extra if (t := col[k])},
             )
         )
     return out
@@ -470,9 +494,8 @@ def duplicate_rows(
     iu, iv = header.index("unit"), header.index("variable")
     first: dict[tuple[str, str], int] = {}
     sheet = MAIN_SHEET if path.suffix.lower() == ".xlsx" else None
-    for row, number in zip(body, numbers, strict=True):
-        unit = _clean(row[iu]) if iu < len(row) else None
-        variable = _clean(row[iv]) if iv < len(row) else None
+    units, variables = _clean_column(body, iu), _clean_column(body, iv)
+    for unit, variable, number in zip(units, variables, numbers, strict=True):
         if unit is None or variable is None:
             continue
         if (unit, variable) in first:

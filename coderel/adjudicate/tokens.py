@@ -179,10 +179,9 @@ def classify(tokens: Mapping[str, Token]) -> Kind | None:
     """Kind of disagreement of one cell, ``None`` when the coders agree on a value or on n/a."""
     distinct = set(tokens.values())
     if len(distinct) > 1:
-        kinds = {k for k, _ in distinct}
-        if "na" in kinds:
+        if any(token[0] == "na" for token in distinct):
             return "applies?"
         return "values differ"
-    if distinct == {BLANK_TOKEN}:
+    if BLANK_TOKEN in distinct:
         return "no value"
     return None

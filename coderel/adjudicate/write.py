@@ -113,25 +113,31 @@ def _write_workbook(adj: Adjudication, path: str | os.PathLike[str]) -> None:
         wb.close()
 
 
-class _CellValues:
-    """:func:`coderel.io.tables.cell_value`, each distinct text worked out once (a list repeats
-    a few shown values over thousands of rows)."""
+def _shown_column(values: list[Any]) -> list[Any]:
+    """A column of the list as written: each distinct text neutralised once
+    (:func:`coderel.io.tables.cell_value`; a list repeats a few shown values over thousands of
+    rows), ``None`` for an empty cell, a carriage return as the line break an XML parser makes
+    of it (XlsxWriter would keep it as the escape ``_x000D_``, which openpyxl reads literally)."""
+    from coderel.io.tables import cell_value
 
-    def __init__(self) -> None:
-        from coderel.io.tables import cell_value
+    shown: dict[str, Any] = {}
+    out: list[Any] = []
+    for value in values:
+        if type(value) is str:
+            cell = shown.get(value)
+            if cell is None:
+                cell = cell_value(value) if value else ""
+                if type(cell) is str and "\r" in cell:
+                    cell = cell.replace("\r\n", "\n").replace("\r", "\n")
+                cell = shown[value] = cell if cell != "" else _EMPTY
+            out.append(None if cell is _EMPTY else cell)
+        else:
+            out.append(cell_value(value) if value is not None else None)
+    return out
 
-        self._cell_value = cell_value
-        self._texts: dict[str, Any] = {}
 
-    def __call__(self, value: Any) -> Any:
-        if value is None:
-            return None
-        if type(value) is not str:
-            return self._cell_value(value)
-        out = self._texts.get(value)
-        if out is None:
-            out = self._texts[value] = self._cell_value(value)
-        return out
+#: What an empty text is shown as (a marker, so that a cached ``None`` is told from no entry).
+_EMPTY = object()
 
 
 def _write_cell(ws: Any, i: int, j: int, value: Any, style: Any = None) -> None:
@@ -149,6 +155,40 @@ def _write_cell(ws: Any, i: int, j: int, value: Any, style: Any = None) -> None:
             # XlsxWriter would keep it as the escape _x000D_, which openpyxl reads literally
             value = value.replace("\r\n", "\n").replace("\r", "\n")
         ws.write_string(i, j, value, style)
+
+
+def _main_columns_cells(adj: Adjudication, headers: list[str]) -> list[list[Any]]:
+    """The main sheet's cells column by column (header order), as they are written."""
+    rows = adj.rows
+    texts = [adj.narratives.get(r.unit, {}) for r in rows] if adj.text_columns else []
+    # Each header names one field of the row (no two alike, no added column named like one of
+    # row_record's own): the columns straight from the rows' fields, without a record per row.
+    if len(set(headers)) == len(headers) and "reason" not in adj.extra_columns:
+        columns: list[list[Any]] = [
+            [r.unit for r in rows],
+            [r.variable for r in rows],
+            [r.kind for r in rows],
+            *([r.values.get(c, "") for r in rows] for c in adj.coders),
+            *([t.get(c, "") for t in texts] for c in adj.text_columns),
+            [r.decision for r in rows],
+            [r.note for r in rows],
+            [r.adjudicator for r in rows],
+            [r.check for r in rows],
+            [r.key for r in rows],
+            *([r.extra.get(c) for r in rows] for c in adj.extra_columns),
+        ]
+    else:
+        no_texts: dict[str, str] = {}
+        records = [
+            row_record(
+                r,
+                adj.coders,
+                {c: (texts[k] if texts else no_texts).get(c, "") for c in adj.text_columns},
+            )
+            for k, r in enumerate(rows)
+        ]
+        columns = [[rec.get(h) for rec in records] for h in headers]
+    return [_shown_column(column) for column in columns]
 
 
 def _main_sheet(wb: Any, ws: Any, adj: Adjudication, headers: list[str], bold: Any) -> None:
@@ -181,44 +221,26 @@ def _main_sheet(wb: Any, ws: Any, adj: Adjudication, headers: list[str], bold: A
             styles[key] = wb.add_format(props) if props else None
         return styles[key]
 
-    row_styles = {
-        (shaded, marked): [style(j, shaded, marked) for j in range(len(headers))]
+    # one list of the columns' styles per (shaded, marked), indexed 2 * shaded + marked
+    row_styles = [
+        [style(j, shaded, marked) for j in range(len(headers))]
         for shaded in (False, True)
         for marked in (False, True)
-    }
-    shown = _CellValues()
-    write_string = ws.write_string
-    # Each header names one field of the row (no two alike, no added column named like one of
-    # row_record's own): the row's cells in header order, without a record per row.
-    by_position = len(set(headers)) == len(headers) and "reason" not in adj.extra_columns
-    no_texts: dict[str, str] = {}
+    ]
+    columns = _main_columns_cells(adj, headers)
+    write_string, write_blank = ws.write_string, ws.write_blank
     shade, last_unit = False, None
-    for i, row in enumerate(adj.rows, start=1):
-        texts = adj.narratives.get(row.unit, no_texts) if adj.text_columns else no_texts
-        if by_position:
-            cells = [
-                row.unit,
-                row.variable,
-                row.kind,
-                *[row.values.get(c, "") for c in adj.coders],
-                *[texts.get(c, "") for c in adj.text_columns],
-                row.decision,
-                row.note,
-                row.adjudicator,
-                row.check,
-                row.key,
-                *[row.extra.get(c) for c in adj.extra_columns],
-            ]
-        else:
-            record = row_record(row, adj.coders, {c: texts.get(c, "") for c in adj.text_columns})
-            cells = [record.get(h) for h in headers]
+    cells_by_row = zip(*columns, strict=True)
+    for i, (row, cells) in enumerate(zip(adj.rows, cells_by_row, strict=True), start=1):
         if row.unit != last_unit:
             shade, last_unit = (not shade), row.unit
-        styles_now = row_styles[(shade, row.to_check)]
-        for j, cell in enumerate(cells):
-            value = shown(cell)
-            if type(value) is str and value and "\r" not in value:
+        styles_now = row_styles[2 * shade + row.to_check]
+        for j, value in enumerate(cells):
+            if value.__class__ is str:
                 write_string(i, j, value, styles_now[j])  # the commonest cell, at once
+            elif value is None:
+                if styles_now[j] is not None:
+                    write_blank(i, j, None, styles_now[j])
             else:
                 _write_cell(ws, i, j, value, styles_now[j])
     widths = {"unit": 12, "variable": 20, "kind": 14, "decision": 30, "note": 30}

@@ -137,9 +137,10 @@ def read_sheet_values(
                 if name not in wb.sheet_names:
                     continue
                 grid = wb.get_sheet_by_name(name).to_python(skip_empty_area=False)
-                # text as it is (the commonest cell); the rest as openpyxl gives it
+                # text as it is (the commonest cell), an empty cell as None; the rest as
+                # openpyxl gives it
                 out[name] = [
-                    [v if v.__class__ is str and v else _value(v) for v in row] for row in grid
+                    [(v or None) if v.__class__ is str else _value(v) for v in row] for row in grid
                 ]
         finally:
             wb.close()
