@@ -50,6 +50,7 @@ from typing import Any, Literal
 import numpy as np
 from scipy import sparse
 
+from coderel.stats.packed import Packed, as_array
 from coderel.stats.plan import MixedColumns, Plan, column_sums
 
 Progress = Callable[[int, int], None]
@@ -263,7 +264,7 @@ def contributing_rows(plan: Plan) -> np.ndarray:
     c = plan.contributions
     if not c.shape[1]:
         return np.array([], int)
-    if isinstance(c, MixedColumns):
+    if isinstance(c, MixedColumns | Packed):
         return c.nonzero_rows()
     return np.flatnonzero(c.getnnz(axis=1) if sparse.issparse(c) else np.any(c != 0, axis=1))
 
@@ -282,9 +283,9 @@ def jackknife_rows(
     if prepared is None:
         prepared = {name: make(total) for name, make in plan.leave_one_out.items()}
     if isinstance(own, MixedColumns):
-        jack_sums = total[None, : own.dense.shape[1]] - own.dense
+        jack_sums = total[None, : own.dense.shape[1]] - as_array(own.dense)
     else:
-        jack_sums = total[None, :] - (own.toarray() if sparse.issparse(own) else own)
+        jack_sums = total[None, :] - (own.toarray() if sparse.issparse(own) else as_array(own))
     out = {}
     for name, formula in plan.formulas.items():
         fast = prepared.get(name)
@@ -342,10 +343,13 @@ def _whole_columns(t: sparse.csr_matrix, most: int) -> bool:
     return bool(np.array_equal(data, np.rint(data)) and largest * most < 2**31)
 
 
-def _single_columns(d: np.ndarray, most: int) -> tuple[np.ndarray, np.ndarray] | None:
+def _single_columns(d: Any, most: int) -> tuple[np.ndarray, np.ndarray] | None:
     """Positions of the dense columns holding whole numbers small enough that sums of ``most``
     times their largest one stay below 2^24 (single-precision products are then exact), and of
-    the other columns; None when no column qualifies."""
+    the other columns; None when no column qualifies. ``d``: an array or packed columns (their
+    distinct rows are tested)."""
+    if isinstance(d, Packed):
+        d = d.distinct_rows() if d.shape[0] else np.zeros(d.shape)
     if not d.size:
         return None
     ok = np.all(d == np.rint(d), axis=0) & (np.max(np.abs(d), axis=0) * most < 2**24)
@@ -369,6 +373,39 @@ def _split(c: Any) -> tuple[Any, Any]:
 RUN_BLOCKS = 8
 
 
+@dataclass
+class Totals:
+    """One plan's R x M weighted sums while the runs of units add to them (:func:`run_sums`).
+
+    ``dense``: R x (dense columns), float64. ``thin``: (sparse columns) x R, transposed as the
+    sparse products give them; in 32-bit integers when every weight and entry is a whole number
+    and no sum over all units can reach 2^31 (exact: the same numbers in half the bytes of a
+    crowd design's pair-table sums, and each block's product is added to them directly), else
+    float64.
+    """
+
+    dense: np.ndarray | None
+    thin: np.ndarray | None
+
+    @classmethod
+    def zeros(cls, contributions: Any, replicates: int, integer_weights: bool) -> Totals:
+        d, t = _split(contributions)
+        n = contributions.shape[0]
+        exact = t is not None and integer_weights and _whole_columns(t, n * _MAX_POISSON)
+        return cls(
+            None if d is None else np.zeros((replicates, d.shape[1])),
+            None if t is None else np.zeros((t.shape[1], replicates), np.int32 if exact else float),
+        )
+
+    def array(self) -> np.ndarray:
+        """The R x M float64 sums."""
+        if self.thin is None:
+            return self.dense
+        if self.dense is None:
+            return self.thin.T.astype(float, order="C")
+        return np.hstack([self.dense, self.thin.T])
+
+
 def run_sums(
     contributions: Sequence[Any],
     weights_of: Callable[[int, int], np.ndarray],
@@ -376,8 +413,8 @@ def run_sums(
     block: int,
     step: Callable[[], None] | None = None,
     integer_weights: bool = False,
-    into: list[np.ndarray] | None = None,
-) -> list[np.ndarray]:
+    into: list[Totals] | None = None,
+) -> list[Any]:
     """R x M sums of one run of units: the plans' contributions of these units (dense, sparse or
     :class:`MixedColumns` rows) times their weights (``weights_of(start, stop)``, positions
     within the run), block by block, each block's product added in order.
@@ -386,20 +423,31 @@ def run_sums(
     transpose times the C-ordered ``w.T`` (scipy's fastest product), added to M x R sums that
     are transposed once at the end of the run. ``integer_weights`` says that every weight is a
     whole number from 0 to :data:`_MAX_POISSON` (Poisson weights); it changes the time taken,
-    never a number. With ``into`` (one R x M array per plan) the run's sums are added to those
-    arrays, which are returned, instead of being returned as new ones.
+    never a number. With ``into`` (one :class:`Totals` per plan) the run's sums are added to
+    those, which are returned, instead of being returned as new R x M arrays.
     """
     parts = [_split(c) for c in contributions]
     n = contributions[0].shape[0] if contributions else 0
     dense = [None if d is None else np.zeros((replicates, d.shape[1])) for d, _ in parts]
-    thin = [None if t is None else np.zeros((t.shape[1], replicates)) for _, t in parts]
     # Whole-number weights and sparse columns: each block's sparse product in 32-bit integers,
     # exact (no sum can reach 2^31) and so equal to the double-precision product, in a quarter
     # of the time.
     whole = [
-        t is not None and integer_weights and _whole_columns(t, block * _MAX_POISSON)
+        t is not None and integer_weights and _whole_columns(t, min(block, n) * _MAX_POISSON)
         for _, t in parts
     ]
+    # Those products go straight into 32-bit totals (exact in any order); other sparse sums
+    # are added up over the run first, in 32-bit integers too when no sum over the run can
+    # reach 2^31.
+    thin: list[np.ndarray | None] = []
+    direct: list[bool] = []  # products added to ``into`` as they come
+    for i, (_, t) in enumerate(parts):
+        direct.append(into is not None and whole[i] and into[i].thin.dtype == np.int32)
+        if t is None or direct[i]:
+            thin.append(into[i].thin if direct[i] else None)  # type: ignore[index]
+            continue
+        exact = whole[i] and _whole_columns(t, n * _MAX_POISSON)
+        thin.append(np.zeros((t.shape[1], replicates), np.int32 if exact else float))
     # Likewise dense columns of whole numbers: single-precision products, exact below 2^24.
     single = [
         _single_columns(d, block * _MAX_POISSON) if d is not None and integer_weights else None
@@ -411,10 +459,10 @@ def run_sums(
         wt = wt_whole = w32 = None
         for i, (d, t) in enumerate(parts):
             if d is not None and single[i] is None:
-                dense[i] += w @ d[start:stop]
+                dense[i] += w @ as_array(d[start:stop])
             elif d is not None:
                 exact, rest = single[i]
-                rows = d[start:stop]
+                rows = as_array(d[start:stop])
                 w32 = w.astype(np.float32) if w32 is None else w32  # once for every plan
                 if rest.size:
                     dense[i][:, exact] += w32 @ rows[:, exact].astype(np.float32)
@@ -435,15 +483,14 @@ def run_sums(
             step()
     if into is None:
         return [
-            d if t is None else t.T.copy() if d is None else np.hstack([d, t.T])
+            d if t is None else t.T.astype(float, order="C") if d is None else np.hstack([d, t.T])
             for d, t in zip(dense, thin, strict=True)
         ]
     for i, (d, t) in enumerate(zip(dense, thin, strict=True)):
-        width = 0 if d is None else d.shape[1]
         if d is not None:
-            into[i][:, :width] += d
-        if t is not None:
-            into[i][:, width:] += t.T
+            into[i].dense += d
+        if t is not None and not direct[i]:
+            into[i].thin += t
         dense[i] = thin[i] = None
     return into
 
@@ -485,7 +532,8 @@ def evaluate_plans(
         sums = [None] * len(plans)
     steps = len(starts) + len(plans)
     if replicates and weights is not None:
-        sums = [np.zeros((replicates, p.contributions.shape[1])) for p in plans]
+        whole = isinstance(weights, PoissonUnitWeights)
+        sums = [Totals.zeros(p.contributions, replicates, whole) for p in plans]
         done = [0]
 
         def step() -> None:
@@ -501,13 +549,16 @@ def evaluate_plans(
                 replicates,
                 block,
                 step,
-                integer_weights=isinstance(weights, PoissonUnitWeights),
+                integer_weights=whole,
                 into=sums,
             )
     results: list[dict[str, Evaluated]] = []
     for i, plan in enumerate(plans):
-        results.append(_evaluate(plan, sums[i], block))
+        # one plan's R x M float64 sums at a time
+        plan_sums = sums[i].array() if isinstance(sums[i], Totals) else sums[i]
         sums[i] = None
+        results.append(_evaluate(plan, plan_sums, block))
+        del plan_sums
         if progress is not None:
             progress(len(starts) + i + 1, steps)
     return results

@@ -43,6 +43,7 @@ from coderel.stats.counts import (
     values_per_unit,
 )
 from coderel.stats.numeric_plan import add_numeric, numeric_values
+from coderel.stats.packed import Packed, pack
 from coderel.stats.pair_tables import div as _div
 from coderel.stats.pair_tables import light_from_tables, light_leave_one_out, pair_tables
 from coderel.stats.pair_tables import nanmean_rows as _nanmean_rows
@@ -78,7 +79,8 @@ class Scale:
 class Plan:
     """Per-unit contributions and the coefficient formulas over their weighted sums.
 
-    ``contributions`` is a units x M array, or :class:`MixedColumns` (dense columns, then sparse
+    ``contributions`` is a units x M array (as built, :class:`coderel.stats.packed.Packed`: the
+    same float64 numbers in fewer bytes), or :class:`MixedColumns` (dense columns, then sparse
     ones). ``leave_one_out`` gives some formulas a jackknife of their own (see
     :data:`LeaveOneOut`); with :class:`MixedColumns` every other formula reads only the dense
     columns.
@@ -105,11 +107,12 @@ class MixedColumns:
 
     A crowd design's coder-pair columns are almost all zero (:mod:`coderel.stats.pair_tables`),
     while every unit has numbers in the other columns: the weighted sums take the dense columns
-    through one dense product and only the pair columns through a sparse one. Rows are selected
-    with ``[rows]`` (a slice or positions); ``w @ columns`` is the R x M weighted sums.
+    (an array or :class:`coderel.stats.packed.Packed`) through one dense product and only the
+    pair columns through a sparse one. Rows are selected with ``[rows]`` (a slice or
+    positions); ``w @ columns`` is the R x M weighted sums.
     """
 
-    dense: np.ndarray
+    dense: Any
     thin: sparse.csr_matrix
 
     __array_ufunc__ = None  # ``w @ columns`` calls __rmatmul__ rather than numpy's matmul
@@ -131,11 +134,17 @@ class MixedColumns:
         return out
 
     def column_sums(self) -> np.ndarray:
-        return np.concatenate([self.dense.sum(axis=0), np.asarray(self.thin.sum(axis=0)).ravel()])
+        thin = np.asarray(self.thin.sum(axis=0)).ravel()
+        return np.concatenate([column_sums(self.dense), thin])
 
     def nonzero_rows(self) -> np.ndarray:
         """Positions of the units with a non-zero contribution."""
-        return np.flatnonzero(np.any(self.dense != 0, axis=1) | (self.thin.getnnz(axis=1) > 0))
+        if isinstance(self.dense, Packed):
+            dense = np.zeros(self.dense.shape[0], dtype=bool)
+            dense[self.dense.nonzero_rows()] = True
+        else:
+            dense = np.any(self.dense != 0, axis=1)
+        return np.flatnonzero(dense | (self.thin.getnnz(axis=1) > 0))
 
 
 class _Builder:
@@ -168,8 +177,11 @@ class _Builder:
         return slice(start, self.width)
 
     def contributions(self) -> Any:
-        """U x M contributions: a dense array, or :class:`MixedColumns` when a block was sparse."""
+        """U x M contributions: the dense columns packed (:func:`coderel.stats.packed.pack`),
+        or :class:`MixedColumns` of them and the sparse ones when a block was sparse."""
         dense = np.hstack(self.blocks) if self.blocks else np.zeros((self.n_units, 0))
+        self.blocks = []
+        dense = pack(dense)
         if self.thin:
             thin = sparse.hstack(self.thin, format="csr") if len(self.thin) > 1 else self.thin[0]
             return MixedColumns(dense, sparse.csr_matrix(thin))
@@ -178,7 +190,7 @@ class _Builder:
 
 def column_sums(contributions: Any) -> np.ndarray:
     """Sums over units (the point estimate's sums) of dense or sparse contributions."""
-    if isinstance(contributions, MixedColumns):
+    if isinstance(contributions, MixedColumns | Packed):
         return contributions.column_sums()
     if sparse.issparse(contributions):
         return np.asarray(contributions.sum(axis=0)).ravel()
