@@ -27,6 +27,8 @@ import numpy as np
 
 #: Rows hashed, checked or converted at a time (their scratch arrays stay small).
 _CHUNK = 8192
+#: The most distinct rows a :class:`RowTable` lists (its codes take at most two bytes).
+_MOST_ROWS = 65536
 #: Whole-number and single-precision types tried in order for a column (:class:`TypedColumns`).
 _NARROW = (np.int8, np.int16, np.int32, np.float32)
 
@@ -165,39 +167,28 @@ def pack(dense: np.ndarray) -> Packed:
     dense = np.ascontiguousarray(dense, dtype=float)
     n, m = dense.shape
     total = dense.sum(axis=0)
-    floor = n * m  # bytes of the smallest typed form (one byte per number)
-    rows = _distinct_rows(dense)
-    if rows is not None:
-        first, codes = rows
-        row_bytes = first.size * m * 8 + codes.nbytes
-        if row_bytes <= floor:
-            return RowTable(codes, dense[first], total)
-    typed = _typed(dense, total)
-    if rows is not None and first.size * m * 8 + codes.nbytes < typed.nbytes:
-        return RowTable(codes, dense[first], total)
-    return typed
-
-
-def _distinct_rows(dense: np.ndarray) -> tuple[np.ndarray, np.ndarray] | None:
-    """(position of the first unit of each distinct row, each unit's row number as uint8 or
-    uint16), rows compared bit for bit; None above 65,536 distinct rows."""
     bits = dense.view(np.uint64)
-    keys = _row_keys(bits)
-    _, first, codes = np.unique(keys, return_index=True, return_inverse=True)
-    if len(first) > 65536:
-        return None
-    if not _rows_equal(bits, first, codes):  # two rows with one key: compare whole rows
-        _, first, codes = np.unique(_row_bytes(dense), return_index=True, return_inverse=True)
-        if len(first) > 65536:
-            return None
-    small = np.uint8 if len(first) <= 256 else np.uint16
-    return first, codes.reshape(-1).astype(small)
+    _, first, codes = np.unique(_row_keys(bits), return_index=True, return_inverse=True)
+    typed = None
+    if len(first) <= _MOST_ROWS:
+        row_bytes = len(first) * m * 8 + n * (1 if len(first) <= 256 else 2)
+        if row_bytes > n * m:  # more than one byte per number: see what columns by type take
+            typed = _typed(dense, total)
+        if typed is None or row_bytes < typed.nbytes:
+            if not _rows_equal(bits, first, codes):  # two rows with one key: compare whole rows
+                _, first, codes = np.unique(
+                    _row_bytes(dense), return_index=True, return_inverse=True
+                )
+            if len(first) <= _MOST_ROWS:
+                small = np.uint8 if len(first) <= 256 else np.uint16
+                return RowTable(codes.reshape(-1).astype(small), dense[first], total)
+    return typed if typed is not None else _typed(dense, total)
 
 
 def _row_keys(bits: np.ndarray) -> np.ndarray:
     """A 64-bit key per row of 64-bit words: each word mixed (xor-shift, a multiplier per
     column, xor-shift) and the words' results added modulo 2^64. Equal rows have equal keys;
-    unequal rows almost never do (:func:`_rows_equal` checks)."""
+    unequal rows almost never do (:func:`pack` checks with :func:`_rows_equal`)."""
     n, m = bits.shape
     multipliers = np.random.Generator(np.random.PCG64(m)).integers(
         0, 2**63, size=m, dtype=np.uint64
@@ -230,8 +221,10 @@ def _typed(dense: np.ndarray, total: np.ndarray) -> TypedColumns:
     """Each column in the first type of :data:`_NARROW` that gives it back bit for bit, else
     float64; columns of one type grouped."""
     kinds: dict[Any, list[int]] = {}
-    for j in range(dense.shape[1]):
-        kinds.setdefault(_narrowest(dense[:, j]), []).append(j)
+    for start in range(0, dense.shape[1], 16):  # a few columns at a time, each contiguous
+        part = np.ascontiguousarray(dense[:, start : start + 16].T)
+        for j, column in enumerate(part, start):
+            kinds.setdefault(_narrowest(column), []).append(j)
     positions, values = [], []
     for kind, cols in kinds.items():
         pos = np.array(cols, dtype=np.intp)
