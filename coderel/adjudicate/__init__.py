@@ -14,7 +14,8 @@ every coder left it blank (kind ``no value``). Regenerating the list keeps every
 (matched by unit and variable), moves rows whose disagreement vanished to the sheet
 ``no longer needed`` and appends new ones. See ``docs/adjudication.md``.
 
-The package: ``tokens`` (entries reduced to tokens, display, ordering), ``decisions`` (parsing
+The package: ``tokens`` (entries reduced to tokens, display, ordering), ``cell_table`` (every
+cell's tokens grouped once, its kind of disagreement worked out on arrays), ``decisions`` (parsing
 and holding decisions), ``model`` (rows, the list, its sheets and columns), ``build`` (the list
 from the codings, keeping earlier decisions), ``read`` and ``write`` (the list as xlsx or csv).
 """

@@ -4,10 +4,13 @@ from __future__ import annotations
 
 import math
 import os
-from collections.abc import Mapping, Sequence
+from collections.abc import Sequence
 from dataclasses import replace
 from typing import Any
 
+import numpy as np
+
+from coderel.adjudicate.cell_table import CellTable, cell_table
 from coderel.adjudicate.decisions import hint, parse_decision
 from coderel.adjudicate.model import (
     MAIN_SHEET,
@@ -20,13 +23,7 @@ from coderel.adjudicate.model import (
 )
 from coderel.adjudicate.read import read_adjudication
 from coderel.adjudicate.rules import Settling, settle
-from coderel.adjudicate.tokens import (
-    Token,
-    cell_tokens,
-    classify,
-    shown_values,
-    unit_sort_key,
-)
+from coderel.adjudicate.tokens import shown_values, unit_sort_key
 from coderel.codings import Codings
 from coderel.problems import Problems
 
@@ -54,12 +51,13 @@ def _first_texts(codings: Codings) -> tuple[tuple[str, ...], dict[str, dict[str,
 def disagreements(
     codings: Codings,
     settling: Settling | None = None,
-    tokens_by_cell: Mapping[tuple[str, str], Mapping[str, Token]] | None = None,
+    table: CellTable | None = None,
 ) -> list[AdjudicationRow]:
     """Rows for every cell that needs a decision, sorted by unit then codebook variable order.
 
     A cell the coders disagree on needs no decision when ``settling`` (rule and tolerances, see
     :mod:`coderel.adjudicate.rules`) settles it; by default only unanimity settles a cell.
+    ``table``: the cells already grouped (:func:`coderel.adjudicate.cell_table.cell_table`).
     """
     cb = codings.codebook
     settling = settling or Settling()
@@ -67,17 +65,17 @@ def disagreements(
     variables = {name: cb.variable(name) for name in cb.names}
     rows = []
     shown: dict[Any, str] = {}
-    cells = tokens_by_cell if tokens_by_cell is not None else cell_tokens(codings)
-    for (unit, name), tokens in cells.items():
-        kind = classify(tokens)
-        if kind is None:
-            continue
+    table = table if table is not None else cell_table(codings)
+    for i in np.flatnonzero(table.kind_code).tolist():  # the cells whose coders disagree
+        unit, name = table.unit[i], table.variable[i]
+        tokens = table.tokens(i)
         var = variables[name]
         # only a majority rule or a tolerance settles a cell whose coders disagree
         may_settle = settling.rule != "unanimous" or name in settling.tolerance
         if may_settle and settle(var, tokens, settling) is not None:
             continue
         values = shown_values(var, tokens, shown)
+        kind = table.kind(i)
         rows.append(AdjudicationRow(unit=unit, variable=name, kind=kind, values=values))
     unit_keys = {u: unit_sort_key(u) for u in {r.unit for r in rows}}
     rows.sort(key=lambda r: (unit_keys[r.unit], r.unit, var_order[r.variable]))
@@ -105,8 +103,8 @@ def build_adjudication(
         not listed (see :mod:`coderel.adjudicate.rules`; ``merge`` must use the same settling).
     """
     settling = settling or Settling()
-    tokens_by_cell = cell_tokens(codings)
-    current = disagreements(codings, settling, tokens_by_cell)
+    table = cell_table(codings)
+    current = disagreements(codings, settling, table)
     columns, narratives = _first_texts(codings)
     if previous is not None and not isinstance(previous, Adjudication):
         previous = read_adjudication(previous, codings.codebook, codings.coders)
@@ -155,7 +153,7 @@ def build_adjudication(
         if key in now_keys:
             continue
         moved += 1
-        reason = _retired_reason(old, tokens_by_cell, units_now, settling)
+        reason = _retired_reason(old, table, units_now, settling)
         retired.append(
             AdjudicationRow(
                 unit=old.unit,
@@ -220,15 +218,15 @@ def _clear_of(previous: Adjudication, names: Sequence[str]) -> Adjudication:
 
 def _retired_reason(
     old: AdjudicationRow,
-    tokens_by_cell: Mapping[tuple[str, str], Mapping[str, Token]],
+    table: CellTable,
     units_now: set[str],
     settling: Settling,
 ) -> str:
     """Why a row left the list: the unit is gone, the coders agree, or a rule settles it."""
     if old.unit not in units_now:
         return "unit no longer in the data"
-    tokens = tokens_by_cell.get((old.unit, old.variable), {})
-    if tokens and classify(tokens) is not None:
+    cell = table.index.get((old.unit, old.variable))
+    if cell is not None and table.kind_code[cell]:
         return f"settled by the rule ({settling.describe()})"
     return "coders now agree"
 

@@ -11,6 +11,8 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
+import pandas as pd
+
 from coderel.adjudicate.decisions import Decision, Decisions, hint, parse_decision
 from coderel.adjudicate.model import (
     ABOUT_SHEET,
@@ -495,6 +497,9 @@ def duplicate_rows(
     first: dict[tuple[str, str], int] = {}
     sheet = MAIN_SHEET if path.suffix.lower() == ".xlsx" else None
     units, variables = _clean_column(body, iu), _clean_column(body, iv)
+    pairs = pd.DataFrame({"unit": units, "variable": variables})
+    if not (pairs.duplicated().to_numpy() & pairs.notna().all(axis=1).to_numpy()).any():
+        return problems  # the usual list: no two rows of one cell, told without a loop
     for unit, variable, number in zip(units, variables, numbers, strict=True):
         if unit is None or variable is None:
             continue
@@ -560,12 +565,14 @@ def read_decisions(
     dupes = duplicate_rows(path, header, body, numbers)
     problems.extend(dupes)
     duplicated = {(p.unit, p.variable) for p in dupes}
-    for row, number in zip(body, numbers, strict=True):
-        unit, variable = _clean(get(row, "unit")), _clean(get(row, "variable"))
-        raw = get(row, "decision")
-        text = _clean(raw)
-        if unit is None or variable is None or text is None:
+    units, variables = _clean_column(body, icol["unit"]), _clean_column(body, icol["variable"])
+    texts = _clean_column(body, icol["decision"])
+    for k in [k for k, text in enumerate(texts) if text is not None]:  # the filled decisions
+        unit, variable, text = units[k], variables[k], texts[k]
+        if unit is None or variable is None:
             continue
+        row, number = body[k], numbers[k]
+        raw = get(row, "decision")
         place = {"file": path.name, "sheet": sheet, "cell": f"{dcol}{number}"}
         if variable not in codebook:
             problems.add(

@@ -76,20 +76,17 @@ def _token(variable: Variable, value: Any, missing: Any, applies: Any) -> Token:
     return token
 
 
-def cell_tokens(codings: Codings) -> dict[tuple[str, str], dict[str, Token]]:
-    """Every cell's tokens per coder, for coders who have a row for that unit and variable.
+def token_rows(
+    codings: Codings,
+) -> tuple[list[str], list[str], list[str], list[Token | None]]:
+    """Units, coders, variables and tokens of the long table's rows (``None`` for a variable
+    the codebook lacks).
 
-    Cells come in the order of their first row, each cell's coders in the order of their rows (a
-    coder's later row for the same cell replaces the earlier token).
+    Whole columns as Python lists: iterating pandas (arrow-backed) columns costs more than the
+    tokens themselves.
     """
-    import numpy as np
-
     f = codings.frame
     cb = codings.codebook
-    if f.empty:
-        return {}
-    # Whole columns as Python lists: iterating pandas (arrow-backed) columns costs more than the
-    # tokens themselves. Rows are grouped by cell with numpy, then each cell's dict made at once.
     units, coders, names = (f[c].tolist() for c in ("unit", "coder", "variable"))
     variables = {name: cb.variable(name) for name in cb.names}
     tokens = [
@@ -102,22 +99,19 @@ def cell_tokens(codings: Codings) -> dict[tuple[str, str], dict[str, Token]]:
             strict=True,
         )
     ]
-    unit_codes, _ = pd.factorize(f["unit"], use_na_sentinel=False)
-    name_codes, name_ids = pd.factorize(f["variable"], use_na_sentinel=False)
-    cell = unit_codes.astype(np.int64) * max(len(name_ids), 1) + name_codes
-    order = np.argsort(cell, kind="stable")
-    ordered = cell[order]
-    starts = np.flatnonzero(np.r_[True, ordered[1:] != ordered[:-1]])
-    ends = np.r_[starts[1:], len(order)].tolist()
-    rows = order.tolist()
-    cells: dict[tuple[str, str], dict[str, Token]] = {}
-    for g in np.argsort(order[starts], kind="stable").tolist():  # cells by their first row
-        group = rows[starts[g] : ends[g]]
-        first = group[0]
-        if tokens[first] is None:
-            continue  # a variable the codebook lacks
-        cells[(units[first], names[first])] = {coders[i]: tokens[i] for i in group}
-    return cells
+    return units, coders, names, tokens
+
+
+def cell_tokens(codings: Codings) -> dict[tuple[str, str], dict[str, Token]]:
+    """Every cell's tokens per coder, for coders who have a row for that unit and variable.
+
+    Cells come in the order of their first row, each cell's coders in the order of their rows (a
+    coder's later row for the same cell replaces the earlier token). Grouped once by
+    :func:`coderel.adjudicate.cell_table.cell_table`, which also classifies every cell at once.
+    """
+    from coderel.adjudicate.cell_table import cell_table
+
+    return dict(cell_table(codings).items())
 
 
 def unit_sort_key(unit: str) -> tuple[Any, ...]:

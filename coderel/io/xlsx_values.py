@@ -31,8 +31,10 @@ from coderel.io.archive import DEFAULT_LIMITS, Limits, check_workbook, raise_hin
 
 #: An ``r`` attribute holding a cell (``AB12``) or row (``12``) reference, wherever it stands
 #: (after a space or quote, so ``dir="5400000"`` is not one; text reading ``r="A1"`` counts too:
-#: the scan may over-count, never under-count).
-_REFERENCE = re.compile(rb"[\s\"']r\s*=\s*[\"']([A-Za-z]*)(\d+)[\"']")
+#: the scan may over-count, never under-count). The character before the ``r`` is looked at,
+#: not consumed (two attributes without a space between them are both found), and the pattern
+#: opens with the literal ``r``, which the regex engine looks for fast.
+_REFERENCE = re.compile(rb"r(?<=[\s\"']r)\s*=\s*[\"']([A-Za-z]*)(\d+)[\"']")
 #: Cell and row elements (any namespace prefix), and those of them that carry an ``r``.
 _CELL = re.compile(rb"<(?:[\w.-]+:)?c[\s/>]")
 _CELL_WITH_REF = re.compile(rb"<(?:[\w.-]+:)?c\s[^<>]*?r\s*=")
@@ -41,7 +43,7 @@ _ROW_WITH_REF = re.compile(rb"<(?:[\w.-]+:)?row\s[^<>]*?r\s*=")
 #: What the byte counts of :func:`_all_referenced` do not see: a cell or row element with a
 #: namespace prefix (``<x:c ...>``), after another white space than a blank, without attributes,
 #: or with its ``r`` in single quotes.
-_UNUSUAL = re.compile(rb"<[\w.-]+:(?:c|row)[\s/>]|<(?:c|row)[\t\n\r/>]|<(?:c|row) r='")
+_UNUSUAL = re.compile(rb"<(?:[\w.-]+:(?:c|row)[\s/>]|(?:c|row)(?:[\t\n\r/>]| r='))")
 #: An error cell (``t="e"``).
 _ERROR_CELL = re.compile(rb"t\s*=\s*[\"']e[\"']")
 #: Whole numbers beyond this are kept as floats (a float holds every integer up to 2**53).

@@ -9,21 +9,22 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
+import numpy as np
 import pandas as pd
 
 from coderel.adjudicate import (
     Decision,
     Decisions,
     Token,
-    cell_tokens,
     read_decisions,
     shown_values,
     sorted_units,
 )
+from coderel.adjudicate.cell_table import cell_table
 from coderel.adjudicate.rules import Rule, Settling
 from coderel.codebook import Codebook
 from coderel.codings import Codings, SourceFile
-from coderel.merge.cells import MARKED, decide_cell, final_missing, final_value, stale_reason
+from coderel.merge.cells import MARKED, final_missing, final_value, stale_reason
 from coderel.merge.columns import (
     check_skip_logic,
     has_missing_column,
@@ -34,6 +35,7 @@ from coderel.merge.columns import (
     value_column,
 )
 from coderel.merge.result import STATUSES, AdjudicatedCell
+from coderel.merge.settlement import cell_grid, settle_variable
 from coderel.merge.tables import (
     DATA_SHEET,
     DICTIONARY_SHEET,
@@ -189,7 +191,7 @@ def merge(
     problems = Problems()
     if decisions is not None:
         problems.extend(decisions.problems)
-    tokens_by_cell = cell_tokens(codings)
+    table = cell_table(codings)
     shown_cache: dict[Any, str] = {}  # each variable's tokens as shown, formatted once
     units = sorted_units(codings.frame["unit"].tolist())  # codings.units, sorted once
     unit_set = set(units)
@@ -204,7 +206,8 @@ def merge(
                 "bad-decision", "a decision for a variable the codebook lacks", unit=unit, **place
             )
             continue
-        tokens = tokens_by_cell.get((unit, name), {})
+        cell = table.index.get((unit, name))
+        tokens = table.tokens(cell) if cell is not None else {}
         var = cb.variable(name)
         shown = shown_values(var, tokens, shown_cache)
         reason = stale_reason(decision, tokens, shown, unit in unit_set)
@@ -237,33 +240,32 @@ def merge(
     adjudicated: list[AdjudicatedCell] = []
     statuses_by_var: dict[str, list[str]] = {}
     tokens_by_var: dict[str, list[Token | None]] = {}
-    for var in cb.variables:
-        values: list[Any] = []
-        missing: list[Any] = []
-        statuses: list[str] = []
-        finals: list[Token | None] = []
+    grid = cell_grid(table, units, cb.names)
+    at_unit = {u: i for i, u in enumerate(units)}
+    decided_by_var: dict[str, dict[int, Decision]] = {}
+    for (unit, name), decision in usable.items():
+        decided_by_var.setdefault(name, {})[at_unit[unit]] = decision
+    for j, var in enumerate(cb.variables):
+        cells = grid[:, j].tolist()
+        decided = decided_by_var.get(var.name, {})
+        statuses, finals, used = settle_variable(var, cells, table, decided, settling)
         tokens_by_var[var.name] = finals
-        for unit in units:
-            tokens = tokens_by_cell.get((unit, var.name), {})
-            decision = usable.get((unit, var.name))
-            status, token, used = decide_cell(var, tokens, settling, decision)
-            finals.append(token)
-            values.append(None if token is None else final_value(var, token))
-            missing.append(final_missing(token))
-            statuses.append(status)
-            if used and decision is not None:
-                adjudicated.append(
-                    AdjudicatedCell(
-                        unit=unit,
-                        variable=var.name,
-                        values=shown_values(var, tokens, shown_cache),
-                        decision=decision.text,
-                        value=values[-1] if missing[-1] is None else missing[-1],
-                        adjudicator=decision.adjudicator,
-                        note=decision.note,
-                        cell=decision.cell,
-                    )
+        values = [None if token is None else final_value(var, token) for token in finals]
+        missing = [final_missing(token) for token in finals]
+        for i in used:
+            decision = decided[i]
+            adjudicated.append(
+                AdjudicatedCell(
+                    unit=units[i],
+                    variable=var.name,
+                    values=shown_values(var, table.tokens(cells[i]), shown_cache),
+                    decision=decision.text,
+                    value=values[i] if missing[i] is None else missing[i],
+                    adjudicator=decision.adjudicator,
+                    note=decision.note,
+                    cell=decision.cell,
                 )
+            )
         data[var.name] = value_column(var, values)
         data[status_column(var.name)] = pd.Series(statuses, dtype=object)
         if has_missing_column(var):
@@ -271,12 +273,16 @@ def merge(
         counts = Counter(statuses)
         status_counts[var.name] = {s: counts.get(s, 0) for s in STATUSES}
         statuses_by_var[var.name] = statuses
-    for i, unit in enumerate(units):
-        for var in cb.variables:
-            if statuses_by_var[var.name][i] == "unresolved":
-                unresolved.append((unit, var.name))
-                tokens = tokens_by_cell.get((unit, var.name), {})
-                unresolved_values.append(shown_values(var, tokens, shown_cache))
+    is_open = np.array(
+        [[s == "unresolved" for s in statuses_by_var[n]] for n in cb.names], dtype=bool
+    ).reshape(len(cb.names), len(units))
+    open_rows, open_cols = np.nonzero(is_open.T)  # by unit, then codebook order
+    for i, j in zip(open_rows.tolist(), open_cols.tolist(), strict=True):
+        var = cb.variables[j]
+        unresolved.append((units[i], var.name))
+        cell = int(grid[i, j])
+        tokens = table.tokens(cell) if cell >= 0 else {}
+        unresolved_values.append(shown_values(var, tokens, shown_cache))
     check_skip_logic(cb, units, tokens_by_var, statuses_by_var, problems)
     frame = pd.DataFrame(data, columns=columns)
     return MergeResult(
