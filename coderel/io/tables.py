@@ -70,6 +70,8 @@ def cell_value(value: Any) -> Any:
     """A value ready for an openpyxl cell: ``None`` for missing, neutralised text, plain numbers."""
     if value is None:
         return None
+    if type(value) is str:  # the commonest cell, none of the checks below applies to it
+        return _fit_cell(neutralise(value))
     try:
         if pd.isna(value):
             return None
