@@ -25,6 +25,7 @@ from coderel.adjudicate.build import (
     check_decisions,
     disagreements,
 )
+from coderel.adjudicate.cell_table import cell_tokens
 from coderel.adjudicate.decisions import Decision, Decisions, hint, parse_decision
 from coderel.adjudicate.model import (
     ABOUT_SHEET,
@@ -52,7 +53,6 @@ from coderel.adjudicate.tokens import (
     Kind,
     Token,
     TokenKind,
-    cell_tokens,
     classify,
     display_token,
     format_number,

@@ -4,7 +4,7 @@ A cell is one unit x one variable (see :mod:`coderel.adjudicate`). :func:`cell_t
 row of the long table to its token once, groups the rows by cell with numpy and, from integer ids
 of the tokens, counts per cell the coders, the distinct tokens and whether one of them says the
 variable does not apply: :func:`coderel.adjudicate.tokens.classify` for every cell at once.
-A cell's tokens per coder (a dict, as :func:`coderel.adjudicate.tokens.cell_tokens` gives them)
+A cell's tokens per coder (a dict, as :func:`cell_tokens` gives them for every cell)
 are made only for the cells that need them (the disagreements, the decided cells).
 """
 
@@ -143,4 +143,13 @@ def cell_table(codings: Codings) -> CellTable:
     )
 
 
-__all__ = ["KINDS", "CellTable", "cell_table"]
+def cell_tokens(codings: Codings) -> dict[tuple[str, str], dict[str, Token]]:
+    """Every cell's tokens per coder, for coders who have a row for that unit and variable.
+
+    Cells come in the order of their first row, each cell's coders in the order of their rows (a
+    coder's later row for the same cell replaces the earlier token).
+    """
+    return dict(cell_table(codings).items())
+
+
+__all__ = ["KINDS", "CellTable", "cell_table", "cell_tokens"]

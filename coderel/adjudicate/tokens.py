@@ -102,18 +102,6 @@ def token_rows(
     return units, coders, names, tokens
 
 
-def cell_tokens(codings: Codings) -> dict[tuple[str, str], dict[str, Token]]:
-    """Every cell's tokens per coder, for coders who have a row for that unit and variable.
-
-    Cells come in the order of their first row, each cell's coders in the order of their rows (a
-    coder's later row for the same cell replaces the earlier token). Grouped once by
-    :func:`coderel.adjudicate.cell_table.cell_table`, which also classifies every cell at once.
-    """
-    from coderel.adjudicate.cell_table import cell_table
-
-    return dict(cell_table(codings).items())
-
-
 def unit_sort_key(unit: str) -> tuple[Any, ...]:
     """Natural order of unit IDs: ``R2`` before ``R10``; numbers before text."""
     parts = re.split(r"(\d+)", str(unit))
