@@ -175,20 +175,7 @@ def agreement_of_targets(
         ) from None
     rows = []
     for t, evaluated in zip(targets, evaluated_all, strict=True):
-        row = variable_row(t, evaluated, ci_level, interval_method)
-        if t.kind == "variable":
-            row = attach_numeric(
-                row,
-                t.x,
-                t.scale,
-                list(t.coders),
-                ci_level,
-                icc_ordinal=icc_ordinal,
-                min_units=MIN_UNITS_FOR_INTERVAL,
-                thin_reason=THIN_DATA,
-                units=units,
-            )
-        rows.append(row)
+        rows.append(agreement_row(t, evaluated, ci_level, interval_method, icc_ordinal, units))
         report(progress, steps[0] + len(rows), steps[0] + n_rows, "intervals per variable")
     return AgreementResult(
         tuple(rows),
@@ -200,4 +187,30 @@ def agreement_of_targets(
         codebook_title=str(cb.title or ""),
         codebook_version=str(cb.version or ""),
         scheme=bootstrap,
+    )
+
+
+def agreement_row(
+    t: Target,
+    evaluated: dict[str, Evaluated],
+    ci_level: float,
+    interval_method: str,
+    icc_ordinal: bool,
+    units: list[str],
+):
+    """One row of the result: its coefficients with intervals, and for a variable (not its
+    applicability) the numeric extras (ICC table, Lin's coefficient per pair, limits)."""
+    row = variable_row(t, evaluated, ci_level, interval_method)
+    if t.kind != "variable":
+        return row
+    return attach_numeric(
+        row,
+        t.x,
+        t.scale,
+        list(t.coders),
+        ci_level,
+        icc_ordinal=icc_ordinal,
+        min_units=MIN_UNITS_FOR_INTERVAL,
+        thin_reason=THIN_DATA,
+        units=units,
     )

@@ -93,13 +93,16 @@ def complete_rows(values: np.ndarray) -> np.ndarray:
     return np.all(np.isfinite(values), axis=1)
 
 
-def icc_contributions(values: np.ndarray) -> np.ndarray:
+def icc_contributions(values: np.ndarray, centre: float | None = None) -> np.ndarray:
     """Each unit's share of the ANOVA sums (U x (4 + k)); zeros for incomplete units.
 
     Parameters
     ----------
     values
         Units x coders array of numbers, ``nan`` where a coder gave no value.
+    centre
+        The mean of the complete values of all units, when ``values`` holds only some of them
+        (else taken from ``values``).
 
     Returns
     -------
@@ -114,7 +117,7 @@ def icc_contributions(values: np.ndarray) -> np.ndarray:
     out = np.zeros((x.shape[0], icc_width(x.shape[1])))
     if not ok.any():
         return out
-    xc = x[ok] - float(np.mean(x[ok]))
+    xc = x[ok] - (float(np.mean(x[ok])) if centre is None else centre)
     t = xc.sum(axis=1)
     out[ok, _N] = 1.0
     out[ok, _T] = t

@@ -12,6 +12,7 @@ unit incomplete), so the result does not depend on coders of other variables.
 from __future__ import annotations
 
 from collections.abc import Callable
+from dataclasses import dataclass
 from itertools import combinations
 from typing import Protocol
 
@@ -36,16 +37,33 @@ class _Adds(Protocol):
     def add(self, block: np.ndarray) -> int | slice: ...
 
 
-def numeric_values(x: np.ndarray, values: np.ndarray) -> np.ndarray:
+@dataclass(frozen=True)
+class NumericFacts:
+    """What :func:`add_numeric` needs to know of all of a project's units when it is given only
+    some of them (a partition of the dask engine): the units with every coder's value and the
+    mean of their values (the centre of the ANOVA sums), the coder pairs with two or more units
+    in common, and the mean of all the numbers (the centre of Lin's sums)."""
+
+    complete_units: int
+    complete_centre: float
+    pairs: tuple[tuple[int, int], ...]
+    centre: float
+
+
+def numeric_values(x: np.ndarray, values: np.ndarray, keep_all: bool = False) -> np.ndarray:
     """Units x coders numbers from value indices into ``values`` (``-1``: no value -> ``nan``),
-    keeping only coders who gave the variable at least one value."""
+    keeping only coders who gave the variable at least one value (every coder: ``keep_all``)."""
     domain = np.asarray(values, dtype=float)
     out = np.where(x >= 0, domain[np.maximum(x, 0)] if len(domain) else np.nan, np.nan)
+    if keep_all:
+        return out
     used = np.isfinite(out).any(axis=0)
     return out[:, used]
 
 
-def add_numeric(b: _Adds, numbers: np.ndarray) -> dict[str, Formula]:
+def add_numeric(
+    b: _Adds, numbers: np.ndarray, facts: NumericFacts | None = None
+) -> dict[str, Formula]:
     """Add the contributions of the six ICC forms and of Lin's rho_c to builder ``b``.
 
     Parameters
@@ -54,6 +72,9 @@ def add_numeric(b: _Adds, numbers: np.ndarray) -> dict[str, Formula]:
         A plan builder (``add(block)`` returns the column or columns given to the block).
     numbers
         Units x coders numbers, ``nan`` where a coder gave no value (see :func:`numeric_values`).
+    facts
+        The project's facts when ``numbers`` holds only some of its units (else taken from
+        ``numbers``).
 
     Returns
     -------
@@ -63,18 +84,23 @@ def add_numeric(b: _Adds, numbers: np.ndarray) -> dict[str, Formula]:
     """
     k = numbers.shape[1]
     formulas: dict[str, Formula] = {}
-    if k >= 2 and int(complete_rows(numbers).sum()) >= 2:
-        cols = b.add(icc_contributions(numbers))
+    complete = int(complete_rows(numbers).sum()) if facts is None else facts.complete_units
+    if k >= 2 and complete >= 2:
+        centre = None if facts is None else facts.complete_centre
+        cols = b.add(icc_contributions(numbers, centre))
         for form in ICC_FORMS:
             formulas[form] = lambda s, form=form: icc_from_sums(s[:, cols], k, form)
     else:
         # Fewer than two complete units: every form is undefined; no columns are needed.
         for form in ICC_FORMS:
             formulas[form] = _undefined
-    pairs = pairs_with_common_units(numbers)
+    pairs = pairs_with_common_units(numbers) if facts is None else list(facts.pairs)
     if pairs and len(pairs) <= MAX_BOOTSTRAP_PAIRS:
-        finite = numbers[np.isfinite(numbers)]
-        centre = float(np.mean(finite)) if finite.size else 0.0
+        if facts is None:
+            finite = numbers[np.isfinite(numbers)]
+            centre = float(np.mean(finite)) if finite.size else 0.0
+        else:
+            centre = facts.centre
         pair_cols = [
             b.add(ccc_contributions(numbers[:, i], numbers[:, j], centre)) for i, j in pairs
         ]

@@ -42,7 +42,7 @@ from coderel.stats.counts import (
     value_counts,
     values_per_unit,
 )
-from coderel.stats.numeric_plan import add_numeric, numeric_values
+from coderel.stats.numeric_plan import NumericFacts, add_numeric, numeric_values
 from coderel.stats.packed import Packed, pack
 from coderel.stats.pair_tables import div as _div
 from coderel.stats.pair_tables import light_from_tables, light_leave_one_out, pair_tables
@@ -94,6 +94,19 @@ class Plan:
         """A coefficient on the full sample (all unit weights 1); ``nan`` when undefined."""
         total = column_sums(self.contributions)[None, :]
         return float(self.formulas[name](total)[0])
+
+
+@dataclass(frozen=True)
+class ProjectFacts:
+    """What a plan built on some of a project's units (a partition, on a worker of the dask
+    engine, :mod:`coderel.engine.plans`) needs to know of all of them, so that its columns and
+    formulas are those of the whole project's plan: the number of units (the sparse choice),
+    Fleiss' number of values m (:func:`coderel.stats.counts.fleiss_units`; 0 when no unit has
+    two) and, for numbers, :class:`NumericFacts`."""
+
+    n_units: int
+    fleiss_m: int
+    numeric: NumericFacts | None = None
 
 
 #: A plan whose coder-pair columns would hold more numbers than this over all units keeps its
@@ -316,11 +329,14 @@ def _cohen(p: _PairSlices) -> Formula:
     return f
 
 
-def categorical_plan(x: np.ndarray, scale: Scale, *, icc_ordinal: bool = False) -> Plan:
+def categorical_plan(
+    x: np.ndarray, scale: Scale, *, icc_ordinal: bool = False, facts: ProjectFacts | None = None
+) -> Plan:
     """All coefficients of a single-choice categorical variable (nominal or ordinal).
 
     With ``icc_ordinal`` an ordinal variable also gets the intraclass correlations and Lin's
-    coefficient on its category positions 1, 2, ... in codebook order.
+    coefficient on its category positions 1, 2, ... in codebook order. ``facts``: the whole
+    project's facts when ``x`` holds only some of its units.
     """
     b = _Builder(x.shape[0])
     k, n_coders = scale.size, x.shape[1]
@@ -329,7 +345,7 @@ def categorical_plan(x: np.ndarray, scale: Scale, *, icc_ordinal: bool = False) 
         "krippendorff_alpha": add_alpha(b, x, scale),
     }
     if icc_ordinal and scale.ordinal:
-        f.update(add_numeric(b, numeric_values(x, np.arange(1.0, k + 1.0))))
+        f.update(_numeric(b, x, np.arange(1.0, k + 1.0), facts))
     w_gwet = KA.agreement_weights(k, "gwet-ordinal")
     weights: dict[str, np.ndarray] = {}
     if scale.ordinal:
@@ -342,7 +358,7 @@ def categorical_plan(x: np.ndarray, scale: Scale, *, icc_ordinal: bool = False) 
     m = counts.sum(axis=1)
 
     # Fleiss (1971) on the units with the most common number of values (same m, any coders).
-    modal, m_fleiss = fleiss_units(x)
+    modal, m_fleiss = fleiss_units(x) if facts is None else _modal(m, facts.fleiss_m)
     s_fc = b.add(modal.astype(float))
     s_fn = b.add(counts * modal[:, None])
     s_fq = b.add((counts**2).sum(axis=1) * modal)
@@ -358,7 +374,8 @@ def categorical_plan(x: np.ndarray, scale: Scale, *, icc_ordinal: bool = False) 
                 f[f"weighted_kappa_{name}"] = lambda s, w=w, col=col, p=p: KA.weighted_from_margins(
                     _div(s[:, col], s[:, p.both]), *_pair_parts(s, p)[1:], w
                 )
-    thin = n_coders > 2 and len(pairs) * (2 * k + 2) * x.shape[0] > SPARSE_PAIR_CELLS
+    n_units = x.shape[0] if facts is None else facts.n_units
+    thin = n_coders > 2 and len(pairs) * (2 * k + 2) * n_units > SPARSE_PAIR_CELLS
     if thin:  # pair tables, sparse, after every dense column (added below)
         f["light_kappa"] = _undefined
     elif n_coders > 2:
@@ -401,6 +418,18 @@ def categorical_plan(x: np.ndarray, scale: Scale, *, icc_ordinal: bool = False) 
     return Plan(b.contributions(), f, leave_one_out)
 
 
+def _modal(m: np.ndarray, m_fleiss: int) -> tuple[np.ndarray, int]:
+    """Fleiss' units given the project's m (as :func:`fleiss_units` finds it over all units)."""
+    return (m == m_fleiss) if m_fleiss > 0 else np.zeros(len(m), dtype=bool), m_fleiss
+
+
+def _numeric(b: _Builder, x: np.ndarray, values: np.ndarray, facts: ProjectFacts | None):
+    """The ICC and Lin's columns of numbers ``values[x]`` (of the project's facts, if given)."""
+    if facts is None:
+        return add_numeric(b, numeric_values(x, values))
+    return add_numeric(b, numeric_values(x, values, keep_all=True), facts.numeric)
+
+
 def _on_thin(values: Callable[[Any], np.ndarray]) -> Callable[[MixedColumns], np.ndarray]:
     return lambda own: values(own.thin)
 
@@ -409,21 +438,24 @@ def _undefined(s: np.ndarray) -> np.ndarray:
     return np.full(s.shape[0], np.nan)
 
 
-def value_plan(x: np.ndarray, scale: Scale) -> Plan:
+def value_plan(x: np.ndarray, scale: Scale, facts: ProjectFacts | None = None) -> Plan:
     """Percent agreement and alpha of a numeric or multi-select variable; for numbers also the
     intraclass correlations and Lin's coefficient (:mod:`coderel.stats.numeric_plan`)."""
     b = _Builder(x.shape[0])
     f = {"percent_agreement": add_percent(b, x), "krippendorff_alpha": add_alpha(b, x, scale)}
     if scale.kind == "numeric":
-        f.update(add_numeric(b, numeric_values(x, np.asarray(scale.values, dtype=float))))
+        f.update(_numeric(b, x, np.asarray(scale.values, dtype=float), facts))
     return Plan(b.contributions(), f)
 
 
-def build_plan(x: np.ndarray, scale: Scale, *, icc_ordinal: bool = False) -> Plan:
-    """The plan of every coefficient that applies to a variable of this scale."""
+def build_plan(
+    x: np.ndarray, scale: Scale, *, icc_ordinal: bool = False, facts: ProjectFacts | None = None
+) -> Plan:
+    """The plan of every coefficient that applies to a variable of this scale (``facts``: the
+    whole project's, when ``x`` holds only some of its units)."""
     if scale.kind == "categorical":
-        return categorical_plan(x, scale, icc_ordinal=icc_ordinal)
-    return value_plan(x, scale)
+        return categorical_plan(x, scale, icc_ordinal=icc_ordinal, facts=facts)
+    return value_plan(x, scale, facts)
 
 
 def alpha_point(x: np.ndarray, scale: Scale) -> float:
