@@ -2,8 +2,10 @@
 engine on a partitioned dataset.
 
 Generates, with a seed, a long table on the demo codebook (10 variables of every level, a
-multi-select and a conditional variable, 4 coders, ~33 labels per unit; tests/engine_data.py)
-written as Parquet parts partitioned by unit, part by part (memory bounded by one part). Then
+multi-select and a conditional variable, 4 coders, ~33 labels per unit; tests/engine_data.py),
+or with ``--design c`` on set c's codebook of benchmarks/bench_scale.py (3 coders x 30 nominal,
+ordinal and ratio variables, 5% of cells blank, ~85 labels per unit; for 100M labels), written as
+Parquet parts partitioned by unit, part by part (memory bounded by one part). Then
 runs each command (``agree --json``, ``merge -o merged.parquet``, ``report --json``) in a fresh
 process with the default engine and with ``--engine dask --scheduler`` on a local cluster of 2
 worker processes (one thread each, 127.0.0.1) started here for that command, and prints wall
@@ -41,6 +43,57 @@ def _size(text: str) -> int:
     text = text.strip().upper()
     scale = {"K": 10**3, "M": 10**6}.get(text[-1], 1)
     return int(float(text.rstrip("KM")) * scale)
+
+
+#: Units per part of design c (~427,000 rows a part).
+C_UNITS_PER_PART = 5_000
+
+
+def generate_c(labels: int, folder: Path) -> tuple[Path, int]:
+    """Design c in parts of ``C_UNITS_PER_PART`` units (each part's numbers drawn as
+    benchmarks/bench_scale.py draws set c's, seeded by the part); the codebook is written beside
+    the data folder. Return the codebook and the number of labels written."""
+    import numpy as np
+    import pyarrow as pa
+
+    sys.path.insert(0, str(Path(__file__).resolve().parent))
+    from bench_scale import SETS, _codebook
+
+    from coderel.codebook.frictionless import write_codebook_yaml
+
+    spec = SETS["c"]
+    cb = _codebook(spec)
+    folder.mkdir(parents=True, exist_ok=True)
+    cb_path = write_codebook_yaml(cb, folder.parent / "codebook.yaml")
+    n_coders = spec["coders"]
+    per_unit = n_coders * len(cb.variables) * 0.95
+    units = max(1, round(labels / per_unit))
+    written = 0
+    for part, first in enumerate(range(0, units, C_UNITS_PER_PART)):
+        n = min(C_UNITS_PER_PART, units - first)
+        rng = np.random.default_rng([14, part])
+        unit = np.repeat(np.arange(first, first + n), n_coders)
+        coder = np.tile(np.arange(n_coders), n)
+        tables = []
+        for var in cb.variables:
+            truth = rng.integers(1, 6, n)
+            noise = rng.random(len(unit)) < 0.2
+            values = np.where(noise, rng.integers(1, 6, len(unit)), truth[unit - first])
+            keep = rng.random(len(unit)) >= 0.05
+            tables.append(
+                pa.table(
+                    {
+                        "unit": pa.array(np.char.add("u", unit[keep].astype(str))),
+                        "coder": pa.array(np.char.add("coder", coder[keep].astype(str))),
+                        "variable": pa.array(np.full(int(keep.sum()), var.name)),
+                        "value": pa.array(values[keep]),
+                    }
+                )
+            )
+        table = pa.concat_tables(tables)
+        pq.write_table(table, folder / f"part-{part:04d}.parquet")
+        written += table.num_rows
+    return cb_path, written
 
 
 def generate(labels: int, folder: Path) -> int:
@@ -95,6 +148,7 @@ def main() -> None:
     parser.add_argument("--skip-local", action="store_true")
     parser.add_argument("--commands", default="agree", help="e.g. agree,merge,report")
     parser.add_argument("--keep", type=Path, default=None, help="folder to keep data in")
+    parser.add_argument("--design", choices=("demo", "c"), default="demo")
     opts = parser.parse_args()
     coderel = str(Path(sys.executable).with_name("coderel"))
     root = opts.keep or Path(tempfile.mkdtemp(prefix="coderel-engine-"))
@@ -102,21 +156,28 @@ def main() -> None:
     for size in opts.labels.split(","):
         folder = root / size / "data"
         started = time.perf_counter()
-        labels = generate(_size(size), folder)
+        if opts.design == "c":
+            codebook, labels = generate_c(_size(size), folder)
+        else:
+            codebook, labels = CODEBOOK, generate(_size(size), folder)
         print(f"{labels:>12,}  {'(data)':16}{time.perf_counter() - started:>9.1f}", flush=True)
         for command in opts.commands.split(","):
-            _compare_engines(coderel, command, folder, labels, root / size, opts)
+            _compare_engines(coderel, command, codebook, folder, labels, root / size, opts)
 
 
-def _command(coderel: str, command: str, folder: Path, out: Path, replicates: int) -> list[str]:
-    args = [coderel, command, "-c", str(CODEBOOK), str(folder)]
+def _command(
+    coderel: str, command: str, codebook: Path, folder: Path, out: Path, replicates: int
+) -> list[str]:
+    args = [coderel, command, "-c", str(codebook), str(folder)]
     if command == "merge":
         return [*args, "-o", str(out)]
     args += ["--replicates", str(replicates), "--json"]
     return [*args, "--date", "2026-12-03"] if command == "report" else args
 
 
-def _compare_engines(coderel: str, command: str, folder: Path, labels: int, root: Path, opts):
+def _compare_engines(
+    coderel: str, command: str, codebook: Path, folder: Path, labels: int, root: Path, opts
+):
     from coderel.engine.cluster import connect
 
     form = ".parquet" if command == "merge" else ".json"
@@ -124,7 +185,7 @@ def _compare_engines(coderel: str, command: str, folder: Path, labels: int, root
     name = f"{command} {{}}"
     if not opts.skip_local:
         out = root / f"{command}-local{form}"
-        base = _command(coderel, command, folder, out, opts.replicates)
+        base = _command(coderel, command, codebook, folder, out, opts.replicates)
         wall, peak, code = run(base, root / f"{command}-local.stdout" if form != ".json" else out)
         outputs["local"] = out
         shown = name.format("local")
@@ -132,7 +193,7 @@ def _compare_engines(coderel: str, command: str, folder: Path, labels: int, root
     # the engine's own local cluster (2 worker processes on loopback), reached from a fresh process
     with connect(None, workers=2) as client:
         out = root / f"{command}-dask{form}"
-        args = _command(coderel, command, folder, out, opts.replicates)
+        args = _command(coderel, command, codebook, folder, out, opts.replicates)
         args += ["--engine", "dask", "--scheduler", client.scheduler.address]
         wall, peak, code = run(args, root / f"{command}-dask.stdout" if form != ".json" else out)
         outputs["dask"] = out

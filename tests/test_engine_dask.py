@@ -37,8 +37,23 @@ _cluster = pytest.fixture(scope="module", name="cluster")(local_cluster)
 _dataset = pytest.fixture(scope="module", name="dataset")(engine_dataset)
 
 
+def _client_plans(monkeypatch) -> list[int]:
+    """The number of units of every plan built in this process (the client) from now on."""
+    import coderel.stats.plan as plan_module
+
+    built: list[int] = []
+    real = plan_module.build_plan
+
+    def spy(x, *args, **kwargs):
+        built.append(x.shape[0])
+        return real(x, *args, **kwargs)
+
+    monkeypatch.setattr(plan_module, "build_plan", spy)
+    return built
+
+
 @pytest.mark.parametrize("layout", ["unit", "coder", "variable"])
-def test_dask_engine_gives_the_in_process_numbers(cluster, dataset, layout):
+def test_dask_engine_gives_the_in_process_numbers(cluster, dataset, layout, monkeypatch):
     from coderel.agree import agreement
     from coderel.engine.agree import agreement_on_cluster
     from coderel.io.read import read_codings
@@ -47,10 +62,14 @@ def test_dask_engine_gives_the_in_process_numbers(cluster, dataset, layout):
     folder = dataset[layout]
     codings = read_codings(cb, [folder])
     local = agreement(codings, replicates=400, seed=5, icc_ordinal=True, memory=2**20)
+    built = _client_plans(monkeypatch)
     with distributed.Client(cluster) as client:
         run = agreement_on_cluster(
             client, cb, [folder], replicates=400, seed=5, icc_ordinal=True, memory=2**20
         )
+    # the plans over units are built on the workers; the client builds only their formulas
+    assert len(built) == len(run.result.variables)
+    assert max(built) == 0
     assert run.labels == len(codings.frame) > 30_000
     # by unit: one partition per file; else the rows repartitioned by a hash of the unit ID
     assert run.partitions == {"unit": 5, "coder": 4, "variable": 10}[layout]
@@ -61,6 +80,24 @@ def test_dask_engine_gives_the_in_process_numbers(cluster, dataset, layout):
     # the intervals are there to compare: most coefficients have one
     alpha = [v.coefficients["krippendorff_alpha"] for v in run.result.variables]
     assert sum(a is not None and a.ci is not None for a in alpha) >= 10
+
+
+@pytest.mark.parametrize(("method", "replicates"), [("percentile", 300), ("bca", 0)])
+def test_percentile_intervals_and_no_replicates_match_too(cluster, dataset, method, replicates):
+    from coderel.agree import agreement
+    from coderel.engine.agree import agreement_on_cluster
+    from coderel.io.read import read_codings
+
+    cb = load_codebook(CODEBOOK)
+    folder = dataset["unit"]
+    settings = {"replicates": replicates, "seed": 9, "interval_method": method}
+    local = agreement(read_codings(cb, [folder]), **settings)
+    with distributed.Client(cluster) as client:
+        run = agreement_on_cluster(client, cb, [folder], **settings)
+    compare(local.to_dict(pairs=True), run.result.to_dict(pairs=True))
+    alpha = [v.coefficients["krippendorff_alpha"] for v in run.result.variables]
+    with_ci = sum(a is not None and a.ci is not None for a in alpha)
+    assert with_ci >= 10 if replicates else with_ci == 0
 
 
 def test_agree_command_on_a_scheduler_matches_the_default_engine(cluster, dataset):

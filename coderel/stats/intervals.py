@@ -83,7 +83,7 @@ def acceleration(jackknife: np.ndarray | JackknifeSums) -> float:
     if isinstance(jackknife, JackknifeSums):
         return jackknife.acceleration()
     jack = _finite(jackknife)
-    if jack.size < 3:
+    if jack.size < 3 or np.all(jack == jack[0]):  # equal values: no skew (not rounding noise)
         return 0.0
     diff = jack.mean() - jack
     den = 6.0 * float((diff**2).sum()) ** 1.5

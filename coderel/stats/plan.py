@@ -207,7 +207,27 @@ def column_sums(contributions: Any) -> np.ndarray:
         return contributions.column_sums()
     if sparse.issparse(contributions):
         return np.asarray(contributions.sum(axis=0)).ravel()
-    return contributions.sum(axis=0)
+    return dense_column_sums(contributions)
+
+
+#: Units per block of :func:`dense_column_sums`.
+_SUM_ROWS = 4096
+
+
+def dense_column_sums(d: np.ndarray) -> np.ndarray:
+    """Column sums of units x M numbers by pairwise summation over the units (numpy's, on each
+    block's transposed copy, then over the blocks' sums; Higham 1993, *SIAM J. Sci. Comput.*
+    14(4), 783-799): the rounding error grows with log(units), not with units as in a row-by-row
+    sum, so the same numbers summed part by part (the dask engine's partitions) agree to about
+    1e-16 relative."""
+    n, m = d.shape
+    if n <= _SUM_ROWS:
+        return np.ascontiguousarray(d.T).sum(axis=1, dtype=np.float64)
+    partial = np.empty((m, -(-n // _SUM_ROWS)))
+    for j, start in enumerate(range(0, n, _SUM_ROWS)):
+        block = np.ascontiguousarray(d[start : start + _SUM_ROWS].T)
+        partial[:, j] = block.sum(axis=1, dtype=np.float64)
+    return partial.sum(axis=1)
 
 
 def _domain_distance(scale: Scale):
