@@ -65,8 +65,8 @@ class Packed:
         raise NotImplementedError
 
     def column_sums(self) -> np.ndarray:
-        """``toarray().sum(axis=0)``: the same float64 sums as the unpacked array."""
-        return self.toarray().sum(axis=0)
+        """The column sums of ``toarray()`` (:func:`dense_column_sums`)."""
+        return dense_column_sums(self.toarray())
 
     def __rmatmul__(self, w: np.ndarray) -> np.ndarray:
         return w @ self.toarray()
@@ -150,6 +150,26 @@ class TypedColumns(Packed):
         return self.total.copy() if self.total is not None else super().column_sums()
 
 
+#: Units per block of :func:`dense_column_sums`.
+_SUM_ROWS = 4096
+
+
+def dense_column_sums(d: np.ndarray) -> np.ndarray:
+    """Column sums of units x M numbers by pairwise summation over the units (numpy's, on each
+    block's transposed copy, then over the blocks' sums; Higham 1993, *SIAM J. Sci. Comput.*
+    14(4), 783-799): the rounding error grows with log(units), not with units as in a row-by-row
+    sum, so the same numbers summed part by part (the dask engine's partitions) agree to about
+    1e-16 relative."""
+    n, m = d.shape
+    if n <= _SUM_ROWS:
+        return np.ascontiguousarray(d.T).sum(axis=1, dtype=np.float64)
+    partial = np.empty((m, -(-n // _SUM_ROWS)))
+    for j, start in enumerate(range(0, n, _SUM_ROWS)):
+        block = np.ascontiguousarray(d[start : start + _SUM_ROWS].T)
+        partial[:, j] = block.sum(axis=1, dtype=np.float64)
+    return partial.sum(axis=1)
+
+
 def as_array(columns: Any) -> Any:
     """Float64 rows of packed columns; any other array as it is."""
     return columns.toarray() if isinstance(columns, Packed) else columns
@@ -166,7 +186,7 @@ def pack(dense: np.ndarray) -> Packed:
     """
     dense = np.ascontiguousarray(dense, dtype=float)
     n, m = dense.shape
-    total = dense.sum(axis=0)
+    total = dense_column_sums(dense)
     bits = dense.view(np.uint64)
     _, first, codes = np.unique(_row_keys(bits), return_index=True, return_inverse=True)
     typed = None

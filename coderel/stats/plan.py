@@ -43,7 +43,7 @@ from coderel.stats.counts import (
     values_per_unit,
 )
 from coderel.stats.numeric_plan import NumericFacts, add_numeric, numeric_values
-from coderel.stats.packed import Packed, pack
+from coderel.stats.packed import Packed, dense_column_sums, pack
 from coderel.stats.pair_tables import div as _div
 from coderel.stats.pair_tables import light_from_tables, light_leave_one_out, pair_tables
 from coderel.stats.pair_tables import nanmean_rows as _nanmean_rows
@@ -208,26 +208,6 @@ def column_sums(contributions: Any) -> np.ndarray:
     if sparse.issparse(contributions):
         return np.asarray(contributions.sum(axis=0)).ravel()
     return dense_column_sums(contributions)
-
-
-#: Units per block of :func:`dense_column_sums`.
-_SUM_ROWS = 4096
-
-
-def dense_column_sums(d: np.ndarray) -> np.ndarray:
-    """Column sums of units x M numbers by pairwise summation over the units (numpy's, on each
-    block's transposed copy, then over the blocks' sums; Higham 1993, *SIAM J. Sci. Comput.*
-    14(4), 783-799): the rounding error grows with log(units), not with units as in a row-by-row
-    sum, so the same numbers summed part by part (the dask engine's partitions) agree to about
-    1e-16 relative."""
-    n, m = d.shape
-    if n <= _SUM_ROWS:
-        return np.ascontiguousarray(d.T).sum(axis=1, dtype=np.float64)
-    partial = np.empty((m, -(-n // _SUM_ROWS)))
-    for j, start in enumerate(range(0, n, _SUM_ROWS)):
-        block = np.ascontiguousarray(d[start : start + _SUM_ROWS].T)
-        partial[:, j] = block.sum(axis=1, dtype=np.float64)
-    return partial.sum(axis=1)
 
 
 def _domain_distance(scale: Scale):
