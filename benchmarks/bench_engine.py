@@ -156,7 +156,10 @@ def main() -> None:
     for size in opts.labels.split(","):
         folder = root / size / "data"
         started = time.perf_counter()
-        if opts.design == "c":
+        if opts.design == "c" and opts.keep and (folder.parent / "codebook.yaml").exists():
+            codebook = folder.parent / "codebook.yaml"  # kept from an earlier run
+            labels = sum(pq.read_metadata(f).num_rows for f in folder.glob("*.parquet"))
+        elif opts.design == "c":
             codebook, labels = generate_c(_size(size), folder)
         else:
             codebook, labels = CODEBOOK, generate(_size(size), folder)

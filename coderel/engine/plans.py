@@ -316,11 +316,13 @@ def part_jackknife(
 
 def add_in_order(client: Any, futures: list) -> Any:
     """The sum of the futures' results, added pairwise in a binary tree of a fixed shape (on the
-    workers): the same order of additions whatever order the tasks finish in."""
+    workers): the same order of additions whatever order the tasks finish in. The additions go
+    before any other task (priority), so that a worker holds a few partitions' sums at a time,
+    not every partition's."""
     level = list(futures)
     while len(level) > 1:
         nxt = [
-            client.submit(_add, level[i], level[i + 1], pure=False)
+            client.submit(_add, level[i], level[i + 1], pure=False, priority=1)
             for i in range(0, len(level) - 1, 2)
         ]
         if len(level) % 2:
