@@ -35,11 +35,17 @@ class ClusterRun:
 
 
 def _wait(futures: list, done: Callable[[int, int], None]) -> None:
-    """Report each future as it completes (its result stays on the worker)."""
+    """Report each future as it completes, and drop it (the list is emptied): its result stays
+    on its worker only until the additions that need it have run, so a worker does not keep
+    every partition's R x M sums."""
     from distributed import as_completed
 
-    for count, _ in enumerate(as_completed(futures), 1):
-        done(count, len(futures))
+    total = len(futures)
+    pending = as_completed(futures)
+    futures.clear()
+    for count, fut in enumerate(pending, 1):
+        fut.release()
+        done(count, total)
 
 
 def _in_order(futures: list, done: Callable[[int, int], None] | None = None) -> list:
