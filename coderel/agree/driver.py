@@ -153,9 +153,9 @@ def agreement_of_targets(
     the same code for every engine.
     """
     check_settings(replicates, seed, ci_level, interval_method, bootstrap)
-    # Each row over the coders who coded it (a coder of other variables is not one of them).
-    targets = [t.own() for t in targets]
-    plans = [build_plan(t.x, t.scale, icc_ordinal=icc_ordinal) for t in targets]
+    # Each row over the coders who coded it (a coder of other variables is not one of them), in
+    # 64-bit indices made one row at a time (rows may be stored in smaller integers).
+    plans = [build_plan(t.own().x, t.scale, icc_ordinal=icc_ordinal) for t in targets]
     n_rows = len(plans)
     steps = [0]  # steps of the bootstrap, then one per variable's row
 
@@ -174,7 +174,8 @@ def agreement_of_targets(
             "units; use fewer replicates (2,000 are usual; 0 gives no intervals)"
         ) from None
     rows = []
-    for t, evaluated in zip(targets, evaluated_all, strict=True):
+    for stored, evaluated in zip(targets, evaluated_all, strict=True):
+        t = stored.own()
         rows.append(agreement_row(t, evaluated, ci_level, interval_method, icc_ordinal, units))
         report(progress, steps[0] + len(rows), steps[0] + n_rows, "intervals per variable")
     return AgreementResult(

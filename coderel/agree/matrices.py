@@ -33,7 +33,9 @@ class Target:
     coders: tuple[str, ...] = ()
 
     def own(self) -> Target:
-        """This row with only the coders who gave it at least one value.
+        """This row with only the coders who gave it at least one value, its matrix in 64-bit
+        value indices (what the statistics take; a row may be stored in smaller integers,
+        :func:`compact`).
 
         A coder with no value for a variable is not a coder of it: which formulas apply (Cohen's
         kappa for two coders, Light's for more) and every coefficient depend only on the coders
@@ -41,8 +43,11 @@ class Target:
         """
         keep = np.flatnonzero((self.x >= 0).any(axis=0))
         if len(keep) == self.x.shape[1]:
-            return self  # every coder gave a value: no copy of the matrix
-        return replace(self, x=self.x[:, keep], coders=tuple(self.coders[i] for i in keep))
+            if self.x.dtype == np.int64:
+                return self  # every coder gave a value: no copy of the matrix
+            return replace(self, x=self.x.astype(np.int64))
+        x = self.x[:, keep].astype(np.int64, copy=False)
+        return replace(self, x=x, coders=tuple(self.coders[i] for i in keep))
 
 
 @dataclass(frozen=True)
@@ -184,18 +189,32 @@ def build_targets(codings: Codings, coders: list[str], units: list[str]) -> list
     return targets_from_index(codings.codebook, build_index(codings, coders, units), coders, units)
 
 
+def compact(x: np.ndarray) -> np.ndarray:
+    """Value indices (-1: none) in the smallest signed integer type that holds them: 1 byte per
+    cell for up to 127 categories instead of 8. Storage only: the statistics take
+    :meth:`Target.own`'s 64-bit indices (their arithmetic on indices is not checked for
+    overflow in smaller types)."""
+    top = int(x.max()) if x.size else 0
+    for kind in (np.int8, np.int16, np.int32):
+        if top <= np.iinfo(kind).max:
+            return x.astype(kind)
+    return x
+
+
 def targets_from_index(
-    cb: Codebook, ix: UnitIndex, coders: list[str], units: list[str]
+    cb: Codebook, ix: UnitIndex, coders: list[str], units: list[str], *, stored: bool = False
 ) -> list[Target]:
-    """The rows to compute from the long table's :class:`UnitIndex`."""
+    """The rows to compute from the long table's :class:`UnitIndex`; with ``stored`` each
+    matrix is kept :func:`compact` as soon as it is made (rows held through a bootstrap)."""
     n_units, n_coders = len(units), len(coders)
+    keep = compact if stored else (lambda m: m)
     matrices: dict[str, tuple[np.ndarray, Scale, np.ndarray | None]] = {}
     for var in cb.variables:
         x, scale = value_matrix(ix, var, n_units, n_coders)
         xa = None
         if var.applies_when is not None:
-            xa = applicability_matrix(ix, var, n_units, n_coders)
-        matrices[var.name] = (x, scale, xa)
+            xa = keep(applicability_matrix(ix, var, n_units, n_coders))
+        matrices[var.name] = (keep(x), scale, xa)
     return targets_of(cb, coders, matrices)
 
 

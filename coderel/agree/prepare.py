@@ -24,8 +24,10 @@ class Prepared:
     """Everything agreement needs from the long table, without the table.
 
     ``targets`` are the rows to compute (:func:`coderel.agree.matrices.build_targets`), over
-    ``units`` and ``coders`` in natural order; ``single_coded_units`` counts the units that one
-    coder only coded (:meth:`coderel.codings.Codings.single_coded_units`).
+    ``units`` and ``coders`` in natural order, their matrices stored in the smallest integers
+    that hold them (:func:`coderel.agree.matrices.compact`; :meth:`Target.own` gives the 64-bit
+    form the statistics take); ``single_coded_units`` counts the units that one coder only coded
+    (:meth:`coderel.codings.Codings.single_coded_units`).
     """
 
     codebook: Codebook
@@ -39,7 +41,7 @@ def prepare(codings: Codings) -> Prepared:
     """The rows to compute, units, coders and single-coded units of ``codings``."""
     coders, units = codings.coders, codings.units
     ix = build_index(codings, coders, units)
-    targets = targets_from_index(codings.codebook, ix, coders, units)
+    targets = targets_from_index(codings.codebook, ix, coders, units, stored=True)
     single = _single_coded_units(ix, len(units), len(coders))
     return Prepared(codings.codebook, tuple(targets), units, coders, single)
 
