@@ -19,12 +19,12 @@ from hypothesis import strategies as st
 from coderel.adjudicate import Decision, classify
 from coderel.adjudicate.cell_table import KINDS, cell_table
 from coderel.adjudicate.rules import Settling
-from coderel.adjudicate.tokens import _as_code, token_of
 from coderel.codebook import Category, Codebook, MissingCode, Variable
 from coderel.codings import Codings
 from coderel.merge import merge
 from coderel.merge.cells import decide_cell
 from coderel.merge.settlement import cell_grid, settle_variable
+from tests.token_oracle import tokens_row_by_row
 
 CB = Codebook(
     title="cell table test (invented)",
@@ -76,29 +76,12 @@ def _codings(rows) -> Codings:
     return Codings.from_records(CB, records)
 
 
-def _tokens_cell_by_cell(codings: Codings) -> dict:
-    """Each cell's tokens by their definition, one row at a time, cells by their first row."""
-    cb = codings.codebook
-    cells: dict = {}
-    for row in codings.frame.itertuples(index=False):
-        if row.variable not in cb:
-            continue
-        var = cb.variable(row.variable)
-        token = token_of(row.value, row.missing, row.applies)
-        if token[0] == "missing":
-            token = ("missing", _as_code(var, token[1], var.missing_codes))
-        elif token[0] == "value" and isinstance(token[1], float) and var.is_categorical:
-            token = ("value", _as_code(var, token[1], var.codes))
-        cells.setdefault((row.unit, row.variable), {})[row.coder] = token
-    return cells
-
-
 @settings(max_examples=150, deadline=None)
 @given(_rows)
 def test_kinds_and_tokens_match_classify_cell_by_cell(rows):
     codings = _codings(rows)
     table = cell_table(codings)
-    oracle = _tokens_cell_by_cell(codings)
+    oracle = tokens_row_by_row(codings)
     assert list(zip(table.unit, table.variable, strict=True)) == list(oracle)
     for i, (key, tokens) in enumerate(oracle.items()):
         assert table.tokens(i) == tokens
@@ -121,7 +104,7 @@ def test_a_variable_settled_at_once_matches_decide_cell(rows, rule, tolerance, d
     codings = _codings(rows)
     settling = Settling(rule, tolerance)
     table = cell_table(codings)
-    oracle = _tokens_cell_by_cell(codings)
+    oracle = tokens_row_by_row(codings)
     units = sorted({u for u, *_ in rows})
     grid = cell_grid(table, units, CB.names)
     for j, var in enumerate(CB.variables):

@@ -31,6 +31,7 @@ from coderel.adjudicate import (
 from coderel.codebook.frictionless import write_codebook_yaml
 from coderel.io.read import read_codings
 from tests.test_adjudicate_order import CB, _long_table
+from tests.token_oracle import tokens_row_by_row
 
 
 @pytest.fixture(scope="module")
@@ -167,26 +168,6 @@ def test_hostile_lists_are_refused_before_any_grid_is_built(case, codings, tmp_p
     assert not out.exists()
 
 
-def _tokens_row_by_row(codings):
-    """The tokens as their definition gives them, one row at a time (:func:`token_of`, codes as
-    the codebook writes them): the oracle of :func:`cell_tokens`' fast paths."""
-    from coderel.adjudicate.tokens import _as_code, token_of
-
-    cb = codings.codebook
-    cells: dict = {}
-    for row in codings.frame.itertuples(index=False):
-        if row.variable not in cb:
-            continue
-        var = cb.variable(row.variable)
-        token = token_of(row.value, row.missing, row.applies)
-        if token[0] == "missing":
-            token = ("missing", _as_code(var, token[1], var.missing_codes))
-        elif token[0] == "value" and isinstance(token[1], float) and var.is_categorical:
-            token = ("value", _as_code(var, token[1], var.codes))
-        cells.setdefault((row.unit, row.variable), {})[row.coder] = token
-    return cells
-
-
 def test_cell_tokens_match_their_definition(codings):
     from coderel.adjudicate import cell_tokens
     from coderel.codebook.load import load_codebook
@@ -197,8 +178,8 @@ def test_cell_tokens_match_their_definition(codings):
     )  # multi-select, a conditional variable, missing codes, text
     for data in (codings, demo):
         fast = cell_tokens(data)
-        assert fast == _tokens_row_by_row(data)
+        assert fast == tokens_row_by_row(data)
         # equal is not enough: 2 and 2.0 are equal tokens but not the same code
         assert {k: {c: repr(t) for c, t in v.items()} for k, v in fast.items()} == {
-            k: {c: repr(t) for c, t in v.items()} for k, v in _tokens_row_by_row(data).items()
+            k: {c: repr(t) for c, t in v.items()} for k, v in tokens_row_by_row(data).items()
         }

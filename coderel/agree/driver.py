@@ -178,6 +178,20 @@ def agreement_of_targets(
         t = stored.own()
         rows.append(agreement_row(t, evaluated, ci_level, interval_method, icc_ordinal, units))
         report(progress, steps[0] + len(rows), steps[0] + n_rows, "intervals per variable")
+    return result_of(cb, rows, coders, replicates, seed, interval_method, ci_level, bootstrap)
+
+
+def result_of(
+    cb: Codebook,
+    rows: list,
+    coders: list[str],
+    replicates: int,
+    seed: int,
+    interval_method: str,
+    ci_level: float,
+    scheme: str,
+) -> AgreementResult:
+    """The result of every engine from its rows (:func:`agreement_row`) and settings."""
     return AgreementResult(
         tuple(rows),
         replicates,
@@ -187,7 +201,7 @@ def agreement_of_targets(
         coders=tuple(coders),
         codebook_title=str(cb.title or ""),
         codebook_version=str(cb.version or ""),
-        scheme=bootstrap,
+        scheme=scheme,
     )
 
 

@@ -127,9 +127,8 @@ def _agreement(
 ) -> AgreementResult:
     import pandas as pd
 
-    from coderel.agree.driver import agreement_row
+    from coderel.agree.driver import agreement_row, result_of
     from coderel.agree.matrices import targets_of
-    from coderel.agree.results import AgreementResult
     from coderel.engine.assemble import project_index, project_scale
     from coderel.engine.plans import (
         RowLayout,
@@ -255,14 +254,4 @@ def _agreement(
         rows.append(agreement_row(target, evaluated, ci_level, interval_method, icc_ordinal, units))
         del x, target
         report(progress, 2 * n_parts + len(rows), steps, "intervals per variable")
-    return AgreementResult(
-        tuple(rows),
-        replicates,
-        seed,
-        interval_method,
-        ci_level,
-        coders=tuple(coders),
-        codebook_title=str(cb.title or ""),
-        codebook_version=str(cb.version or ""),
-        scheme="poisson",
-    )
+    return result_of(cb, rows, coders, replicates, seed, interval_method, ci_level, "poisson")
