@@ -67,13 +67,24 @@ def write_adjudication(adjudication: Adjudication, path: str | os.PathLike[str])
     _write_workbook(adjudication, path)
 
 
-def _write_workbook(adj: Adjudication, path: str | os.PathLike[str]) -> None:
+#: The main sheet's part in the package (it is the first sheet added).
+MAIN_SHEET_PART = "xl/worksheets/sheet1.xml"
+#: The main sheet's row styles: (shaded, marked), indexed ``2 * shaded + marked``.
+_ROW_STYLES = ((False, False), (False, True), (True, False), (True, True))
+
+
+def _write_workbook(
+    adj: Adjudication, path: str | os.PathLike[str], *, splice: bool = True
+) -> None:
     """The list as a workbook, written with XlsxWriter in its constant-memory mode.
 
-    XlsxWriter streams each row to disk as it is written (a 20,000-unit list is ~650,000 cells),
-    so rows go in order, sheet by sheet. Every text cell is written as text (never read as a
-    number, formula or link) after :func:`coderel.io.tables.cell_value` neutralised it. The zip
-    members carry XlsxWriter's fixed 1980 time stamp and the properties a fixed date, so the same
+    XlsxWriter streams each row to disk as it is written, so rows go in order, sheet by sheet.
+    The main sheet's rows (a 20,000-unit list is ~650,000 cells) are put in afterwards by
+    :func:`coderel.io.xlsx_rows.splice_rows`, column by column, when every cell is a text of
+    safe length or empty (``splice=False``, or any other cell, writes them cell by cell with
+    XlsxWriter; the sheet is the same either way). Every text cell is written as text (never
+    read as a number, formula or link) after :func:`coderel.io.tables.cell_value` neutralised it.
+    The zip members carry a fixed 1980 time stamp and the properties a fixed date, so the same
     list gives the same bytes.
     """
     from xlsxwriter import Workbook
@@ -101,7 +112,7 @@ def _write_workbook(adj: Adjudication, path: str | os.PathLike[str]) -> None:
         bold = wb.add_format({"bold": True})
         ws = wb.add_worksheet(MAIN_SHEET)
         lists = wb.add_worksheet(LISTS_SHEET)
-        _main_sheet(wb, ws, adj, headers, bold)
+        spliced = _main_sheet(wb, ws, adj, headers, bold, splice=splice)
         _lists_sheet(wb, ws, lists, cb, ranges)
         _protect(ws)
         _frame_sheet(wb, wb.add_worksheet(SUMMARY_SHEET), adj.summary(), bold, width=30)
@@ -111,6 +122,11 @@ def _write_workbook(adj: Adjudication, path: str | os.PathLike[str]) -> None:
         _frame_sheet(wb, wb.add_worksheet(RETIRED_SHEET), frame, bold, width=40)
         _frame_sheet(wb, wb.add_worksheet(ABOUT_SHEET), _about(adj), bold, width=80)
         wb.close()
+        if spliced is not None:
+            from coderel.io.xlsx_rows import splice_rows
+
+            columns, row_probes = spliced
+            splice_rows(tmp, MAIN_SHEET_PART, columns, row_probes, probes=max(row_probes) + 1)
 
 
 def _shown_column(values: list[Any]) -> list[Any]:
@@ -191,10 +207,19 @@ def _main_columns_cells(adj: Adjudication, headers: list[str]) -> list[list[Any]
     return [_shown_column(column) for column in columns]
 
 
-def _main_sheet(wb: Any, ws: Any, adj: Adjudication, headers: list[str], bold: Any) -> None:
+def _main_sheet(
+    wb: Any, ws: Any, adj: Adjudication, headers: list[str], bold: Any, *, splice: bool
+) -> tuple[list[list[Any]], list[int]] | None:
     """The rows to decide: the adjudicator's columns unlocked, rows shaded by unit, decisions
-    waiting to be re-confirmed marked, text columns wrapped."""
+    waiting to be re-confirmed marked, text columns wrapped.
+
+    With ``splice`` and cells that allow it, only one probe row per row style is written here,
+    and the columns and each row's probe row are returned for
+    :func:`coderel.io.xlsx_rows.splice_rows` to put in once the workbook is closed; else every
+    cell is written here and ``None`` returned.
+    """
     from coderel.io.tables import cell_value
+    from coderel.io.xlsx_rows import splice_ready
 
     for j, h in enumerate(headers):
         _write_cell(ws, 0, j, cell_value(h), bold)  # a coder named =HYPERLINK(...) stays text
@@ -223,26 +248,38 @@ def _main_sheet(wb: Any, ws: Any, adj: Adjudication, headers: list[str], bold: A
 
     # one list of the columns' styles per (shaded, marked), indexed 2 * shaded + marked
     row_styles = [
-        [style(j, shaded, marked) for j in range(len(headers))]
-        for shaded in (False, True)
-        for marked in (False, True)
+        [style(j, shaded, marked) for j in range(len(headers))] for shaded, marked in _ROW_STYLES
     ]
     columns = _main_columns_cells(adj, headers)
-    write_string, write_blank = ws.write_string, ws.write_blank
     shade, last_unit = False, None
-    cells_by_row = zip(*columns, strict=True)
-    for i, (row, cells) in enumerate(zip(adj.rows, cells_by_row, strict=True), start=1):
+    row_style: list[int] = []
+    for row in adj.rows:
         if row.unit != last_unit:
             shade, last_unit = (not shade), row.unit
-        styles_now = row_styles[2 * shade + row.to_check]
-        for j, value in enumerate(cells):
-            if value.__class__ is str:
-                write_string(i, j, value, styles_now[j])  # the commonest cell, at once
-            elif value is None:
-                if styles_now[j] is not None:
-                    write_blank(i, j, None, styles_now[j])
-            else:
-                _write_cell(ws, i, j, value, styles_now[j])
+        row_style.append(2 * shade + row.to_check)
+    spliced = None
+    if splice and adj.rows and splice_ready(columns):
+        # One probe row per row style, in the order the rows first use them: XlsxWriter numbers
+        # the formats as cells first use them, so its style table comes out as cell by cell.
+        probes = list(dict.fromkeys(row_style))
+        for i, k in enumerate(probes, start=1):
+            for j in range(len(headers)):
+                ws.write_string(i, j, "-", row_styles[k][j])
+        probe_of = {k: p for p, k in enumerate(probes)}
+        spliced = (columns, [probe_of[k] for k in row_style])
+    else:
+        write_string, write_blank = ws.write_string, ws.write_blank
+        cells_by_row = zip(*columns, strict=True)
+        for i, (k, cells) in enumerate(zip(row_style, cells_by_row, strict=True), start=1):
+            styles_now = row_styles[k]
+            for j, value in enumerate(cells):
+                if value.__class__ is str:
+                    write_string(i, j, value, styles_now[j])  # the commonest cell, at once
+                elif value is None:
+                    if styles_now[j] is not None:
+                        write_blank(i, j, None, styles_now[j])
+                else:
+                    _write_cell(ws, i, j, value, styles_now[j])
     widths = {"unit": 12, "variable": 20, "kind": 14, "decision": 30, "note": 30}
     widths.update({"adjudicator": 16, "check": 40, "key": 24})
     key_col = headers.index("key")
@@ -252,6 +289,7 @@ def _main_sheet(wb: Any, ws: Any, adj: Adjudication, headers: list[str], bold: A
     ws.freeze_panes(1, 3)
     if adj.rows:
         ws.autofilter(0, 0, len(adj.rows), len(headers) - 1)
+    return spliced
 
 
 def _lists_sheet(wb: Any, ws: Any, lists: Any, cb: Any, ranges: dict[str, list[str]]) -> None:

@@ -1,0 +1,159 @@
+"""The list's main sheet put in column by column is the sheet XlsxWriter writes cell by cell.
+
+:func:`coderel.io.xlsx_rows.splice_rows` writes the rows of the list's main sheet as SpreadsheetML
+text (ECMA-376 Part 1, 18.3.1.73 ``row``, 18.3.1.4 ``c``, 18.3.1.53 ``is``) in place of probe
+rows. The outside reference is XlsxWriter itself, writing the same cells one call each: on lists
+with texts that need escaping (``&``, ``<``, control characters, literal ``_x0041_`` escapes,
+leading and trailing white space, line breaks, text beyond the Basic Multilingual Plane),
+decisions waiting to be re-confirmed, text columns and added columns, the two workbooks must be
+the same bytes. A reader outside the project (openpyxl) must then read every cell back as written.
+"""
+
+from __future__ import annotations
+
+import zipfile
+
+import openpyxl
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+
+from coderel.adjudicate import MAIN_SHEET, write_adjudication
+from coderel.adjudicate.model import STALE_CHECK, Adjudication, AdjudicationRow
+from coderel.adjudicate.write import MAIN_SHEET_PART, _write_workbook
+from coderel.codebook import Category, Codebook, Variable
+from coderel.io.tables import cell_value
+from coderel.io.xlsx_rows import SAFE_TEXT_LENGTH, splice_ready
+
+CB = Codebook(
+    title="list writer test (invented)",
+    unit="report",
+    variables=(
+        Variable("trail", "nominal", categories=(Category(1, "Ridge"), Category(2, "Lake"))),
+        Variable("visitors", "ratio"),
+    ),
+)
+
+TRICKY = [
+    "plain",
+    'a & b < c > d "quoted"',
+    "_x0041_ stays literal",
+    "bell\x07 and tab\t",
+    " leading space",
+    "trailing space ",
+    "two\nlines\n",
+    "é ü 中文 Ελληνικά кириллица",
+    "emoji 🦉 beyond the plane",
+    "\ufffe\uffff",
+    "=1+1",
+    "",
+]
+
+_text = st.one_of(st.sampled_from(TRICKY), st.text(max_size=12))
+
+
+def _adjudication(cells, *, text_columns=(), extra=()) -> Adjudication:
+    rows = []
+    narratives = {}
+    for k, (unit, variable, a, b, decision, stale, note, more) in enumerate(cells):
+        unit = f"R{unit}"
+        rows.append(
+            AdjudicationRow(
+                unit=unit,
+                variable=variable,
+                kind="values differ",
+                values={"ann": a, "bo": b},
+                decision=decision or None,
+                note=note or None,
+                check=STALE_CHECK if stale and decision else None,
+                extra=dict.fromkeys(extra, more),
+            )
+        )
+        if text_columns:
+            narratives[unit] = dict.fromkeys(text_columns, f"{more} {k}")
+    rows.sort(key=lambda r: (r.unit, r.variable))
+    return Adjudication(
+        codebook=CB,
+        coders=("ann", "bo"),
+        rows=tuple(rows),
+        text_columns=tuple(text_columns),
+        narratives=narratives,
+        extra_columns=tuple(extra),
+    )
+
+
+_cells = st.lists(
+    st.tuples(
+        st.integers(0, 6),
+        st.sampled_from(["trail", "visitors"]),
+        _text,
+        _text,
+        st.sampled_from(["", "1", "2 = Lake", "nonsense"]),
+        st.booleans(),
+        _text,
+        _text,
+    ),
+    min_size=1,
+    max_size=25,
+    unique_by=lambda c: (c[0], c[1]),
+)
+
+
+def _members(path) -> dict[str, bytes]:
+    with zipfile.ZipFile(path) as z:
+        return {i.filename: z.read(i) for i in z.infolist()}
+
+
+@settings(
+    max_examples=60, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture]
+)
+@given(_cells, st.sampled_from([(), ("narrative",)]), st.sampled_from([(), ("my notes",)]))
+def test_spliced_rows_are_the_cell_by_cell_workbook(tmp_path, cells, text_columns, extra):
+    adj = _adjudication(cells, text_columns=text_columns, extra=extra)
+    fast, slow = tmp_path / "fast.xlsx", tmp_path / "slow.xlsx"
+    _write_workbook(adj, fast)
+    _write_workbook(adj, slow, splice=False)
+    assert _members(fast) == _members(slow)
+    assert fast.read_bytes() == slow.read_bytes()
+
+
+def test_the_sheet_reads_back_cell_for_cell(tmp_path):
+    # control characters, non-characters and literal _xHHHH_ are left out: openpyxl reads their
+    # escapes its own way (the bytes are XlsxWriter's either way, as the test above shows)
+    texts = [t for t in TRICKY if (t.isprintable() or "\n" in t) and "_x" not in t]
+    cells = [
+        (i, var, texts[i % len(texts)], texts[(i + 3) % len(texts)], d, i % 2 == 0, "n", "x")
+        for i in range(len(texts))
+        for var, d in (("trail", "1"), ("visitors", ""))
+    ]
+    adj = _adjudication(cells, text_columns=("narrative",), extra=("my notes",))
+    path = tmp_path / "list.xlsx"
+    write_adjudication(adj, path)
+    ws = openpyxl.load_workbook(path)[MAIN_SHEET]
+    got = list(ws.iter_rows(min_row=2, values_only=True))
+    assert len(got) == len(adj.rows)
+    assert ws.max_row == len(adj.rows) + 1  # the dimension names the rows written
+    for row, values in zip(adj.rows, got, strict=True):
+        assert values[0] == row.unit
+        # what openpyxl reads: an empty text is an empty cell, a formula-like text neutralised
+        assert values[3] == (cell_value(row.values["ann"]) or None)
+        assert values[4] == (cell_value(row.values["bo"]) or None)
+
+
+def test_rich_text_markup_is_kept_as_text(tmp_path):
+    """A coder's value that looks like rich text markup is text: XlsxWriter cell by cell would
+    have copied it into the sheet as markup (its constant-memory mode passes ``<r>...</r>``
+    through); spliced rows escape it, and it reads back as written."""
+    odd = "<r><t>not markup</t></r>"
+    adj = _adjudication([(1, "trail", odd, "2", "", False, "", "")])
+    path = tmp_path / "list.xlsx"
+    write_adjudication(adj, path)
+    ws = openpyxl.load_workbook(path)[MAIN_SHEET]
+    assert ws["D2"].value == odd
+    sheet = _members(path)[MAIN_SHEET_PART].decode()
+    assert "&lt;r&gt;&lt;t&gt;not markup" in sheet
+
+
+def test_long_texts_and_numbers_go_cell_by_cell():
+    assert splice_ready([["a", None], ["b" * SAFE_TEXT_LENGTH]])
+    assert not splice_ready([["a", "b" * (SAFE_TEXT_LENGTH + 1)]])
+    assert not splice_ready([["a", 3]])
