@@ -44,7 +44,8 @@ from dataclasses import dataclass
 from typing import Literal
 
 import numpy as np
-from scipy import stats
+
+from coderel.stats.distributions import f_ppf, f_sf
 
 IccForm = Literal["icc_1_1", "icc_2_1", "icc_3_1", "icc_1_k", "icc_2_k", "icc_3_k"]
 ICC_FORMS: tuple[IccForm, ...] = ("icc_1_1", "icc_2_1", "icc_3_1", "icc_1_k", "icc_2_k", "icc_3_k")
@@ -248,11 +249,11 @@ def f_interval(ms: MeanSquares, form: str, level: float = 0.95) -> FInterval:
     if not (n >= 2 and k >= 2 and np.isfinite(bms) and np.isfinite(denom)) or denom <= 0:
         return FInterval(None, None, df1, df2, None)
     f0 = bms / denom
-    p = float(stats.f.sf(f0, df1, df2))
+    p = float(f_sf(f0, df1, df2))
     if form in ("icc_2_1", "icc_2_k"):
         return FInterval(_absolute_interval(form, n, k, bms, jms, ems, alpha), f0, df1, df2, p)
-    fl = f0 / stats.f.ppf(1 - alpha / 2, df1, df2)
-    fu = f0 * stats.f.ppf(1 - alpha / 2, df2, df1)
+    fl = f0 / f_ppf(1 - alpha / 2, df1, df2)
+    fu = f0 * f_ppf(1 - alpha / 2, df2, df1)
     if form in ("icc_1_1", "icc_3_1"):
         lo, hi = (fl - 1) / (fl + k - 1), (fu - 1) / (fu + k - 1)
     else:
@@ -274,8 +275,8 @@ def _absolute_interval(
     if v_den <= 0:
         return None
     v = (k - 1) * (n - 1) * (a * fj + b) ** 2 / v_den
-    f_star = stats.f.ppf(1 - alpha / 2, n - 1, v)
-    f_low_star = stats.f.ppf(1 - alpha / 2, v, n - 1)
+    f_star = f_ppf(1 - alpha / 2, n - 1, v)
+    f_low_star = f_ppf(1 - alpha / 2, v, n - 1)
     if form == "icc_2_1":
         c = k * jms + (k * n - k - n) * ems
         lo = n * (bms - f_star * ems) / (f_star * c + n * bms)

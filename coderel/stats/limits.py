@@ -23,7 +23,8 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import stats
+
+from coderel.stats.distributions import t_ppf, t_sf
 
 #: The multiple of the SD of differences that spans about 95% of them (Bland & Altman 1986).
 LIMIT_MULTIPLE = 1.96
@@ -90,7 +91,7 @@ def proportional_bias(means: np.ndarray, differences: np.ndarray) -> Proportiona
     se = float(np.sqrt(rss / (n - 2) / sxx))
     if se == 0:
         return ProportionalBias(slope, intercept, 0.0, 0.0 if slope != 0 else 1.0)
-    p = float(2 * stats.t.sf(abs(slope / se), n - 2))
+    p = float(2 * t_sf(abs(slope / se), n - 2))
     return ProportionalBias(slope, intercept, se, p)
 
 
@@ -135,7 +136,7 @@ def limits_of_agreement(
     lower, upper = bias - multiple * sd, bias + multiple * sd
     bias_ci = lower_ci = upper_ci = None
     if n >= 3:
-        t = float(stats.t.ppf((1 + level) / 2, n - 1))
+        t = float(t_ppf((1 + level) / 2, n - 1))
         bias_ci = _ci(bias, sd / np.sqrt(n), t)
         se_limit = float(np.sqrt(3.0 * sd**2 / n))
         lower_ci, upper_ci = _ci(lower, se_limit, t), _ci(upper, se_limit, t)
