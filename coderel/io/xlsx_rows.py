@@ -136,7 +136,8 @@ def splice_rows(
     Parameters
     ----------
     path
-        The workbook (a temporary file of the caller's: it is rewritten in place).
+        The workbook, a temporary file of the caller's (:func:`coderel.io.atomic.atomic_path`):
+        it is written again in place.
     member
         The sheet's part in the package, e.g. ``xl/worksheets/sheet1.xml``.
     columns
@@ -165,11 +166,8 @@ def splice_rows(
     head = re.sub(r'<dimension ref="[^"]*"/>', dimension, xml[:start], count=1)
     body = _rows_xml(columns, row_styles, styles, first_row)
     parts[member] = (head + body + xml[end:]).encode("utf-8")
-    spliced = path.with_name(path.name + ".rows")
-    try:
-        with zipfile.ZipFile(spliced, "w", compression=zipfile.ZIP_DEFLATED) as new:
-            for info in infos:
-                new.writestr(info, parts[info.filename])
-        os.replace(spliced, path)
-    finally:
-        spliced.unlink(missing_ok=True)
+    # Every part is in memory: the package is written again over the caller's temporary file
+    # (no other file is made, so an interrupted write leaves only that temporary file).
+    with zipfile.ZipFile(path, "w", compression=zipfile.ZIP_DEFLATED) as new:
+        for info in infos:
+            new.writestr(info, parts[info.filename])
