@@ -170,7 +170,19 @@ def _write_cell(ws: Any, i: int, j: int, value: Any, style: Any = None) -> None:
             # what an XML parser makes of a carriage return that openpyxl wrote as it is;
             # XlsxWriter would keep it as the escape _x000D_, which openpyxl reads literally
             value = value.replace("\r\n", "\n").replace("\r", "\n")
-        ws.write_string(i, j, value, style)
+        _write_text(ws, i, j, value, style)
+
+
+def _write_text(ws: Any, i: int, j: int, text: str, style: Any = None) -> None:
+    """A text cell. XlsxWriter copies a text that starts with ``<r>`` and ends with ``</r>`` into
+    the sheet as rich text markup, unescaped (its constant-memory mode stores rich strings so):
+    a coder named ``<r>x</r>`` would break the sheet's XML. Such a text is written as a rich
+    string of three plain pieces instead, which every reader joins back into the same text."""
+    if text.startswith("<r>") and text.endswith("</r>"):
+        pieces = ("<", "r", text[2:])
+        ws.write_rich_string(i, j, *pieces, *((style,) if style is not None else ()))
+    else:
+        ws.write_string(i, j, text, style)
 
 
 def _main_columns_cells(adj: Adjudication, headers: list[str]) -> list[list[Any]]:
@@ -273,7 +285,7 @@ def _main_sheet(
         for i, (k, cells) in enumerate(zip(row_style, cells_by_row, strict=True), start=1):
             styles_now = row_styles[k]
             for j, value in enumerate(cells):
-                if value.__class__ is str:
+                if value.__class__ is str and not value.startswith("<r>"):
                     write_string(i, j, value, styles_now[j])  # the commonest cell, at once
                 elif value is None:
                     if styles_now[j] is not None:
