@@ -14,6 +14,7 @@ from __future__ import annotations
 import zipfile
 
 import openpyxl
+import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
@@ -184,3 +185,29 @@ def test_long_texts_and_numbers_go_cell_by_cell():
     assert splice_ready([["a", None], ["b" * SAFE_TEXT_LENGTH]])
     assert not splice_ready([["a", "b" * (SAFE_TEXT_LENGTH + 1)]])
     assert not splice_ready([["a", 3]])
+
+
+def test_a_sheet_past_the_workbook_row_limit_is_refused(tmp_path, monkeypatch):
+    """A workbook sheet holds 1,048,576 rows (ECMA-376 Part 1, 18.3.1.73), the header included.
+    XlsxWriter silently drops the cells of rows past it (a list would lose rows to decide), so a
+    list or table too long for a sheet is refused before anything is written, with the way out
+    (.csv); here the limit is made small so that the test needs few rows."""
+    import pandas as pd
+
+    import coderel.io.tables as tables
+    from coderel.errors import UsageError
+
+    monkeypatch.setattr(tables, "SHEET_ROWS", 3)
+    cells = [(i, "trail", "1", "2", "", False, "", "") for i in range(3)]
+    adj = _adjudication(cells)
+    path = tmp_path / "list.xlsx"
+    with pytest.raises(UsageError, match=r"3 rows, more than a workbook sheet holds.*\.csv"):
+        write_adjudication(adj, path)
+    assert not path.exists()
+    write_adjudication(adj, tmp_path / "list.csv")  # the way out
+    assert len(pd.read_csv(tmp_path / "list.csv")) == 3
+    write_adjudication(_adjudication(cells[:2]), path)  # 2 rows and the header fit
+    assert openpyxl.load_workbook(path)[MAIN_SHEET].max_row == 3
+    with pytest.raises(UsageError, match="'data' would have 3 rows"):
+        tables.write_table(pd.DataFrame({"unit": ["a", "b", "c"]}), tmp_path / "merged.xlsx")
+    assert not (tmp_path / "merged.xlsx").exists()

@@ -90,7 +90,10 @@ def _write_workbook(
     from xlsxwriter import Workbook
 
     from coderel.io.atomic import atomic_path
-    from coderel.io.tables import FIXED_TIME
+    from coderel.io.tables import FIXED_TIME, check_sheet_rows
+
+    check_sheet_rows(len(adj.rows), path, MAIN_SHEET)
+    check_sheet_rows(len(adj.retired), path, RETIRED_SHEET)
 
     cb = adj.codebook
     headers = main_columns(adj.coders, adj.text_columns, adj.extra_columns)

@@ -105,6 +105,23 @@ def _fit_cell(text: str) -> str:
     return text
 
 
+#: The most rows a sheet of a workbook holds (ECMA-376 Part 1, 18.3.1.73: ``r`` up to
+#: 1,048,576), the header included.
+SHEET_ROWS = 1_048_576
+
+
+def check_sheet_rows(rows: int, path: str | os.PathLike[str], sheet: str) -> None:
+    """Refuse (:class:`UsageError`, nothing written) a sheet of ``rows`` rows below its header
+    that a workbook cannot hold: a writer would drop the rows past the limit, or write a file
+    that spreadsheet programs do not open."""
+    if rows + 1 > SHEET_ROWS:
+        raise UsageError(
+            f"cannot write {Path(path).name!r}: its sheet {sheet!r} would have {rows:,} rows, "
+            f"more than a workbook sheet holds ({SHEET_ROWS - 1:,} below the header); write it "
+            "as .csv (or .parquet for a dataset) instead"
+        )
+
+
 def fill_sheet(ws: Any, frame: pd.DataFrame, *, freeze: str = "A2", width: int = 60) -> None:
     """Write ``frame`` into an openpyxl worksheet: bold frozen header, neutralised cells."""
     ws.append([cell_value(str(c)) for c in frame.columns])
@@ -161,6 +178,8 @@ def normalise_xlsx(data: bytes) -> bytes:
 
 def write_xlsx(sheets: Mapping[str, pd.DataFrame], path: str | os.PathLike[str]) -> None:
     """Write one sheet per frame (in mapping order) to an xlsx file, atomically and neutralised."""
+    for name, frame in sheets.items():
+        check_sheet_rows(len(frame), path, name)
     wb = Workbook()
     wb.remove(wb.active)
     for name, frame in sheets.items():
