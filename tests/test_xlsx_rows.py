@@ -211,3 +211,29 @@ def test_a_sheet_past_the_workbook_row_limit_is_refused(tmp_path, monkeypatch):
     with pytest.raises(UsageError, match="'data' would have 3 rows"):
         tables.write_table(pd.DataFrame({"unit": ["a", "b", "c"]}), tmp_path / "merged.xlsx")
     assert not (tmp_path / "merged.xlsx").exists()
+
+
+def test_probe_rows_not_found_as_expected_write_the_rows_cell_by_cell(tmp_path, monkeypatch):
+    """Another XlsxWriter might write the probe rows otherwise: then the workbook is written
+    again cell by cell, over the same temporary file, and is the cell-by-cell workbook."""
+    import re
+
+    import coderel.io.xlsx_rows as xlsx_rows
+
+    adj = _adjudication([(i, "trail", "1", "2", "1", i == 1, "n", "x") for i in range(4)])
+    slow = tmp_path / "slow.xlsx"
+    _write_workbook(adj, slow, splice=False)
+    calls = []
+    real = xlsx_rows.splice_rows
+
+    def spy(*args, **kwargs):
+        calls.append(real(*args, **kwargs))
+        return calls[-1]
+
+    monkeypatch.setattr(xlsx_rows, "splice_rows", spy)
+    monkeypatch.setattr(xlsx_rows, "_STYLE", re.compile(r'<c r="([A-Z]+)(\d+)" style="(\d+)"'))
+    fast = tmp_path / "list.xlsx"
+    _write_workbook(adj, fast)
+    assert calls == [False]
+    assert fast.read_bytes() == slow.read_bytes()
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["list.xlsx", "slow.xlsx"]

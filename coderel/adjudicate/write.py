@@ -81,19 +81,33 @@ def _write_workbook(
     XlsxWriter streams each row to disk as it is written, so rows go in order, sheet by sheet.
     The main sheet's rows (a 20,000-unit list is ~650,000 cells) are put in afterwards by
     :func:`coderel.io.xlsx_rows.splice_rows`, column by column, when every cell is a text of
-    safe length or empty (``splice=False``, or any other cell, writes them cell by cell with
-    XlsxWriter; the sheet is the same either way). Every text cell is written as text (never
-    read as a number, formula or link) after :func:`coderel.io.tables.cell_value` neutralised it.
-    The zip members carry a fixed 1980 time stamp and the properties a fixed date, so the same
-    list gives the same bytes.
+    safe length or empty (``splice=False``, any other cell, or probe rows not found as expected
+    write them cell by cell with XlsxWriter; the sheet is the same either way). Every text cell
+    is written as text (never read as a number, formula or link) after
+    :func:`coderel.io.tables.cell_value` neutralised it. The zip members carry a fixed 1980 time
+    stamp and the properties a fixed date, so the same list gives the same bytes.
     """
-    from xlsxwriter import Workbook
-
     from coderel.io.atomic import atomic_path
-    from coderel.io.tables import FIXED_TIME, check_sheet_rows
+    from coderel.io.tables import check_sheet_rows
+    from coderel.io.xlsx_rows import splice_rows
 
     check_sheet_rows(len(adj.rows), path, MAIN_SHEET)
     check_sheet_rows(len(adj.retired), path, RETIRED_SHEET)
+    with atomic_path(path) as tmp:
+        spliced = _workbook_at(adj, tmp, splice=splice)
+        if spliced is not None:
+            columns, row_probes = spliced
+            if not splice_rows(tmp, MAIN_SHEET_PART, columns, row_probes, max(row_probes) + 1):
+                _workbook_at(adj, tmp, splice=False)  # written again, over the same file
+
+
+def _workbook_at(
+    adj: Adjudication, tmp: os.PathLike[str], *, splice: bool
+) -> tuple[list[list[Any]], list[int]] | None:
+    """Write the workbook at ``tmp``; with ``splice``, what :func:`_main_sheet` left to splice."""
+    from xlsxwriter import Workbook
+
+    from coderel.io.tables import FIXED_TIME
 
     cb = adj.codebook
     headers = main_columns(adj.coders, adj.text_columns, adj.extra_columns)
@@ -101,35 +115,30 @@ def _write_workbook(
     dcol = column_letter(headers.index("decision") + 1)
     for i, row in enumerate(adj.rows, start=2):
         ranges.setdefault(row.variable, []).append(f"{dcol}{i}")
-    with atomic_path(path) as tmp:
-        wb = Workbook(
-            str(tmp),
-            {
-                "constant_memory": True,
-                "strings_to_numbers": False,
-                "strings_to_formulas": False,
-                "strings_to_urls": False,
-            },
-        )
-        wb.set_properties({"created": FIXED_TIME, "author": "coderel"})
-        bold = wb.add_format({"bold": True})
-        ws = wb.add_worksheet(MAIN_SHEET)
-        lists = wb.add_worksheet(LISTS_SHEET)
-        spliced = _main_sheet(wb, ws, adj, headers, bold, splice=splice)
-        _lists_sheet(wb, ws, lists, cb, ranges)
-        _protect(ws)
-        _frame_sheet(wb, wb.add_worksheet(SUMMARY_SHEET), adj.summary(), bold, width=30)
-        rcoders = retired_coders(adj)
-        rcols = retired_columns(rcoders, adj.extra_columns)
-        frame = pd.DataFrame([row_record(r, rcoders) for r in adj.retired], columns=rcols)
-        _frame_sheet(wb, wb.add_worksheet(RETIRED_SHEET), frame, bold, width=40)
-        _frame_sheet(wb, wb.add_worksheet(ABOUT_SHEET), _about(adj), bold, width=80)
-        wb.close()
-        if spliced is not None:
-            from coderel.io.xlsx_rows import splice_rows
-
-            columns, row_probes = spliced
-            splice_rows(tmp, MAIN_SHEET_PART, columns, row_probes, probes=max(row_probes) + 1)
+    wb = Workbook(
+        str(tmp),
+        {
+            "constant_memory": True,
+            "strings_to_numbers": False,
+            "strings_to_formulas": False,
+            "strings_to_urls": False,
+        },
+    )
+    wb.set_properties({"created": FIXED_TIME, "author": "coderel"})
+    bold = wb.add_format({"bold": True})
+    ws = wb.add_worksheet(MAIN_SHEET)
+    lists = wb.add_worksheet(LISTS_SHEET)
+    spliced = _main_sheet(wb, ws, adj, headers, bold, splice=splice)
+    _lists_sheet(wb, ws, lists, cb, ranges)
+    _protect(ws)
+    _frame_sheet(wb, wb.add_worksheet(SUMMARY_SHEET), adj.summary(), bold, width=30)
+    rcoders = retired_coders(adj)
+    rcols = retired_columns(rcoders, adj.extra_columns)
+    frame = pd.DataFrame([row_record(r, rcoders) for r in adj.retired], columns=rcols)
+    _frame_sheet(wb, wb.add_worksheet(RETIRED_SHEET), frame, bold, width=40)
+    _frame_sheet(wb, wb.add_worksheet(ABOUT_SHEET), _about(adj), bold, width=80)
+    wb.close()
+    return spliced
 
 
 def _shown_column(values: list[Any]) -> list[Any]:

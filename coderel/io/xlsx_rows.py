@@ -76,17 +76,24 @@ def _letter(index: int) -> str:
     return letters
 
 
-def _probe_styles(xml: str, first_row: int, probes: int, width: int) -> list[list[str]]:
+def _probe_styles(xml: str, first_row: int, probes: int, width: int) -> list[list[str]] | None:
     """The ``s`` attribute of each probe row's cells: one list per probe row, one entry per
-    column (``''`` for a cell with no style)."""
+    column (``''`` for a cell with no style); ``None`` unless every probe cell, and nothing
+    else, was found."""
     styles = [[""] * width for _ in range(probes)]
+    found = 0
     for letters, row, style in _STYLE.findall(xml):
         k = int(row) - first_row
-        if 0 <= k < probes and style:
-            j = 0
-            for ch in letters:
-                j = j * 26 + ord(ch) - 64
+        j = 0
+        for ch in letters:
+            j = j * 26 + ord(ch) - 64
+        if not (0 <= k < probes and 1 <= j <= width):
+            return None
+        found += 1
+        if style:
             styles[k][j - 1] = f' s="{style}"'
+    if found != probes * width or xml.count("<c ") != found:
+        return None
     return styles
 
 
@@ -126,10 +133,10 @@ def splice_rows(
     member: str,
     columns: Sequence[Sequence[str | None]],
     row_styles: Sequence[int],
+    probes: int,
     *,
     first_row: int = 2,
-    probes: int,
-) -> None:
+) -> bool:
     """Put rows of text cells into a sheet of a workbook written by XlsxWriter, in place of its
     probe rows.
 
@@ -146,12 +153,18 @@ def splice_rows(
         for an empty cell.
     row_styles
         For each row, which probe row's styles it takes.
-    first_row
-        The 1-based number of the first row (and of the first probe row).
     probes
         How many probe rows the caller wrote, from ``first_row`` on, one per row style, each with
         a text in every column so that each cell's style shows. They are the last rows of the
         sheet.
+    first_row
+        The 1-based number of the first row (and of the first probe row).
+
+    Returns
+    -------
+    bool
+        ``False`` (the workbook left as it was) when the probe rows are not found as expected,
+        say from another version of XlsxWriter: the caller then writes the rows cell by cell.
     """
     path = Path(path)
     with zipfile.ZipFile(path) as old:
@@ -161,6 +174,8 @@ def splice_rows(
     start = xml.index(f'<row r="{first_row}"')
     end = xml.index("</sheetData>")
     styles = _probe_styles(xml[start:end], first_row, probes, len(columns))
+    if styles is None:  # not the probe rows as this module knows them: leave the workbook
+        return False
     last = first_row + len(row_styles) - 1
     dimension = f'<dimension ref="A1:{_letter(len(columns) - 1)}{max(last, first_row - 1)}"/>'
     head = re.sub(r'<dimension ref="[^"]*"/>', dimension, xml[:start], count=1)
@@ -171,3 +186,4 @@ def splice_rows(
     with zipfile.ZipFile(path, "w", compression=zipfile.ZIP_DEFLATED) as new:
         for info in infos:
             new.writestr(info, parts[info.filename])
+    return True
