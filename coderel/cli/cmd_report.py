@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 import datetime as dt
 import os
 from pathlib import Path
@@ -86,12 +87,14 @@ def _command_line(
 MAX_DIAGNOSED_CODERS = 30
 
 
-def _with_protocol(
-    content, codings, codebook, key_files, round_specs, replicates, seed, interval_method
+def _protocol(
+    codings, prepared, codebook, key_files, round_specs, replicates, seed, interval_method
 ):
-    """The report's content with the coder diagnostics and, when asked, training and rounds."""
-    import dataclasses
+    """The coder diagnostics and, when asked, training and rounds: the report's protocol parts.
 
+    The diagnostics come from what :func:`coderel.agree.prepare.prepare` kept of the table when
+    the caller has it (``prepared``), else from the table itself.
+    """
     from coderel.agree.coders import coder_diagnostics
     from coderel.io.rounds import round_names
     from coderel.report.protocol import protocol_parts
@@ -99,7 +102,7 @@ def _with_protocol(
     diagnostics = None
     if 2 <= len(codings.coders) <= MAX_DIAGNOSED_CODERS:
         with delayed_progress("comparing each coder with the others"):
-            diagnostics = coder_diagnostics(codings)
+            diagnostics = coder_diagnostics(prepared if prepared is not None else codings)
     elif len(codings.coders) > MAX_DIAGNOSED_CODERS:
         say(
             f"{len(codings.coders)} coders: coder diagnostics left out of the report (more than "
@@ -127,7 +130,7 @@ def _with_protocol(
         read = read_rounds(codebook, round_specs, codings)
         with delayed_progress("agreement per round") as step:
             trended = trend(read, progress=step, **settings)
-    return dataclasses.replace(content, protocol=protocol_parts(diagnostics, scored, trended))
+    return protocol_parts(diagnostics, scored, trended)
 
 
 @app.command("report")
@@ -183,12 +186,15 @@ def report_command(
     """The reliability report: summary, agreement table, charts, coders, methods paragraph."""
     from coderel.adjudicate.rules import parse_tolerances
     from coderel.agree import agreement
+    from coderel.agree.prepare import prepare
     from coderel.cli.rounds import parse_rounds, round_files
     from coderel.codings import SourceFile
     from coderel.io.atomic import refuse_overwriting_inputs, sha256_file
     from coderel.io.read import collect_files
-    from coderel.memory import parse_memory
+    from coderel.memory import parse_memory, release_freed
+    from coderel.progress import report
     from coderel.report import build_report, report_paths, write_report
+    from coderel.report.facts import table_facts
 
     if out is None and not json_out:
         raise UsageError("name the report file with -o report.html (or .md, .xlsx), or use --json")
@@ -223,13 +229,11 @@ def report_command(
         "icc_ordinal": icc_ordinal,
         "memory": parse_memory(memory),
     }
-    if on_cluster:  # the agreement on the cluster, the rest of the report in this process
-        from coderel.cli.engines import agree_on_cluster
-
-        result = agree_on_cluster(codebook, data, scheduler, errors_note=None, **settings).result
-    else:
-        with delayed_progress("agreement per variable") as step:
-            result = agreement(codings, progress=step, **settings)
+    prepared = None
+    if not on_cluster:
+        with delayed_progress("summarising units") as step:
+            report(step, 0, 1, "summarising units")
+            prepared = prepare(codings)
     stable = None
     if not codings.occasions.empty:
         from coderel.stability import stability
@@ -261,6 +265,29 @@ def report_command(
         decisions_source = read.source or SourceFile(
             str(decisions), sha256_file(decisions), decisions.stat().st_size
         )
+    protocol = _protocol(
+        codings, prepared, codebook, key_files, round_specs, replicates, seed, interval_method
+    )
+    with delayed_progress("counting cells and coders"):
+        facts = table_facts(
+            codings,
+            merged,
+            units=prepared.units if prepared is not None else None,
+            coders=prepared.coders if prepared is not None else None,
+        )
+    # Everything that needs the long table (and the merged one) is done: drop them so that the
+    # bootstrap holds the per-unit summaries only, as agree does (issue 14;
+    # tests/test_report_memory.py).
+    del codings, merged
+    release_freed()
+    if on_cluster:  # the agreement on the cluster, the rest of the report in this process
+        from coderel.cli.engines import agree_on_cluster
+
+        result = agree_on_cluster(codebook, data, scheduler, errors_note=None, **settings).result
+    else:
+        with delayed_progress("agreement per variable") as step:
+            result = agreement(prepared, progress=step, **settings)
+        del prepared
     options = [f"--replicates {replicates}", f"--seed {seed}", f"--interval {interval_method}"]
     if decisions is not None:
         options.append(f"--rule {rule}")
@@ -270,9 +297,8 @@ def report_command(
         options.append("--icc-ordinal")
     with delayed_progress("assembling the report"):
         content = build_report(
-            codings,
+            facts,
             result,
-            merged,
             command=_command_line(codebook, data, decisions, options),
             decisions_source=decisions_source,
             codebook_source=SourceFile(
@@ -281,9 +307,7 @@ def report_command(
             generated=when,
             stability=stable,
         )
-    content = _with_protocol(
-        content, codings, codebook, key_files, round_specs, replicates, seed, interval_method
-    )
+    content = dataclasses.replace(content, protocol=protocol)
     written = []
     if out is not None:
         with delayed_progress(f"writing {out.name}") as step:

@@ -9,26 +9,23 @@ HTML, Markdown and xlsx renderers read only :class:`~coderel.report.model.Report
 
 from __future__ import annotations
 
+import dataclasses
 import datetime as dt
 import math
 from collections.abc import Mapping, Sequence
 from typing import Any
 
 import numpy as np
-import pandas as pd
 
 from coderel._version import __version__
-from coderel.codebook.model import MULTI_SEPARATOR, Codebook
+from coderel.codebook.model import Codebook
 from coderel.codings import Codings
+from coderel.report.facts import TableFacts, table_facts
 from coderel.report.methods_text import methods_text
 from coderel.report.model import (
     COEFFICIENTS,
-    SETTLED,
-    STATUSES,
     VERDICTS,
-    Adjudication,
     CategoryPanel,
-    CoderFinal,
     CoderPanel,
     Coefficient,
     ReportContent,
@@ -245,147 +242,23 @@ def _estimate_of(value: Any) -> Any:
     return getattr(value, "estimate", value)
 
 
-def _coder_final(codings: Codings, merged: Any, coders: Sequence[str]) -> tuple[CoderFinal, ...]:
-    """Each coder against the final value, per single-choice categorical variable.
-
-    Percent agreement pools all settled cells; Cohen's kappa (Cohen, 1960) is computed per
-    variable on the coder-by-final table over the codebook's categories, then averaged.
-    """
-    from coderel.stats.kappa import cohen_kappa_table
-
-    frame: pd.DataFrame = merged.frame
-    unit_col = "unit" if "unit" in frame.columns else frame.columns[0]
-    final = frame.set_index(frame[unit_col].astype(str))
-    out = []
-    for coder in coders:
-        agree_n = 0
-        total_n = 0
-        kappas: list[float] = []
-        per_var = []
-        for var in codings.codebook.variables:
-            if var.name not in final.columns or f"{var.name}_status" not in final.columns:
-                continue
-            wide = codings.wide(var.name)
-            if coder not in wide.columns:
-                continue
-            status = final[f"{var.name}_status"]
-            values = final[var.name]
-            pairs = []
-            for unit, mine in wide[coder].items():
-                if mine is None or unit not in final.index or status.get(unit) not in SETTLED:
-                    continue
-                theirs = values.get(unit)
-                if _missing(theirs):
-                    continue
-                pairs.append((_canon(mine), _canon(theirs)))
-            if not pairs:
-                continue
-            same = sum(1 for a, b in pairs if _same(a, b))
-            agree_n += same
-            total_n += len(pairs)
-            kap = None
-            if var.is_categorical and not var.multiple and var.codes:
-                pos = {_canon(c): i for i, c in enumerate(var.codes)}
-                table = np.zeros((len(pos), len(pos)), dtype=np.int64)
-                for a, b in pairs:
-                    if a in pos and b in pos:
-                        table[pos[a], pos[b]] += 1
-                kap = number_or_none(cohen_kappa_table(table)[0])
-                if kap is not None:
-                    kappas.append(kap)
-            per_var.append((var.name, len(pairs), same / len(pairs), kap))
-        out.append(
-            CoderFinal(
-                coder=coder,
-                units=total_n,
-                percent_agreement=agree_n / total_n if total_n else None,
-                mean_kappa=float(np.mean(kappas)) if kappas else None,
-                variables=len(kappas),
-                per_variable=tuple(per_var),
-            )
-        )
-    return tuple(out)
-
-
-def _missing(value: Any) -> bool:
-    if value is None:
-        return True
-    try:
-        return bool(pd.isna(value))
-    except (TypeError, ValueError):
-        return False
-
-
-def _canon(value: Any) -> str:
-    """One text form for a coder's value and the merged value (``(1, 3)`` and ``'1;3'``)."""
-    if isinstance(value, np.generic):
-        value = value.item()
-    if isinstance(value, tuple | list | frozenset):
-        return MULTI_SEPARATOR.join(str(v) for v in value)
-    if isinstance(value, float | int) and not isinstance(value, bool):
-        return format(float(value), ".10g")
-    return str(value)
-
-
-def _same(a: str, b: str) -> bool:
-    return a == b
-
-
-def _adjudication(merged: Any, codebook: Codebook) -> Adjudication:
-    frame: pd.DataFrame = merged.frame
-    totals = dict.fromkeys(STATUSES, 0)
-    by_var = []
-    for var in codebook.variables:
-        col = f"{var.name}_status"
-        if col not in frame.columns:
-            continue
-        counts = frame[col].value_counts()
-        row = tuple(int(counts.get(s, 0)) for s in STATUSES)
-        for s, n in zip(STATUSES, row, strict=True):
-            totals[s] += n
-        by_var.append((var.name, row))
-    return Adjudication(
-        rule=str(getattr(merged, "rule", "") or ""),
-        totals=tuple(totals.items()),
-        by_variable=tuple(by_var),
-        tolerance=tuple(
-            (str(k), float(v)) for k, v in dict(getattr(merged, "tolerance", {})).items()
-        ),
-    )
-
-
-def _summary(codings: Codings, result: Any, table: Sequence[VariableRow]) -> Summary:
-    frame = codings.frame
-    codebook = codings.codebook
-    coders = tuple(codings.coders)
-    units = codings.units
+def _summary(facts: TableFacts, result: Any, table: Sequence[VariableRow]) -> Summary:
+    codebook = facts.codebook
     names = [v.name for v in codebook.variables]
-    cells_total = len(units) * len(coders) * len(names)
-    in_cb = frame[frame["variable"].isin(names)]
-    filled = int(sum(v is not None for v in in_cb["value"]))
-    not_applicable = int(
-        sum(
-            (val is None) and (app is False)
-            for val, app in zip(in_cb["value"], in_cb["applies"], strict=True)
-        )
-    )
-    per_unit = frame.groupby("unit")["coder"].nunique()
-    all_coders = int((per_unit == len(coders)).sum())
-    per_coder = frame.groupby("coder")["unit"].nunique()
     main = [r for r in table if r.kind == "variable"]
     verdicts = tuple((v, sum(1 for r in main if r.verdict == v)) for v in VERDICTS)
     return Summary(
         title=str(getattr(result, "codebook_title", None) or codebook.title),
-        units=len(units),
-        coders=coders,
+        units=len(facts.units),
+        coders=facts.coders,
         variables=len(main),
         verdicts=verdicts,
-        cells_total=cells_total,
-        cells_filled=filled,
-        cells_not_applicable=not_applicable,
-        units_all_coders=all_coders,
-        units_per_coder=tuple((c, int(per_coder.get(c, 0))) for c in coders),
-        units_one_coder=int((per_unit == 1).sum()),
+        cells_total=len(facts.units) * len(facts.coders) * len(names),
+        cells_filled=facts.cells_filled,
+        cells_not_applicable=facts.cells_not_applicable,
+        units_all_coders=facts.units_all_coders,
+        units_per_coder=facts.units_per_coder,
+        units_one_coder=facts.units_one_coder,
     )
 
 
@@ -396,7 +269,7 @@ def _source_row(src: Any) -> SourceRow:
 
 
 def build_report(
-    codings: Codings,
+    codings: Codings | TableFacts,
     result: Any,
     merged: Any | None = None,
     *,
@@ -411,12 +284,15 @@ def build_report(
     Parameters
     ----------
     codings
-        The codings the agreement was computed on (for completeness and the coder panel).
+        The codings the agreement was computed on (for completeness and the coder panel), or
+        what :func:`coderel.report.facts.table_facts` kept of them (and of ``merged``): a caller
+        that drops the table runs the bootstrap without it.
     result
         The :class:`coderel.agree.AgreementResult` of these codings.
     merged
         The :class:`coderel.merge.MergeResult` when a decisions file was given; adds the
-        adjudication progress and each coder's agreement with the final value.
+        adjudication progress and each coder's agreement with the final value. Read only with
+        the codings themselves (the table's facts already hold its parts).
     command
         The command line, for the reproducibility block.
     decisions_source
@@ -433,28 +309,20 @@ def build_report(
     ReportContent
         Frozen content that :func:`coderel.report.write_report` renders as HTML, Markdown or xlsx.
     """
-    codebook = codings.codebook
+    facts = codings if isinstance(codings, TableFacts) else table_facts(codings, merged)
+    codebook = facts.codebook
     table = _table(result, codebook)
-    coder_names = tuple(str(c) for c in (codings.coders or []))
-    coders = _coder_pairs(result, coder_names)
-    adjudication = None
-    if merged is not None:
-        adjudication = _adjudication(merged, codebook)
-        coders = CoderPanel(
-            coders=coders.coders,
-            pair_percent=coders.pair_percent,
-            pair_kappa=coders.pair_kappa,
-            pair_units=coders.pair_units,
-            pair_alpha=coders.pair_alpha,
-            final=_coder_final(codings, merged, coder_names),
-        )
-    summary = _summary(codings, result, table)
+    coders = _coder_pairs(result, facts.coders)
+    adjudication = facts.adjudication
+    if facts.final is not None:
+        coders = dataclasses.replace(coders, final=facts.final)
+    summary = _summary(facts, result, table)
     when = (generated or dt.datetime.now(dt.UTC)).astimezone(dt.UTC)
     repro = Reproducibility(
         coderel_version=__version__,
         codebook_title=str(getattr(result, "codebook_title", None) or codebook.title),
         codebook_version=str(getattr(result, "codebook_version", None) or codebook.version),
-        sources=tuple(_source_row(s) for s in codings.sources),
+        sources=tuple(_source_row(s) for s in facts.sources),
         seed=getattr(result, "seed", None),
         replicates=int(getattr(result, "replicates", 0) or 0),
         interval=str(getattr(result, "method", "") or ""),
