@@ -169,3 +169,27 @@ def test_the_report_from_the_facts_is_the_report_from_the_table():
     assert kept == whole
     assert whole.coders.final
     assert whole.adjudication is not None
+
+
+def test_the_streamed_page_is_the_rendered_page(tmp_path):
+    """The HTML file written chart by chart (each drawn where the page places it) holds the same
+    bytes as the page rendered whole with every chart drawn first, with and without Markdown (its
+    charts are then drawn once for both forms)."""
+    from coderel.adjudicate import read_decisions
+    from coderel.merge import merge
+    from coderel.report import write_report
+    from coderel.report.charts import report_charts
+    from coderel.report.html import render_html
+
+    cb = load_codebook(CB)
+    codings = read_codings(cb, [SHEETS])
+    merged = merge(codings, read_decisions(DECISIONS, cb))
+    result = agreement(codings, replicates=50)
+    when = dt.datetime(2026, 1, 1, tzinfo=dt.UTC)
+    content = build_report(codings, result, merged, generated=when)
+    whole = render_html(content, report_charts(content)).encode("utf-8")
+    assert whole.count(b"<svg") > 10  # heat maps, Bland-Altman plots, the adjudication chart
+    alone = write_report(content, tmp_path / "alone.html")
+    both = write_report(content, tmp_path / "both.html", ["html", "md"])
+    assert alone[0].read_bytes() == whole
+    assert both[0].read_bytes() == whole

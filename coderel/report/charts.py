@@ -10,7 +10,8 @@ from __future__ import annotations
 import io
 import re
 import warnings
-from collections.abc import Mapping, Sequence
+from collections.abc import Callable, Mapping, Sequence
+from functools import partial
 from html import escape
 
 import numpy as np
@@ -357,22 +358,34 @@ def bland_altman_chart(row: LimitsRow) -> str:
     return _to_svg(fig, row.chart_id)
 
 
-def report_charts(content: ReportContent) -> dict[str, str]:
-    """Every chart of a report as SVG text, by chart id (drawn once, used by HTML and Markdown)."""
+def chart_makers(content: ReportContent) -> dict[str, Callable[[], str]]:
+    """Every chart of a report by chart id, each as a call that draws it (SVG text).
+
+    The ids are known without drawing, so a writer can draw each chart when it places it and
+    let go of it after (:func:`coderel.report.write.write_report`): a Bland-Altman plot holds one
+    point per unit, tens of megabytes of SVG at a hundred thousand units.
+    """
     main = [r for r in content.table if r.kind == "variable"] or list(content.table)
     base = common_thresholds(main)
     thresholds = {"reliable": base[0], "tentative": base[1]} if main else {}
-    out = {"chart-intervals": interval_chart(content.table, **thresholds)}
+    out: dict[str, Callable[[], str]] = {
+        "chart-intervals": partial(interval_chart, content.table, **thresholds)
+    }
     for panel in content.categories:
         if panel.matrix is not None:
-            out[panel.heatmap_id] = confusion_chart(panel)
+            out[panel.heatmap_id] = partial(confusion_chart, panel)
     if content.adjudication is not None and content.adjudication.by_variable:
-        out["chart-adjudication"] = adjudication_chart(content.adjudication)
+        out["chart-adjudication"] = partial(adjudication_chart, content.adjudication)
     if content.protocol is not None:
-        out.update(content.protocol.charts)
+        out.update({k: partial(str, svg) for k, svg in content.protocol.charts.items()})
     if content.numeric:
         for panel in content.numeric:
             for pair in panel.pairs:
                 if pair.units >= 2:
-                    out[pair.chart_id] = bland_altman_chart(pair)
+                    out[pair.chart_id] = partial(bland_altman_chart, pair)
     return out
+
+
+def report_charts(content: ReportContent) -> dict[str, str]:
+    """Every chart of a report as SVG text, by chart id (drawn once, used by HTML and Markdown)."""
+    return {chart_id: draw() for chart_id, draw in chart_makers(content).items()}

@@ -162,7 +162,7 @@ def _e(value: object) -> str:
     return escape(str(value), quote=True)
 
 
-def _inline(svg: str) -> str:
+def inline_svg(svg: str) -> str:
     """matplotlib's width/height in points become a CSS maximum width (the viewBox keeps shape)."""
     end = svg.index(">")
     head = svg[:end]
@@ -206,7 +206,7 @@ def _blocks(blocks: Iterable[Block], charts: Mapping[str, str]) -> str:
         out.append(f'<h3 id="{_e(b.block_id)}">{_e(b.title)}</h3>' if b.block_id else "")
         if b.chart and b.chart in charts:
             out.append(
-                f"<figure>{_inline(charts[b.chart])}<figcaption>{_e(b.caption)}</figcaption>"
+                f"<figure>{inline_svg(charts[b.chart])}<figcaption>{_e(b.caption)}</figcaption>"
                 "</figure>"
             )
         if b.headers:
@@ -323,7 +323,7 @@ def _agreement(content: ReportContent) -> str:
 def _intervals(content: ReportContent, charts: Mapping[str, str]) -> str:
     level = level_text(content)
     return (
-        f"<figure>{_inline(charts['chart-intervals'])}<figcaption>Krippendorff's α per variable "
+        f"<figure>{inline_svg(charts['chart-intervals'])}<figcaption>Krippendorff's α per variable "
         f"with its {level} bootstrap interval ({content.reproducibility.replicates:,} "
         "replicates). Colours follow the verdict: green reliable, ochre tentative, red "
         "unreliable. The dashed line (.667) and the solid line (.800) are conventions of the "
@@ -348,7 +348,7 @@ def _categories(content: ReportContent, charts: Mapping[str, str]) -> str:
         out.append('<div class="panel-body">')
         if p.matrix is not None and p.heatmap_id in charts:
             out.append(
-                f'<figure class="heat">{_inline(charts[p.heatmap_id])}'
+                f'<figure class="heat">{inline_svg(charts[p.heatmap_id])}'
                 f"<figcaption>{_e(p.matrix_caption)}</figcaption></figure>"
             )
         heads = [CATEGORY_TITLES.get(c, c) for c in p.category_columns]
@@ -433,8 +433,8 @@ def _adjudication(content: ReportContent, charts: Mapping[str, str]) -> str:
     ]
     if "chart-adjudication" in charts:
         out.append(
-            f"<figure>{_inline(charts['chart-adjudication'])}<figcaption>Status of every cell of "
-            "the final dataset, by variable.</figcaption></figure>"
+            f"<figure>{inline_svg(charts['chart-adjudication'])}<figcaption>Status of every cell "
+            "of the final dataset, by variable.</figcaption></figure>"
         )
     heads = ["Variable", *(s.replace("_", " ") for s in STATUSES)]
     rows = [[name, *(f"{n:,}" for n in counts)] for name, counts in adj.by_variable]
@@ -486,7 +486,7 @@ def _numeric(content: ReportContent, charts: Mapping[str, str]) -> str:
         for pair in panel.pairs:
             svg = charts.get(pair.chart_id)
             if svg:
-                parts.append(f'<figure class="chart">{_inline(svg)}</figure>')
+                parts.append(f'<figure class="chart">{inline_svg(svg)}</figure>')
     return "".join(parts)
 
 

@@ -3,14 +3,17 @@
 from __future__ import annotations
 
 import os
-from collections.abc import Iterable
+import re
+import secrets
+from collections.abc import Callable, Iterable, Mapping
+from functools import partial
 from pathlib import Path
 
 from coderel.errors import UsageError
-from coderel.io.atomic import write_text
+from coderel.io.atomic import open_atomic, write_text
 from coderel.progress import Progress, report
-from coderel.report.charts import report_charts, standalone_svg
-from coderel.report.html import render_html
+from coderel.report.charts import chart_makers, report_charts, standalone_svg
+from coderel.report.html import inline_svg, render_html
 from coderel.report.markdown import chart_file, render_markdown
 from coderel.report.model import ReportContent
 from coderel.report.xlsx import write_report_xlsx
@@ -82,14 +85,19 @@ def write_report(
     written: list[Path] = []
     extra: list[Path] = []
     steps = len(targets) + 1
+    with_md = any(report_format(t.suffix) == "md" for t in targets)
     for done, target in enumerate(targets):
         form = report_format(target.suffix)
-        if form in ("html", "md") and charts is None:
+        if with_md and charts is None:
             report(progress, done, steps, "drawing charts")
             charts = report_charts(content)
         report(progress, done + 1, steps, f"writing {target.name}")
         if form == "html":
-            write_text(target, render_html(content, charts))
+            if charts is not None:
+                makers = {chart_id: partial(str, svg) for chart_id, svg in charts.items()}
+            else:  # each chart drawn where the page places it, and let go of after
+                makers = chart_makers(content)
+            write_html(target, content, makers)
         elif form == "md":
             folder = charts_folder(target)
             for chart_id, svg in (charts or {}).items():
@@ -102,3 +110,29 @@ def write_report(
         written.append(target)
     report(progress, steps, steps)
     return written + extra
+
+
+def write_html(
+    target: str | os.PathLike[str], content: ReportContent, charts: Mapping[str, Callable[[], str]]
+) -> None:
+    """Write the HTML report atomically, placing each chart as it comes: the same bytes as
+    ``render_html(content, report_charts(content))``, without the whole page, the charts or its
+    encoded bytes in memory at once (on a hundred thousand units its Bland-Altman plots make a
+    page of about 180 MB).
+
+    The page is rendered with a short slot in each chart's place (a tag with a fresh random mark,
+    which :func:`coderel.report.html.render_html` leaves as it is); the file is then written piece
+    by piece, each chart drawn (``charts[chart_id]()``) when its slot comes.
+    """
+    mark = secrets.token_hex(8)
+    ids = list(charts)
+    slots = {chart_id: f"<svg {mark}-{i}>" for i, chart_id in enumerate(ids)}
+    page = render_html(content, slots)
+    pieces = re.split(rf"<svg {mark}-(\d+)>", page)
+    del page
+    with open_atomic(target, "wb") as fh:
+        for i, piece in enumerate(pieces):
+            if i % 2:
+                fh.write(inline_svg(charts[ids[int(piece)]]()).encode("utf-8"))
+            else:
+                fh.write(piece.encode("utf-8"))
