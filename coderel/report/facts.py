@@ -86,36 +86,53 @@ def table_facts(
     )
 
 
+#: Rows of the table looked at in one go by :func:`_cells` (a few object arrays of this length
+#: at a time beside the table, instead of a copy of each column).
+BLOCK_ROWS = 1 << 20
+
+
 def _cells(frame: pd.DataFrame, codebook: Codebook) -> tuple[int, int]:
     """Rows of the codebook's variables with a value (not ``None``), and blank rows whose
-    condition is false (``applies`` is ``False``)."""
+    condition is false (``applies`` is ``False``), a block of rows at a time."""
     names = [v.name for v in codebook.variables]
     in_cb = frame["variable"].isin(names).to_numpy()
-    values = frame["value"].to_numpy(dtype=object)[in_cb]
-    blank = np.equal(values, None)
-    filled = int(len(values) - blank.sum())
-    applies = frame["applies"].to_numpy(dtype=object)[in_cb][blank]
-    # `is False`, as the table stores it: None (condition value blank) and True do not count
-    not_applicable = sum(1 for a in applies.tolist() if a is False)
+    filled = not_applicable = 0
+    for start in range(0, len(frame), BLOCK_ROWS):
+        rows = slice(start, start + BLOCK_ROWS)
+        keep = in_cb[rows]
+        values = frame["value"].iloc[rows].to_numpy(dtype=object)[keep]
+        blank = np.equal(values, None)
+        filled += int(len(values) - blank.sum())
+        applies = frame["applies"].iloc[rows].to_numpy(dtype=object)[keep][blank]
+        # `is False`, as the table stores it: None (condition value blank) and True do not count
+        not_applicable += sum(1 for a in applies.tolist() if a is False)
     return filled, not_applicable
 
 
 def _coders_per_unit(frame: pd.DataFrame) -> tuple[np.ndarray, pd.Series]:
-    """Per unit with rows the number of distinct coders with rows
-    for it, and per coder name the number of distinct units, from the columns' category codes."""
+    """Per unit with rows the number of distinct coders with rows for it, and per coder name the
+    number of distinct units, from the columns' category codes (a units x coders grid of flags
+    when it takes at most 64 MB, as :func:`coderel.agree.prepare.prepare` counts single-coded
+    units)."""
     unit = frame["unit"]
     coder = frame["coder"]
     if not isinstance(unit.dtype, pd.CategoricalDtype):
         unit = unit.astype("category")
     if not isinstance(coder.dtype, pd.CategoricalDtype):
         coder = coder.astype("category")
-    u = unit.cat.codes.to_numpy().astype(np.int64)
-    c = coder.cat.codes.to_numpy().astype(np.int64)
+    u = unit.cat.codes.to_numpy()
+    c = coder.cat.codes.to_numpy()
     ok = (u >= 0) & (c >= 0)
-    n_coders = len(coder.cat.categories)
-    pairs = np.unique(u[ok] * max(n_coders, 1) + c[ok])
-    per_unit = np.bincount(pairs // max(n_coders, 1), minlength=len(unit.cat.categories))
-    per_coder = np.bincount(pairs % max(n_coders, 1), minlength=n_coders)
+    n_units, n_coders = len(unit.cat.categories), len(coder.cat.categories)
+    if n_units * n_coders <= 64_000_000:
+        seen = np.zeros((n_units, n_coders), dtype=bool)
+        seen[u[ok], c[ok]] = True
+        per_unit = seen.sum(axis=1)
+        per_coder = seen.sum(axis=0)
+    else:
+        pairs = np.unique(u[ok].astype(np.int64) * n_coders + c[ok])
+        per_unit = np.bincount(pairs // n_coders, minlength=n_units)
+        per_coder = np.bincount(pairs % n_coders, minlength=n_coders)
     # units and coders without rows are no groups (a table restricted to some units keeps every
     # category)
     return per_unit[per_unit > 0], pd.Series(per_coder, index=coder.cat.categories.astype(str))
