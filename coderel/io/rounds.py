@@ -97,7 +97,12 @@ def round_names(codings: Codings) -> list[str]:
     """The rounds of codings read from tables with a ``round`` column, in natural order."""
     from coderel.codings import natural_order
 
-    units = pd.unique(codings.frame["unit"].astype(str))
+    column = codings.frame["unit"]
+    if isinstance(column.dtype, pd.CategoricalDtype):
+        # the unit IDs in use, from the categories: no text per row of a long table
+        units = [str(u) for u in column.cat.remove_unused_categories().cat.categories]
+    else:
+        units = pd.unique(column.astype(str))
     return natural_order({u.partition(ROUND_MARK)[0] for u in units if ROUND_MARK in u})
 
 
