@@ -73,7 +73,8 @@ def write_report(
     formats
         Any of ``html``, ``md``, ``xlsx``.
     progress
-        Told of each phase ("drawing charts", "writing report.html"; :mod:`coderel.progress`).
+        Told of each phase ("drawing charts", "writing report.html", or with HTML alone
+        "drawing charts, writing report.html", chart by chart; :mod:`coderel.progress`).
 
     Returns
     -------
@@ -91,13 +92,20 @@ def write_report(
         if with_md and charts is None:
             report(progress, done, steps, "drawing charts")
             charts = report_charts(content)
-        report(progress, done + 1, steps, f"writing {target.name}")
+        # with HTML alone, each chart is drawn where the page places it and let go of after
+        lazy = form == "html" and charts is None
+        phase = f"drawing charts, writing {target.name}" if lazy else f"writing {target.name}"
+        report(progress, done + 1, steps, phase)
         if form == "html":
-            if charts is not None:
-                makers = {chart_id: partial(str, svg) for chart_id, svg in charts.items()}
-            else:  # each chart drawn where the page places it, and let go of after
-                makers = chart_makers(content)
-            write_html(target, content, makers)
+            if lazy:
+                write_html(
+                    target,
+                    content,
+                    chart_makers(content),
+                    progress=lambda i, n, phase=phase: report(progress, i, n, phase),
+                )
+            else:
+                write_html(target, content, {k: partial(str, v) for k, v in (charts or {}).items()})
         elif form == "md":
             folder = charts_folder(target)
             for chart_id, svg in (charts or {}).items():
@@ -113,7 +121,11 @@ def write_report(
 
 
 def write_html(
-    target: str | os.PathLike[str], content: ReportContent, charts: Mapping[str, Callable[[], str]]
+    target: str | os.PathLike[str],
+    content: ReportContent,
+    charts: Mapping[str, Callable[[], str]],
+    *,
+    progress: Callable[[int, int], None] | None = None,
 ) -> None:
     """Write the HTML report atomically, placing each chart as it comes: the same bytes as
     ``render_html(content, report_charts(content))``, without the whole page, the charts or its
@@ -122,7 +134,8 @@ def write_html(
 
     The page is rendered with a short slot in each chart's place (a tag with a fresh random mark,
     which :func:`coderel.report.html.render_html` leaves as it is); the file is then written piece
-    by piece, each chart drawn (``charts[chart_id]()``) when its slot comes.
+    by piece, each chart drawn (``charts[chart_id]()``) when its slot comes; ``progress(done,
+    total)`` is told of each chart placed.
     """
     mark = secrets.token_hex(8)
     ids = list(charts)
@@ -130,9 +143,14 @@ def write_html(
     page = render_html(content, slots)
     pieces = re.split(rf"<svg {mark}-(\d+)>", page)
     del page
+    total = len(pieces) // 2
     with open_atomic(target, "wb") as fh:
         for i, piece in enumerate(pieces):
             if i % 2:
+                if progress is not None:
+                    progress(i // 2, total)
                 fh.write(inline_svg(charts[ids[int(piece)]]()).encode("utf-8"))
             else:
                 fh.write(piece.encode("utf-8"))
+    if progress is not None:
+        progress(total, total)
