@@ -41,7 +41,7 @@ from openpyxl.worksheet.datavalidation import DataValidation
 from coderel.codebook import Codebook, Variable
 from coderel.errors import UsageError
 from coderel.io.atomic import refuse_overwriting_inputs, write_bytes
-from coderel.io.tables import cell_value, workbook_bytes
+from coderel.io.tables import cell_value, check_sheet_rows, workbook_bytes
 from coderel.progress import Progress, report
 
 __all__ = [
@@ -478,6 +478,8 @@ def write_templates(
             "workbooks (one <coder>.xlsx each), for example 'templates'"
         )
     targets = [folder / f"{name}.xlsx" for name in names]
+    for name, target in zip(names, targets, strict=True):
+        check_sheet_rows(len(per_coder[name]), target, CODING_SHEET)
     protected = [*inputs, *([codebook.source] if codebook.source else [])]
     refuse_overwriting_inputs(targets, protected)
     contents = []

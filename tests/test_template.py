@@ -367,3 +367,16 @@ def test_large_and_fractional_limits_are_written_in_full(tmp_path):
     (dv,) = openpyxl.load_workbook(path)[CODING_SHEET].data_validations.dataValidation
     assert (dv.type, dv.formula1, dv.formula2) == ("decimal", "0.5", "2500000")
     assert "from 0.5 to 2500000" in dv.prompt
+
+
+def test_a_unit_list_longer_than_a_sheet_is_refused(tmp_path, cb, monkeypatch):
+    """A coding sheet holds 1,048,576 rows with its header (ECMA-376 Part 1, 18.3.1.73): a unit
+    list past that is refused before any workbook is made (the limit made small here)."""
+    import coderel.io.tables as tables
+
+    monkeypatch.setattr(tables, "SHEET_ROWS", 4)
+    units = read_unit_list(UNITS)
+    with pytest.raises(UsageError, match=r"'ana\.xlsx'.*would have 4 rows"):
+        write_templates(cb, ["ana", "ben"], tmp_path / "out", units[:4])
+    assert not (tmp_path / "out").exists()
+    assert len(write_templates(cb, ["ana"], tmp_path / "out", units[:3])) == 1
