@@ -174,7 +174,8 @@ def coder_column(coder: str) -> str:
 def main_columns(
     coders: Sequence[str], text_columns: Sequence[str], extra_columns: Sequence[str] = ()
 ) -> list[str]:
-    """Columns of the main list: the header convention :mod:`coderel.adjudicate.read` relies on.
+    """Columns of the main list: the header convention :mod:`coderel.adjudicate.list_headers`
+    relies on.
 
     ``unit``, ``variable``, ``kind``; one column per coder; the text columns; ``decision``,
     ``note``, ``adjudicator``, ``check``, ``key``; then the columns an adjudicator added.
