@@ -1,7 +1,8 @@
 """Cells grouped once and classified on arrays, and a merge settled a variable at a time.
 
-:func:`coderel.adjudicate.cell_table.cell_table` and :func:`coderel.merge.settlement.settle_variable`
-restructure work that :func:`coderel.adjudicate.tokens.classify` and
+:func:`coderel.adjudicate.cell_table.cell_table`, :func:`coderel.merge.summary.variable_cells`
+(the merge's per-unit summaries) and :func:`coderel.merge.settlement.settle_cells` restructure
+work that :func:`coderel.adjudicate.tokens.classify` and
 :func:`coderel.merge.cells.decide_cell` define for one cell. The oracle here is that definition,
 applied cell by cell to the tokens each coder's rows give (a coder's later row for a cell replaces
 the earlier one): on random long tables with repeated rows, coders who find a variable does not
@@ -11,7 +12,6 @@ same kind, the same token, the same status and the same final value.
 
 from __future__ import annotations
 
-import numpy as np
 import pandas as pd
 from hypothesis import given, settings
 from hypothesis import strategies as st
@@ -23,7 +23,8 @@ from coderel.codebook import Category, Codebook, MissingCode, Variable
 from coderel.codings import Codings
 from coderel.merge import merge
 from coderel.merge.cells import decide_cell
-from coderel.merge.settlement import cell_grid, settle_variable
+from coderel.merge.settlement import settle_cells
+from coderel.merge.summary import row_index, variable_cells
 from tests.token_oracle import tokens_row_by_row
 
 CB = Codebook(
@@ -94,6 +95,26 @@ def test_kinds_and_tokens_match_classify_cell_by_cell(rows):
 
 
 @settings(max_examples=150, deadline=None)
+@given(_rows)
+def test_per_unit_summaries_match_classify_cell_by_cell(rows):
+    codings = _codings(rows)
+    oracle = tokens_row_by_row(codings)
+    ix = row_index(codings)
+    assert ix.units == sorted({u for u, *_ in rows}, key=lambda u: (len(u), u))  # U1 U2 U3 U10
+    for var in CB.variables:
+        cells = variable_cells(var, ix)
+        for u, unit in enumerate(ix.units):
+            tokens = oracle.get((unit, var.name), {})
+            # the same tokens, coders in the order of their first rows: 2 and 2.0 kept apart
+            assert repr(cells.cell_tokens(u)) == repr(tokens)
+            assert KINDS[cells.kind[u]] == (classify(tokens) if tokens else None)
+            assert cells.per_unit[u] == len(tokens)
+            if tokens and classify(tokens) is None:
+                kept = next(iter(set(tokens.values())))
+                assert repr(cells.tokens[cells.token[u]]) == repr(kept)
+
+
+@settings(max_examples=150, deadline=None)
 @given(
     _rows,
     st.sampled_from(["unanimous", "majority"]),
@@ -103,34 +124,36 @@ def test_kinds_and_tokens_match_classify_cell_by_cell(rows):
 def test_a_variable_settled_at_once_matches_decide_cell(rows, rule, tolerance, decided):
     codings = _codings(rows)
     settling = Settling(rule, tolerance)
-    table = cell_table(codings)
     oracle = tokens_row_by_row(codings)
-    units = sorted({u for u, *_ in rows})
-    grid = cell_grid(table, units, CB.names)
-    for j, var in enumerate(CB.variables):
+    ix = row_index(codings)
+    units = ix.units
+    for var in CB.variables:
         decision = Decision(value=2, token=("value", 2), text="2")
         decisions = {u: decision for u, unit in enumerate(units) if unit in decided}
-        cells = grid[:, j].tolist()
-        statuses, finals, used = settle_variable(var, cells, table, decisions, settling)
+        settled = settle_cells(variable_cells(var, ix), decisions, settling)
+        statuses, finals, used = settled.statuses(), settled.finals(), settled.used.tolist()
         for u, unit in enumerate(units):
             tokens = oracle.get((unit, var.name), {})
             status, token, was_used = decide_cell(var, tokens, settling, decisions.get(u))
             assert (statuses[u], repr(finals[u]), u in used) == (status, repr(token), was_used)
 
 
-def test_the_grid_places_each_cell_at_its_unit_and_variable():
+def test_each_unit_has_its_own_cells():
     rows = [
         ("U2", "ann", "rangers", (4, None, True)),
         ("U1", "ann", "trail", (1, None, True)),
         ("U2", "bob", "trail", (2, None, True)),
         ("U9", "ann", "elsewhere", (1, None, True)),
     ]
-    table = cell_table(_codings(rows))
-    grid = cell_grid(table, ["U1", "U2", "U9"], CB.names)
-    placed = {
-        (u, n): (table.unit[c], table.variable[c]) for (u, n), c in np.ndenumerate(grid) if c >= 0
-    }
-    assert placed == {(0, 0): ("U1", "trail"), (1, 0): ("U2", "trail"), (1, 1): ("U2", "rangers")}
+    ix = row_index(_codings(rows))
+    assert ix.units == ["U1", "U2", "U9"]  # U9 has rows, of a variable the codebook lacks
+    trail, rangers = (variable_cells(v, ix) for v in CB.variables)
+    assert [trail.cell_tokens(u) for u in range(3)] == [
+        {"ann": ("value", 1)},
+        {"bob": ("value", 2)},
+        {},
+    ]
+    assert [rangers.cell_tokens(u) for u in range(3)] == [{}, {"ann": ("value", 4)}, {}]
 
 
 def test_merge_of_an_empty_table_has_no_rows():

@@ -65,6 +65,7 @@ def merge_command(
     from coderel.io.atomic import refuse_overwriting_inputs
     from coderel.io.read import collect_files
     from coderel.io.tables import table_format
+    from coderel.memory import release_freed
     from coderel.merge import STATUSES, merge, write_merged
 
     table_format(out)
@@ -100,6 +101,9 @@ def merge_command(
         tolerances = parse_tolerances(tolerance or [], cb)
         with delayed_progress("settling cells"):
             result = merge(codings, loaded, rule=rule, tolerance=tolerances)
+        # the dataset is written from the result alone: the long table goes first
+        del codings, loaded
+        release_freed()
     bad = Problems(result.problems.errors)
     written = False
     reason = None
@@ -139,7 +143,7 @@ def merge_command(
     else:
         _print_statuses(result)
     print_problems(result.problems)
-    _print_unresolved(result.unresolved_records())
+    _print_unresolved(result.unresolved_records(SHOWN_UNRESOLVED), len(result.unresolved))
     totals = result.totals()
     counts = ", ".join(f"{totals[s]} {s}" for s in STATUSES if totals[s])
     inform(
@@ -170,10 +174,11 @@ def _print_statuses(result: MergeResult) -> None:
     out_console().print(table)
 
 
-def _print_unresolved(unresolved: list[dict]) -> None:
+def _print_unresolved(unresolved: list[dict], total: int) -> None:
+    """The first of ``total`` unresolved cells (``unresolved``), and how many more there are."""
     if not unresolved:
         return
-    table = Table(title=f"{len(unresolved)} unresolved cell(s)")
+    table = Table(title=f"{total} unresolved cell(s)")
     for col in ("unit", "variable", "coders' values"):
         table.add_column(col, overflow="fold")
     for cell in unresolved[:SHOWN_UNRESOLVED]:
@@ -181,5 +186,5 @@ def _print_unresolved(unresolved: list[dict]) -> None:
         table.add_row(cell["unit"], cell["variable"], shown)
     console = err_console()
     console.print(table)
-    if len(unresolved) > SHOWN_UNRESOLVED:
-        console.print(f"... and {len(unresolved) - SHOWN_UNRESOLVED} more (--json lists all)")
+    if total > SHOWN_UNRESOLVED:
+        console.print(f"... and {total - SHOWN_UNRESOLVED} more (--json lists all)")

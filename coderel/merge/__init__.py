@@ -35,6 +35,7 @@ multi-select value is its codes joined with ``;`` in codebook order (``1;3``) in
 xlsx and parquet alike; :func:`spread` adds one 0/1 column ``<variable>__<code>`` per category.
 
 The package: ``result`` (statuses, rules, adjudicated cells), ``cells`` (deciding one cell),
+``summary`` (a variable's per-unit summary: the coders' tokens as integer ids),
 ``settlement`` (a variable's cells decided at once),
 ``columns`` (value and status columns, the skip-logic check), ``core`` (:func:`merge`, the result,
 writing), ``tables`` (spread columns, labels, data dictionary).

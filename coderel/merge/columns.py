@@ -5,13 +5,14 @@ from __future__ import annotations
 from collections.abc import Mapping, Sequence
 from typing import Any
 
+import numpy as np
 import pandas as pd
 
-from coderel.adjudicate import Token
 from coderel.codebook import Codebook, Variable
 from coderel.codings import condition_holds
 from coderel.errors import UsageError
 from coderel.merge.result import MISSING_SUFFIX, STATUS_SUFFIX
+from coderel.merge.settlement import STATUS_CODE, Settled
 from coderel.problems import Problems
 
 
@@ -68,43 +69,97 @@ def output_columns(codebook: Codebook) -> list[str]:
     return cols
 
 
+def value_column_of(var: Variable, values: Sequence[Any], ids: np.ndarray) -> pd.Series:
+    """:func:`value_column` of ``[values[i] for i in ids]`` (``None`` where ``i`` is -1), each
+    distinct value converted once: ``values`` are the final values by token id."""
+    used = np.unique(ids[ids >= 0]).tolist()
+    present = [values[i] for i in used if values[i] is not None]
+    if var.multiple or not all(_is_number(v) for v in present):
+        text = [None if v is None else str(v) for v in values]
+        return pd.Series(_lookup(text, used, None)[ids], dtype=object)
+    whole = var.integer or (var.is_categorical and all(isinstance(v, int) for v in present))
+    if whole and all(float(v).is_integer() for v in present):
+        ints = np.zeros(len(values) + 1, dtype=np.int64)
+        empty = np.ones(len(values) + 1, dtype=bool)
+        for i in used:
+            if values[i] is not None:
+                ints[i], empty[i] = int(values[i]), False
+        return pd.Series(pd.arrays.IntegerArray(ints[ids], empty[ids]))
+    floats = np.full(len(values) + 1, np.nan)
+    for i in used:
+        if values[i] is not None:
+            floats[i] = float(values[i])
+    return pd.Series(floats[ids], dtype="float64")
+
+
+def missing_codes_column_of(var: Variable, codes: Sequence[Any], ids: np.ndarray) -> pd.Series:
+    """:func:`missing_codes_column` of ``[codes[i] for i in ids]`` (``None`` where ``i`` is
+    -1), each distinct code converted once: ``codes`` are the missing codes by token id."""
+    used = np.unique(ids[ids >= 0]).tolist()
+    if all(isinstance(c, int) and not isinstance(c, bool) for c in var.missing_codes):
+        ints = np.zeros(len(codes) + 1, dtype=np.int64)
+        empty = np.ones(len(codes) + 1, dtype=bool)
+        for i in used:
+            if codes[i] is not None:
+                ints[i], empty[i] = int(codes[i]), False
+        return pd.Series(pd.arrays.IntegerArray(ints[ids], empty[ids]))
+    text = [None if c is None else str(c) for c in codes]
+    return pd.Series(_lookup(text, used, None)[ids], dtype=object)
+
+
+def _lookup(objects: Sequence[Any], used: Sequence[int], absent: Any) -> np.ndarray:
+    """An object array of ``objects`` at ``used`` (``absent`` elsewhere), one longer: index -1
+    gives ``absent``."""
+    out = np.full(len(objects) + 1, absent, dtype=object)
+    for i in used:
+        out[i] = objects[i]
+    return out
+
+
 def check_skip_logic(
     cb: Codebook,
     units: Sequence[str],
-    tokens_by_var: Mapping[str, Sequence[Token | None]],
-    statuses_by_var: Mapping[str, Sequence[str]],
+    settled: Mapping[str, Settled],
     problems: Problems,
 ) -> None:
     """Warn where a conditional variable's final value contradicts its condition's final value.
 
     Each coder's sheet obeys the skip logic on its own, but final values are settled cell by cell
     (an adjudicator may drop code 3 from ``actions`` yet keep a ``spray_worked`` value), so the
-    merged row is checked once more.
+    merged row is checked once more. Each distinct final token is judged once; the units are
+    compared on arrays.
     """
     for var in cb.variables:
         cond = var.applies_when
         if cond is None or cond.variable not in cb:
             continue
         cond_var = cb.variable(cond.variable)
-        for i, unit in enumerate(units):
-            cond_token = tokens_by_var[cond.variable][i]
-            if cond_token is None or cond_token[0] != "value":
-                continue  # condition unresolved, blank or missing: nothing to compare
-            holds = condition_holds(cond_var, cond_token[1], cond.includes)
-            token = tokens_by_var[var.name][i]
-            has_value = token is not None and token[0] in ("value", "missing")
-            is_na = statuses_by_var[var.name][i] == "not_applicable" or (
-                token is not None and token[0] == "na"
-            )
-            if not ((not holds and has_value) or (holds and is_na)):
-                continue
-            includes = ", ".join(cond_var.display(c) for c in cond.includes)
+        given = settled[cond.variable]
+        # id -1 (no final token) takes the last entry of each lookup
+        is_value = np.array([t[0] == "value" for t in given.tokens] + [False])[given.final]
+        holds = np.array(
+            [
+                t[0] == "value" and bool(condition_holds(cond_var, t[1], cond.includes))
+                for t in given.tokens
+            ]
+            + [False]
+        )[given.final]
+        own = settled[var.name]
+        has_value = np.array([t[0] in ("value", "missing") for t in own.tokens] + [False])
+        is_na = np.array([t[0] == "na" for t in own.tokens] + [False])[own.final] | (
+            own.status == STATUS_CODE["not_applicable"]
+        )
+        has_value = has_value[own.final]
+        flagged = is_value & ((~holds & has_value) | (holds & is_na))
+        includes = ", ".join(cond_var.display(c) for c in cond.includes)
+        for i in np.flatnonzero(flagged).tolist():
+            given_value = bool(has_value[i])
             problems.add(
                 "merged-skip-logic",
-                f"the final {var.name} is {'given' if has_value else 'not applicable'}, but the "
-                f"final {cond.variable} {'is' if holds else 'is not'} one of {includes}",
+                f"the final {var.name} is {'given' if given_value else 'not applicable'}, but "
+                f"the final {cond.variable} {'is' if holds[i] else 'is not'} one of {includes}",
                 hint=f"settle {cond.variable} and {var.name} of this unit together (adjudication "
                 "list), so that the skip logic holds",
-                unit=unit,
+                unit=units[i],
                 variable=var.name,
             )

@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import os
-from collections import Counter
 from collections.abc import Mapping
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -12,15 +11,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from coderel.adjudicate import (
-    Decision,
-    Decisions,
-    Token,
-    read_decisions,
-    shown_values,
-    sorted_units,
-)
-from coderel.adjudicate.cell_table import cell_table
+from coderel.adjudicate import Decision, Decisions, read_decisions, shown_values
 from coderel.adjudicate.rules import Rule, Settling
 from coderel.codebook import Codebook
 from coderel.codings import Codings, SourceFile
@@ -28,14 +19,15 @@ from coderel.merge.cells import MARKED, final_missing, final_value, stale_reason
 from coderel.merge.columns import (
     check_skip_logic,
     has_missing_column,
-    missing_codes_column,
+    missing_codes_column_of,
     missing_column,
     output_columns,
     status_column,
-    value_column,
+    value_column_of,
 )
 from coderel.merge.result import STATUSES, AdjudicatedCell
-from coderel.merge.settlement import cell_grid, settle_variable
+from coderel.merge.settlement import STATUS_CODE, Settled, settle_cells
+from coderel.merge.summary import VariableCells, row_index, variable_cells
 from coderel.merge.tables import (
     DATA_SHEET,
     DICTIONARY_SHEET,
@@ -121,12 +113,14 @@ class MergeResult:
                 out[s] += n
         return out
 
-    def unresolved_records(self) -> list[dict[str, Any]]:
-        """Every unresolved cell: unit, variable and the coders' values (codes, never text)."""
+    def unresolved_records(self, limit: int | None = None) -> list[dict[str, Any]]:
+        """Every unresolved cell (the first ``limit`` of them): unit, variable and the coders'
+        values (codes, never text)."""
+        cells = self.unresolved[:limit] if limit is not None else self.unresolved
         values = self.unresolved_values or tuple({} for _ in self.unresolved)
         return [
             {"unit": u, "variable": v, "coders": dict(shown)}
-            for (u, v), shown in zip(self.unresolved, values, strict=True)
+            for (u, v), shown in zip(cells, values[: len(cells)], strict=True)
         ]
 
     def to_dict(self) -> dict[str, Any]:
@@ -191,29 +185,87 @@ def merge(
     problems = Problems()
     if decisions is not None:
         problems.extend(decisions.problems)
-    table = cell_table(codings)
-    shown_cache: dict[Any, str] = {}  # each variable's tokens as shown, formatted once
-    units = sorted_units(codings.frame["unit"].tolist())  # codings.units, sorted once
-    unit_set = set(units)
-    usable: dict[tuple[str, str], Decision] = {}
-    stale: list[dict[str, Any]] = []
+    ix = row_index(codings)
+    units = ix.units
+    at_unit = {u: i for i, u in enumerate(units)}
     place = {}
     if decisions is not None and decisions.source is not None:
         place["file"] = Path(decisions.source.path).name
-    for (unit, name), decision in (decisions.decisions if decisions is not None else {}).items():
+    # Each decision is checked against its cell when its variable is settled; its problem (a
+    # variable the codebook lacks, or a stale decision) keeps the decisions' order.
+    outcome: list[tuple[str, Any] | None] = []
+    decided_by_var: dict[str, list[tuple[int, str, Decision]]] = {}
+    for k, ((unit, name), decision) in enumerate(
+        (decisions.decisions if decisions is not None else {}).items()
+    ):
+        outcome.append(None)
         if name not in cb:
+            outcome[k] = ("bad", unit)
+            continue
+        decided_by_var.setdefault(name, []).append((k, unit, decision))
+
+    shown_cache: dict[Any, str] = {}  # each variable's tokens as shown, formatted once
+    data: dict[str, Any] = {cb.unit: pd.Series(units, dtype=object)}
+    status_counts: dict[str, dict[str, int]] = {}
+    adjudicated: list[AdjudicatedCell] = []
+    settled_by_var: dict[str, Settled] = {}
+    open_keys: list[np.ndarray] = []
+    open_shown: list[list[dict[str, str]]] = []
+    status_text = np.array(STATUSES, dtype=object)
+    for j, var in enumerate(cb.variables):
+        cells = variable_cells(var, ix)
+        usable: dict[int, Decision] = {}
+        for k, unit, decision in decided_by_var.get(var.name, []):
+            u = at_unit.get(unit)
+            tokens = cells.cell_tokens(u) if u is not None else {}
+            shown = shown_values(var, tokens, shown_cache)
+            reason = stale_reason(decision, tokens, shown, u is not None)
+            if reason is None:
+                usable[u] = decision  # type: ignore[index]
+            else:
+                outcome[k] = ("stale", reason)
+        settled = settle_cells(cells, usable, settling)
+        values = [final_value(var, t) for t in settled.tokens]
+        missing = [final_missing(t) for t in settled.tokens]
+        for i in settled.used.tolist():
+            t = int(settled.final[i])
+            decision = usable[i]
+            adjudicated.append(
+                AdjudicatedCell(
+                    unit=units[i],
+                    variable=var.name,
+                    values=shown_values(var, cells.cell_tokens(i), shown_cache),
+                    decision=decision.text,
+                    value=values[t] if missing[t] is None else missing[t],
+                    adjudicator=decision.adjudicator,
+                    note=decision.note,
+                    cell=decision.cell,
+                )
+            )
+        data[var.name] = value_column_of(var, values, settled.final)
+        data[status_column(var.name)] = pd.Series(status_text[settled.status], dtype=object)
+        if has_missing_column(var):
+            data[missing_column(var.name)] = missing_codes_column_of(var, missing, settled.final)
+        counts = np.bincount(settled.status, minlength=len(STATUSES)).tolist()
+        status_counts[var.name] = dict(zip(STATUSES, counts, strict=True))
+        is_open = np.flatnonzero(settled.status == STATUS_CODE["unresolved"])
+        open_keys.append(is_open * len(cb.variables) + j)
+        open_shown.append(_shown_cells(cells, is_open, shown_cache))
+        settled_by_var[var.name] = settled
+        del cells
+    stale: list[dict[str, Any]] = []
+    for k, ((unit, name), decision) in enumerate(
+        (decisions.decisions if decisions is not None else {}).items()
+    ):
+        if outcome[k] is None:
+            continue
+        kind, what = outcome[k]  # type: ignore[misc]
+        if kind == "bad":
             problems.add(
                 "bad-decision", "a decision for a variable the codebook lacks", unit=unit, **place
             )
             continue
-        cell = table.index.get((unit, name))
-        tokens = table.tokens(cell) if cell is not None else {}
-        var = cb.variable(name)
-        shown = shown_values(var, tokens, shown_cache)
-        reason = stale_reason(decision, tokens, shown, unit in unit_set)
-        if reason is None:
-            usable[(unit, name)] = decision
-            continue
+        reason = what
         stale.append({"unit": unit, "variable": name, "cell": decision.cell, "reason": reason})
         problems.add(
             "stale-decision",
@@ -232,58 +284,18 @@ def merge(
             sheet=None if place.get("file", "").lower().endswith(".csv") else "to decide",
             **place,
         )
-
-    data: dict[str, Any] = {cb.unit: pd.Series(units, dtype=object)}
-    status_counts: dict[str, dict[str, int]] = {}
-    unresolved: list[tuple[str, str]] = []
-    unresolved_values: list[dict[str, str]] = []
-    adjudicated: list[AdjudicatedCell] = []
-    statuses_by_var: dict[str, list[str]] = {}
-    tokens_by_var: dict[str, list[Token | None]] = {}
-    grid = cell_grid(table, units, cb.names)
-    at_unit = {u: i for i, u in enumerate(units)}
-    decided_by_var: dict[str, dict[int, Decision]] = {}
-    for (unit, name), decision in usable.items():
-        decided_by_var.setdefault(name, {})[at_unit[unit]] = decision
-    for j, var in enumerate(cb.variables):
-        cells = grid[:, j].tolist()
-        decided = decided_by_var.get(var.name, {})
-        statuses, finals, used = settle_variable(var, cells, table, decided, settling)
-        tokens_by_var[var.name] = finals
-        values = [None if token is None else final_value(var, token) for token in finals]
-        missing = [final_missing(token) for token in finals]
-        for i in used:
-            decision = decided[i]
-            adjudicated.append(
-                AdjudicatedCell(
-                    unit=units[i],
-                    variable=var.name,
-                    values=shown_values(var, table.tokens(cells[i]), shown_cache),
-                    decision=decision.text,
-                    value=values[i] if missing[i] is None else missing[i],
-                    adjudicator=decision.adjudicator,
-                    note=decision.note,
-                    cell=decision.cell,
-                )
-            )
-        data[var.name] = value_column(var, values)
-        data[status_column(var.name)] = pd.Series(statuses, dtype=object)
-        if has_missing_column(var):
-            data[missing_column(var.name)] = missing_codes_column(var, missing)
-        counts = Counter(statuses)
-        status_counts[var.name] = {s: counts.get(s, 0) for s in STATUSES}
-        statuses_by_var[var.name] = statuses
-    is_open = np.array(
-        [[s == "unresolved" for s in statuses_by_var[n]] for n in cb.names], dtype=bool
-    ).reshape(len(cb.names), len(units))
-    open_rows, open_cols = np.nonzero(is_open.T)  # by unit, then codebook order
-    for i, j in zip(open_rows.tolist(), open_cols.tolist(), strict=True):
-        var = cb.variables[j]
-        unresolved.append((units[i], var.name))
-        cell = int(grid[i, j])
-        tokens = table.tokens(cell) if cell >= 0 else {}
-        unresolved_values.append(shown_values(var, tokens, shown_cache))
-    check_skip_logic(cb, units, tokens_by_var, statuses_by_var, problems)
+    # unresolved cells by unit, then in codebook order
+    keys = np.concatenate(open_keys) if open_keys else np.zeros(0, dtype=np.int64)
+    shown_all = [shown for per_var in open_shown for shown in per_var]
+    del open_shown
+    order = np.argsort(keys, kind="stable").tolist()
+    n_vars = max(len(cb.variables), 1)
+    names = cb.names
+    unresolved = tuple((units[q // n_vars], names[q % n_vars]) for q in keys[order].tolist())
+    unresolved_values = tuple(shown_all[i] for i in order)
+    del shown_all, order, keys
+    check_skip_logic(cb, units, settled_by_var, problems)
+    del settled_by_var
     frame = pd.DataFrame(data, columns=columns)
     return MergeResult(
         frame=frame,
@@ -302,6 +314,22 @@ def merge(
     )
 
 
+def _shown_cells(
+    cells: VariableCells, units: np.ndarray, cache: dict[Any, str]
+) -> list[dict[str, str]]:
+    """The coders' values as the list shows them (:func:`shown_values`), for each of ``units``:
+    each token shown once, each cell's dict made from its entries."""
+    if not len(units):
+        return []
+    var = cells.variable
+    shown = [shown_values(var, {"": t}, cache)[""] for t in cells.tokens]
+    coder = np.array(cells.coders, dtype=object)[cells.entry_coder].tolist()
+    text = np.array(shown, dtype=object)[cells.entry_token].tolist()
+    start = cells.start[units].tolist()
+    end = cells.start[units + 1].tolist()
+    return [dict(zip(coder[a:b], text[a:b], strict=True)) for a, b in zip(start, end, strict=True)]
+
+
 def write_merged(
     result: MergeResult,
     path: str | os.PathLike[str],
@@ -315,12 +343,15 @@ def write_merged(
     Text is neutralised against formula injection in csv and xlsx, stored as it is in parquet.
     The same result gives the same bytes in every form (no time stamps inside the files).
     """
-    from coderel.io.tables import write_table
+    from coderel.io.tables import table_format, write_table
 
     cb = codebook if codebook is not None else result.codebook
-    frame = result.to_frame(spread=spread)
-    extra = {
-        LABELS_SHEET: labels_frame(frame, cb),
-        DICTIONARY_SHEET: dictionary_frame(cb, spread=spread),
-    }
+    # the dataset is only read here: no copy of it unless spread columns are added
+    frame = spread_multiselect(result.frame, result.codebook) if spread else result.frame
+    extra = None
+    if table_format(path) == "xlsx":  # the other forms have no room for more sheets
+        extra = {
+            LABELS_SHEET: labels_frame(frame, cb),
+            DICTIONARY_SHEET: dictionary_frame(cb, spread=spread),
+        }
     return write_table(frame, path, extra_sheets=extra, sheet=DATA_SHEET)
