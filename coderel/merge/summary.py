@@ -235,14 +235,14 @@ def variable_cells(var: Variable, ix: RowIndex) -> VariableCells:
     coded = counts > 0
     token = np.full(n_units, -1, dtype=np.int32)
     token[coded] = entry_token[start[:-1][coded]]
-    # distinct tokens (as a set sees them) per unit, and whether one says "does not apply"
-    entry_same = same[entry_token].astype(np.int64)
-    distinct = np.bincount(
-        np.unique(entry_unit * len(tokens) + entry_same) // len(tokens), minlength=n_units
-    )
+    # more than one distinct token (as a set sees them): an entry unlike its unit's first; and
+    # whether one of them says "does not apply"
+    entry_same = same[entry_token]
+    unlike = entry_same != same[np.maximum(token, 0)][entry_unit]
+    differ = np.bincount(entry_unit, weights=unlike, minlength=n_units) > 0
     has_na = np.bincount(entry_unit, weights=(entry_same == NA_ID), minlength=n_units) > 0
     blank = same[np.maximum(token, 0)] == BLANK_ID
-    kind = np.where(distinct > 1, np.where(has_na, 2, 1), np.where(coded & blank, 3, 0))
+    kind = np.where(differ, np.where(has_na, 2, 1), np.where(coded & blank, 3, 0))
     return VariableCells(
         variable=var,
         coders=ix.coders,
