@@ -145,6 +145,10 @@ def main() -> None:
         made = time.perf_counter() - started
         print(f"{name:4}{labels:>12,}  {'(generate)':21}{made:>9.1f}", flush=True)
         commands = ADJUDICATION if name == "j" else opts.commands.split(",")
+        if name == "j":  # the first `adjudicate` makes its list: none left from an earlier run
+            for old in ("adjudication.xlsx", "adjudication.csv", "merged.parquet"):
+                (folder / old).unlink(missing_ok=True)
+            (folder / "merged.parquet.audit.jsonl").unlink(missing_ok=True)
         for command in commands:
             args = [*coderel, command.split("-")[0], "-c", str(cb), str(data)]
             if command in ("agree", "report"):
