@@ -25,6 +25,7 @@ from coderel.cli import app
 from coderel.codebook.load import load_codebook
 from coderel.codings import Codings
 from coderel.io.read import read_codings
+from tests.table_refs import alive, recording
 
 ROOT = Path(__file__).resolve().parents[1]
 CB = ROOT / "sample_codebooks" / "wildlife_encounters.yaml"
@@ -42,24 +43,15 @@ def test_the_table_is_released_before_resampling(monkeypatch, options):
     alive_while_resampling: list[list[str]] = []
     read_project = cmd_agree.read_project
 
-    def reading(*args, **kwargs):
-        codings = read_project(*args, **kwargs)
-        refs.update(
-            codings=weakref.ref(codings),
-            frame=weakref.ref(codings.frame),
-            problems=weakref.ref(codings.problems),
-        )
-        return codings
-
     @contextlib.contextmanager
     def progress_bar(description, *, after=None):
         def callback(done, total, phase=None):
             if phase == "resampling units":
-                alive_while_resampling.append([k for k, r in refs.items() if r() is not None])
+                alive_while_resampling.append(alive(refs))
 
         yield callback
 
-    monkeypatch.setattr(cmd_agree, "read_project", reading)
+    monkeypatch.setattr(cmd_agree, "read_project", recording(read_project, refs))
     monkeypatch.setattr(cmd_agree, "delayed_progress", progress_bar)
     args = ["agree", "-c", str(CB), str(SHEETS), "--replicates", "20", "--json", *options]
     result = runner.invoke(app, args)

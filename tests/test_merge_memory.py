@@ -23,6 +23,7 @@ from coderel.cli import app
 from coderel.codebook import Category, Codebook, MissingCode, Variable
 from coderel.codings import Codings
 from coderel.merge.summary import row_index, variable_cells
+from tests.table_refs import alive, recording
 
 ROOT = Path(__file__).resolve().parents[1]
 CB = ROOT / "sample_codebooks" / "wildlife_encounters.yaml"
@@ -78,20 +79,11 @@ def test_the_table_is_released_before_writing(monkeypatch, tmp_path):
     read_project = cmd_merge.read_project
     write_merged = coderel.merge.write_merged
 
-    def reading(*args, **kwargs):
-        codings = read_project(*args, **kwargs)
-        refs.update(
-            codings=weakref.ref(codings),
-            frame=weakref.ref(codings.frame),
-            problems=weakref.ref(codings.problems),
-        )
-        return codings
-
     def writing(*args, **kwargs):
-        alive_while_writing.append([k for k, r in refs.items() if r() is not None])
+        alive_while_writing.append(alive(refs))
         return write_merged(*args, **kwargs)
 
-    monkeypatch.setattr(cmd_merge, "read_project", reading)
+    monkeypatch.setattr(cmd_merge, "read_project", recording(read_project, refs))
     monkeypatch.setattr(coderel.merge, "write_merged", writing)
     out = tmp_path / "merged.parquet"
     args = ["merge", "-c", str(CB), str(SHEETS), "--decisions", str(DECISIONS), "-o", str(out)]

@@ -32,6 +32,7 @@ from coderel.codings import Codings
 from coderel.io.read import read_codings
 from coderel.report import build_report
 from coderel.report.facts import table_facts
+from tests.table_refs import alive, recording
 
 ROOT = Path(__file__).resolve().parents[1]
 CB = ROOT / "sample_codebooks" / "wildlife_encounters.yaml"
@@ -56,15 +57,6 @@ def test_the_table_is_released_before_resampling(monkeypatch, tmp_path, options)
     read_project = cmd_report.read_project
     merge = merge_module.merge
 
-    def reading(*args, **kwargs):
-        codings = read_project(*args, **kwargs)
-        refs.update(
-            codings=weakref.ref(codings),
-            frame=weakref.ref(codings.frame),
-            problems=weakref.ref(codings.problems),
-        )
-        return codings
-
     def merging(*args, **kwargs):
         merged = merge(*args, **kwargs)
         refs.update(merged=weakref.ref(merged), merged_frame=weakref.ref(merged.frame))
@@ -74,11 +66,11 @@ def test_the_table_is_released_before_resampling(monkeypatch, tmp_path, options)
     def progress_bar(description, *, after=None):
         def callback(done, total, phase=None):
             if phase == "resampling units" and description == "agreement per variable":
-                alive_while_resampling.append([k for k, r in refs.items() if r() is not None])
+                alive_while_resampling.append(alive(refs))
 
         yield callback
 
-    monkeypatch.setattr(cmd_report, "read_project", reading)
+    monkeypatch.setattr(cmd_report, "read_project", recording(read_project, refs))
     monkeypatch.setattr(merge_module, "merge", merging)
     monkeypatch.setattr(cmd_report, "delayed_progress", progress_bar)
     out = tmp_path / "report.html"

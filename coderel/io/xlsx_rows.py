@@ -28,6 +28,8 @@ import zipfile
 from collections.abc import Sequence
 from pathlib import Path
 
+from openpyxl.utils import column_index_from_string, get_column_letter
+
 #: The longest text a cell holds is 32,767 UTF-16 units (XlsxWriter cuts longer ones); a text of
 #: at most half that many characters cannot reach it.
 SAFE_TEXT_LENGTH = 32767 // 2
@@ -66,16 +68,6 @@ def _body(text: str) -> str:
     return f' t="inlineStr"><is><t{space}>{text}</t></is></c>'
 
 
-def _letter(index: int) -> str:
-    """The column letters of a 0-based column index (0 -> A, 26 -> AA)."""
-    letters = ""
-    index += 1
-    while index:
-        index, rest = divmod(index - 1, 26)
-        letters = chr(65 + rest) + letters
-    return letters
-
-
 def _probe_styles(xml: str, first_row: int, probes: int, width: int) -> list[list[str]] | None:
     """The ``s`` attribute of each probe row's cells: one list per probe row, one entry per
     column (``''`` for a cell with no style); ``None`` unless every probe cell, and nothing
@@ -84,10 +76,10 @@ def _probe_styles(xml: str, first_row: int, probes: int, width: int) -> list[lis
     found = 0
     for letters, row, style in _STYLE.findall(xml):
         k = int(row) - first_row
-        j = 0
-        for ch in letters:
-            j = j * 26 + ord(ch) - 64
-        if not (0 <= k < probes and 1 <= j <= width):
+        if len(letters) > 3 or not 0 <= k < probes:
+            return None
+        j = column_index_from_string(letters)
+        if not 1 <= j <= width:
             return None
         found += 1
         if style:
@@ -107,7 +99,7 @@ def _rows_xml(
     numbers = [str(first_row + k) for k in range(len(row_styles))]
     cells_by_column = []
     for j, column in enumerate(columns):
-        letter = _letter(j)
+        letter = get_column_letter(j + 1)
         bodies = {v: _body(v) for v in set(column) if v is not None}
         attrs = [styles[p][j] for p in range(len(styles))]
         cells_by_column.append(
@@ -177,7 +169,7 @@ def splice_rows(
     if styles is None:  # not the probe rows as this module knows them: leave the workbook
         return False
     last = first_row + len(row_styles) - 1
-    dimension = f'<dimension ref="A1:{_letter(len(columns) - 1)}{max(last, first_row - 1)}"/>'
+    dimension = f'<dimension ref="A1:{get_column_letter(len(columns))}{max(last, first_row - 1)}"/>'
     head = re.sub(r'<dimension ref="[^"]*"/>', dimension, xml[:start], count=1)
     body = _rows_xml(columns, row_styles, styles, first_row)
     parts[member] = (head + body + xml[end:]).encode("utf-8")

@@ -79,12 +79,7 @@ def value_column_of(var: Variable, values: Sequence[Any], ids: np.ndarray) -> pd
         return pd.Series(_lookup(text, used, None)[ids], dtype=object)
     whole = var.integer or (var.is_categorical and all(isinstance(v, int) for v in present))
     if whole and all(float(v).is_integer() for v in present):
-        ints = np.zeros(len(values) + 1, dtype=np.int64)
-        empty = np.ones(len(values) + 1, dtype=bool)
-        for i in used:
-            if values[i] is not None:
-                ints[i], empty[i] = int(values[i]), False
-        return pd.Series(pd.arrays.IntegerArray(ints[ids], empty[ids]))
+        return _whole_numbers(values, used, ids)
     floats = np.full(len(values) + 1, np.nan)
     for i in used:
         if values[i] is not None:
@@ -97,14 +92,20 @@ def missing_codes_column_of(var: Variable, codes: Sequence[Any], ids: np.ndarray
     -1), each distinct code converted once: ``codes`` are the missing codes by token id."""
     used = np.unique(ids[ids >= 0]).tolist()
     if all(isinstance(c, int) and not isinstance(c, bool) for c in var.missing_codes):
-        ints = np.zeros(len(codes) + 1, dtype=np.int64)
-        empty = np.ones(len(codes) + 1, dtype=bool)
-        for i in used:
-            if codes[i] is not None:
-                ints[i], empty[i] = int(codes[i]), False
-        return pd.Series(pd.arrays.IntegerArray(ints[ids], empty[ids]))
+        return _whole_numbers(codes, used, ids)
     text = [None if c is None else str(c) for c in codes]
     return pd.Series(_lookup(text, used, None)[ids], dtype=object)
+
+
+def _whole_numbers(values: Sequence[Any], used: Sequence[int], ids: np.ndarray) -> pd.Series:
+    """``[values[i] for i in ids]`` as a nullable integer column (empty where the value is
+    ``None`` or ``i`` is -1), each value used converted once."""
+    ints = np.zeros(len(values) + 1, dtype=np.int64)
+    empty = np.ones(len(values) + 1, dtype=bool)
+    for i in used:
+        if values[i] is not None:
+            ints[i], empty[i] = int(values[i]), False
+    return pd.Series(pd.arrays.IntegerArray(ints[ids], empty[ids]))
 
 
 def _lookup(objects: Sequence[Any], used: Sequence[int], absent: Any) -> np.ndarray:
